@@ -1,0 +1,225 @@
+// A design is data: parts with values, a B+ supply, tubes from the library, the guitar input and
+// the output load. It compiles to the engine's circuit and to the netlist interchange form.
+import { tubeType, type TubeType } from '../tubes/library.ts';
+import type { EngineCircuit, EngineElement } from './engine.ts';
+import { gridsWithoutDcPath } from './topology.ts';
+import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
+
+export const DESIGN_SCHEMA = 'valvewright.design.v1';
+
+export type Taper = 'linear' | 'log' | 'reverse-log';
+
+export interface ResistorPart { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number; readonly tolerance?: number; readonly label?: string }
+export interface CapacitorPart { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number; readonly tolerance?: number; readonly polarized?: boolean; readonly label?: string }
+/** Three-terminal potentiometer: nodes [end1, wiper, end2]; position 0 puts the wiper at end1. */
+export interface PotPart { readonly id: string; readonly kind: 'pot'; readonly nodes: readonly [string, string, string]; readonly ohms: number; readonly taper: Taper; readonly position: number; readonly tolerance?: number; readonly label?: string }
+export interface SwitchPart { readonly id: string; readonly kind: 'switch'; readonly nodes: readonly [string, string]; readonly closed: boolean; readonly contactOhms?: number; readonly label?: string }
+export interface TubePart {
+  readonly id: string; readonly kind: 'tube'; readonly type: string;
+  /** Plate-current scale standing for a strong (> 1) or weak (< 1) sample. */
+  readonly sample: number;
+  readonly nodes: { readonly plate: string; readonly grid: string; readonly cathode: string; readonly screen?: string };
+  /** DC voltage of the heater winding relative to ground (heater elevation), volts. */
+  readonly heaterVolts?: number;
+  readonly label?: string;
+}
+export type Part = ResistorPart | CapacitorPart | PotPart | SwitchPart | TubePart;
+
+export interface Supply {
+  readonly node: string;
+  readonly volts: number;
+  readonly ohms: number;
+  readonly filterFarads: number;
+}
+
+export interface Design {
+  readonly schema: typeof DESIGN_SCHEMA;
+  readonly name: string;
+  readonly description?: string;
+  readonly input: { readonly node: string; readonly ohms: number };
+  readonly output: { readonly node: string; readonly loadOhms: number };
+  readonly supply: Supply;
+  readonly parts: readonly Part[];
+}
+
+export const GROUND = '0';
+export const SUPPLY_ID = 'B+';
+export const SUPPLY_FILTER_ID = 'B+.filter';
+export const LOAD_ID = 'load';
+const POT_END_OHMS = 1; // wiper-to-end residual resistance of a real pot (common practice)
+const DEFAULT_CONTACT_OHMS = 0.05;
+
+export class DesignError extends Error {
+  override name = 'DesignError';
+}
+
+/** Fraction of the track between end1 and the wiper for a knob position 0..1. */
+export function taperFraction(taper: Taper, position: number): number {
+  const x = Math.min(1, Math.max(0, position));
+  // Audio ("log") taper approximated by an exponential through 10 % at half rotation (common practice).
+  const b = 81;
+  switch (taper) {
+    case 'linear': return x;
+    case 'log': return (Math.pow(b, x) - 1) / (b - 1);
+    case 'reverse-log': return 1 - (Math.pow(b, 1 - x) - 1) / (b - 1);
+  }
+}
+
+/** The two resistors a pot stands for at its present setting. */
+export function potResistors(p: PotPart): { upperOhms: number; lowerOhms: number } {
+  const f = taperFraction(p.taper, p.position);
+  return { upperOhms: Math.max(POT_END_OHMS, p.ohms * f), lowerOhms: Math.max(POT_END_OHMS, p.ohms * (1 - f)) };
+}
+
+export const potUpperId = (id: string) => `${id}.1`;
+export const potLowerId = (id: string) => `${id}.2`;
+
+function checkPositive(v: unknown, what: string, min: number, max: number, unit: string): void {
+  if (typeof v !== 'number' || !Number.isFinite(v)) throw new DesignError(`${what} must be a number`);
+  if (!(v > 0)) throw new DesignError(`${what} must be positive (got ${v} ${unit})`);
+  if (v < min || v > max) throw new DesignError(`${what} = ${v} ${unit} is outside the sane range ${min}..${max} ${unit}`);
+}
+
+/** Validate a design (object or parsed JSON). Throws DesignError with one clear line. */
+export function validateDesign(doc: unknown): Design {
+  if (typeof doc !== 'object' || doc === null) throw new DesignError('design must be a JSON object');
+  const d = doc as Partial<Design>;
+  if (d.schema !== DESIGN_SCHEMA) throw new DesignError(`design "schema" must be "${DESIGN_SCHEMA}"`);
+  if (typeof d.name !== 'string' || !d.name.trim()) throw new DesignError('design needs a "name"');
+  if (!d.input || typeof d.input.node !== 'string') throw new DesignError('design needs "input": { "node", "ohms" }');
+  if (!(d.input.ohms >= 0)) throw new DesignError('input ohms must be zero or positive');
+  if (!d.output || typeof d.output.node !== 'string') throw new DesignError('design needs "output": { "node", "loadOhms" }');
+  checkPositive(d.output.loadOhms, 'output loadOhms', 1, 1e9, 'ohms');
+  if (!d.supply || typeof d.supply.node !== 'string') throw new DesignError('design needs "supply": { "node", "volts", "ohms", "filterFarads" }');
+  checkPositive(d.supply.volts, 'supply volts', 1, 1000, 'V');
+  if (!(d.supply.ohms >= 0 && d.supply.ohms < 1e6)) throw new DesignError('supply ohms must be between 0 and 1 M');
+  checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
+  if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
+  const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);
+  const nodes = new Set<string>([GROUND, d.supply.node, d.input.node]);
+  for (const p of d.parts as Part[]) {
+    if (!p || typeof p.id !== 'string' || !p.id) throw new DesignError('every part needs an "id"');
+    if (ids.has(p.id)) throw new DesignError(`part id "${p.id}" is used twice (or reserved)`);
+    ids.add(p.id);
+    const where = `part ${p.id}`;
+    const nodeList = p.kind === 'tube' ? Object.values(p.nodes ?? {}) : (p.nodes as readonly string[] | undefined);
+    if (!Array.isArray(nodeList) || nodeList.some((n) => typeof n !== 'string' || !n)) throw new DesignError(`${where}: nodes must be node names`);
+    switch (p.kind) {
+      case 'resistor': checkPositive(p.ohms, `${where} ohms`, 0.01, 1e12, 'ohms'); break;
+      case 'capacitor': checkPositive(p.farads, `${where} farads`, 1e-15, 10, 'F'); break;
+      case 'pot':
+        checkPositive(p.ohms, `${where} ohms`, 10, 1e8, 'ohms');
+        if (!(p.position >= 0 && p.position <= 1)) throw new DesignError(`${where}: position must be between 0 and 1`);
+        if (!['linear', 'log', 'reverse-log'].includes(p.taper)) throw new DesignError(`${where}: taper must be linear, log or reverse-log`);
+        break;
+      case 'switch':
+        if (typeof p.closed !== 'boolean') throw new DesignError(`${where}: "closed" must be true or false`);
+        if (p.contactOhms !== undefined) checkPositive(p.contactOhms, `${where} contactOhms`, 1e-4, 100, 'ohms');
+        break;
+      case 'tube': {
+        let t: TubeType;
+        try { t = tubeType(p.type); } catch (err) { throw new DesignError(`${where}: ${(err as Error).message}`); }
+        if (!(p.sample > 0.2 && p.sample < 5)) throw new DesignError(`${where}: sample factor must be between 0.2 and 5`);
+        if (t.kind === 'pentode' && !p.nodes.screen) throw new DesignError(`${where}: a ${t.name} pentode needs a screen node`);
+        if (t.kind === 'triode' && p.nodes.screen) throw new DesignError(`${where}: a ${t.name} triode has no screen`);
+        break;
+      }
+      default: throw new DesignError(`${where}: unknown kind ${JSON.stringify((p as { kind: unknown }).kind)}`);
+    }
+    const distinct = p.kind === 'pot' ? new Set([p.nodes[0], p.nodes[1]]).size === 2 && p.nodes[0] !== p.nodes[2] : p.kind === 'tube' || new Set(nodeList).size === nodeList.length;
+    if (!distinct) throw new DesignError(`${where}: two terminals on the same node${p.kind === 'pot' ? ' (a pot may tie its wiper to end 2 as a variable resistor, nothing else)' : ''}`);
+    for (const n of nodeList) nodes.add(n);
+  }
+  if (!nodes.has(d.output.node)) throw new DesignError(`output node "${d.output.node}" is not connected to any part`);
+  const design = doc as Design;
+  // Every node needs at least two connections (the supply, input and load count).
+  const uses = new Map<string, number>();
+  const bump = (n: string) => uses.set(n, (uses.get(n) ?? 0) + 1);
+  bump(d.supply.node); bump(d.input.node); bump(d.output.node);
+  for (const p of design.parts) for (const n of p.kind === 'tube' ? Object.values(p.nodes) : p.nodes) if (n) bump(n);
+  for (const [n, c] of uses) if (n !== GROUND && c < 2) throw new DesignError(`node "${n}" connects to only one terminal (unknown or misspelt node?)`);
+  const circuit = designCircuit(design);
+  const floating = gridsWithoutDcPath(circuit.elements, circuit.input, GROUND);
+  if (floating.length > 0) {
+    const f = floating[0]!;
+    throw new DesignError(`grid of ${f.tube} (node "${f.grid}") has no DC path: add a grid resistor`);
+  }
+  return design;
+}
+
+function tubeElement(p: TubePart): NetTube {
+  const t = tubeType(p.type);
+  // The sample factor scales plate (and screen) current: kg1, kg2 divided by it (netlist-v1 equations).
+  if (t.kind === 'triode') {
+    return {
+      id: p.id, kind: 'triode', nodes: { plate: p.nodes.plate, grid: p.nodes.grid, cathode: p.nodes.cathode },
+      model: { name: 'koren-triode', ...t.model, kg1: t.model.kg1 / p.sample },
+      gridCurrent: { name: 'dempwolf-zolzer', ...t.gridCurrent },
+    };
+  }
+  return {
+    id: p.id, kind: 'pentode', nodes: { plate: p.nodes.plate, screen: p.nodes.screen ?? '', grid: p.nodes.grid, cathode: p.nodes.cathode },
+    model: { name: 'koren-pentode', ...t.model, kg1: t.model.kg1 / p.sample, kg2: t.model.kg2 / p.sample },
+    gridCurrent: { name: 'dempwolf-zolzer', ...t.gridCurrent },
+  };
+}
+
+function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
+  const out: EngineElement[] = [
+    { id: SUPPLY_ID, kind: 'dc-source', nodes: [d.supply.node, GROUND], volts: d.supply.volts, ohms: d.supply.ohms },
+    { id: SUPPLY_FILTER_ID, kind: 'capacitor', nodes: [d.supply.node, GROUND], farads: d.supply.filterFarads },
+    { id: LOAD_ID, kind: 'resistor', nodes: [d.output.node, GROUND], ohms: d.output.loadOhms },
+  ];
+  for (const p of d.parts) {
+    switch (p.kind) {
+      case 'resistor': out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: p.ohms }); break;
+      case 'capacitor': out.push({ id: p.id, kind: 'capacitor', nodes: p.nodes, farads: p.farads }); break;
+      case 'pot': {
+        const r = potResistors(p);
+        out.push({ id: potUpperId(p.id), kind: 'resistor', nodes: [p.nodes[0], p.nodes[1]], ohms: r.upperOhms });
+        if (p.nodes[1] !== p.nodes[2]) out.push({ id: potLowerId(p.id), kind: 'resistor', nodes: [p.nodes[1], p.nodes[2]], ohms: r.lowerOhms });
+        break;
+      }
+      case 'switch': {
+        const contactOhms = p.contactOhms ?? DEFAULT_CONTACT_OHMS;
+        if (openSwitches === 'keep') out.push({ id: p.id, kind: 'switch', nodes: p.nodes, closed: p.closed, contactOhms });
+        else if (p.closed) out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: contactOhms });
+        break;
+      }
+      case 'tube': out.push(tubeElement(p)); break;
+    }
+  }
+  return out;
+}
+
+/** The engine's circuit (switches kept as switches so they can be flipped at run time). */
+export function designCircuit(d: Design): EngineCircuit {
+  return { ground: GROUND, input: { node: d.input.node, ohms: d.input.ohms }, output: { node: d.output.node }, elements: elementsOf(d, 'keep') };
+}
+
+/** The netlist interchange form at the present settings (pots as two resistors, open switches left out). */
+export function designToNetlist(d: Design): Netlist {
+  return {
+    schema: NETLIST_SCHEMA, ground: GROUND, input: { node: d.input.node, ohms: d.input.ohms }, output: { node: d.output.node },
+    elements: elementsOf(d, 'omit') as NetElement[],
+  };
+}
+
+/** Engine-level updates that stand for a new value of one design part. */
+export function partValueUpdates(part: Part): { id: string; value: number }[] {
+  switch (part.kind) {
+    case 'resistor': return [{ id: part.id, value: part.ohms }];
+    case 'capacitor': return [{ id: part.id, value: part.farads }];
+    case 'pot': {
+      const r = potResistors(part);
+      const up = [{ id: potUpperId(part.id), value: r.upperOhms }];
+      return part.nodes[1] === part.nodes[2] ? up : [...up, { id: potLowerId(part.id), value: r.lowerOhms }];
+    }
+    default: return [];
+  }
+}
+
+/** Replace one part (by id) in a design, returning a new design. */
+export function withPart(d: Design, part: Part): Design {
+  return { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) };
+}

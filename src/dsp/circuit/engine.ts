@@ -1,0 +1,354 @@
+// Circuit engine: compiles a netlist into a wave-digital model whose leaves are the capacitors
+// (trapezoidal / bilinear one-ports, Fettweis 1986 "Wave digital filters: theory and practice",
+// b[n] = a[n-1]) and the sources (resistive voltage sources, b = EMF), with all resistors and
+// every tube port at one nonlinear root (see wdf/root-network.ts and wdf/newton-root.ts).
+// All nonlinear ports are solved together, so direct-coupled stages need no unit delay.
+import { compileLinearNetwork, type Branch, type RootMatrices } from '../wdf/root-network.ts';
+import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
+import { PentodeDevice, TriodeDevice } from '../tubes/devices.ts';
+import type { NetElement, NetTube, Netlist } from './netlist.ts';
+
+/** A switch is an engine element (a netlist writes it as a resistor, or leaves it out when open). */
+export interface EngineSwitch {
+  readonly id: string;
+  readonly kind: 'switch';
+  readonly nodes: readonly [string, string];
+  readonly closed: boolean;
+  readonly contactOhms: number;
+}
+export type EngineElement = NetElement | EngineSwitch;
+export interface EngineCircuit extends Omit<Netlist, 'elements' | 'schema'> {
+  readonly elements: readonly EngineElement[];
+}
+
+export interface TubeOperatingPoint {
+  readonly kind: 'triode' | 'pentode';
+  readonly plateAmps: number;
+  readonly plateWatts: number;
+  readonly gridAmps: number;
+  readonly screenAmps: number;
+  readonly screenWatts: number;
+  readonly cathodeAmps: number;
+  readonly vgk: number;
+  readonly vpk: number;
+  readonly vsk: number;
+}
+
+export interface OperatingPoint {
+  readonly nodes: Readonly<Record<string, number>>;
+  readonly tubes: Readonly<Record<string, TubeOperatingPoint>>;
+  /** Newton iterations used over all supply steps. */
+  readonly iterations: number;
+  readonly supplySteps: number;
+}
+
+export class OperatingPointError extends Error {
+  override name = 'OperatingPointError';
+}
+
+export interface ValueUpdate {
+  readonly id: string;
+  /** ohms (resistor), farads (capacitor), volts (dc-source EMF) */
+  readonly value: number;
+}
+
+const GMIN_SIEMENS = 1e-12;
+const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true } as const;
+const DC = { toleranceVolts: 1e-11, maxIterations: 200 } as const;
+
+interface TubeSlot {
+  readonly el: NetTube;
+  readonly device: TriodeDevice | PentodeDevice;
+  readonly offset: number;
+}
+
+export class CircuitEngine {
+  readonly nodeNames: readonly string[];
+  private sampleRateHz: number;
+  private elements: Map<string, EngineElement>;
+  private readonly circuit: EngineCircuit;
+  private readonly nodeIndex: Map<string, number>;
+  private readonly caps: { id: string; branch: Branch; farads: number }[] = [];
+  private readonly sources: { id: string; branch: Branch; ohms: number; volts: number }[] = [];
+  private readonly tubes: TubeSlot[] = [];
+  private readonly nlPorts: Branch[] = [];
+  private readonly devices: RootDevice[] = [];
+  private readonly inputLeaf: number;
+  private readonly outputNode: number;
+  private tr!: RootMatrices;
+  private dc: RootMatrices | null = null;
+  private readonly root: NewtonRoot;
+  private readonly dcRoot: NewtonRoot;
+  // state and scratch (allocated once)
+  private readonly capV: Float64Array;
+  private readonly capI: Float64Array;
+  private readonly capR: Float64Array;
+  private readonly u: Float64Array;
+  private readonly p: Float64Array;
+  private probeRows: Int32Array = new Int32Array(0);
+  /** Probe node voltages after the last processed sample, in the order given to setProbes. */
+  probeValues: Float64Array = new Float64Array(0);
+  private op: OperatingPoint | null = null;
+
+  constructor(circuit: EngineCircuit | Netlist, sampleRateHz: number) {
+    if (!(sampleRateHz > 0 && Number.isFinite(sampleRateHz))) throw new Error(`sample rate must be positive (got ${sampleRateHz})`);
+    this.circuit = circuit;
+    this.sampleRateHz = sampleRateHz;
+    this.elements = new Map(circuit.elements.map((e) => [e.id, e]));
+    const names: string[] = [];
+    this.nodeIndex = new Map();
+    const idx = (name: string): number => {
+      if (name === circuit.ground) return -1;
+      let i = this.nodeIndex.get(name);
+      if (i === undefined) { i = names.length; names.push(name); this.nodeIndex.set(name, i); }
+      return i;
+    };
+    for (const e of circuit.elements) {
+      if (e.kind === 'capacitor') this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, farads: e.farads });
+    }
+    this.inputLeaf = this.caps.length;
+    this.sources.push({ id: '<input>', branch: { a: idx(circuit.input.node), b: -1 }, ohms: circuit.input.ohms, volts: 0 });
+    for (const e of circuit.elements) {
+      if (e.kind === 'dc-source') this.sources.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, ohms: e.ohms, volts: e.volts });
+      else if (e.kind === 'resistor' || e.kind === 'switch') { idx(e.nodes[0]); idx(e.nodes[1]); }
+      else if (e.kind === 'triode' || e.kind === 'pentode') {
+        const k = idx(e.nodes.cathode);
+        const offset = this.nlPorts.length;
+        this.nlPorts.push({ a: idx(e.nodes.grid), b: k }, { a: idx(e.nodes.plate), b: k });
+        let device: TriodeDevice | PentodeDevice;
+        if (e.kind === 'pentode') {
+          this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
+          device = new PentodeDevice(e.model, e.gridCurrent);
+        } else device = new TriodeDevice(e.model, e.gridCurrent);
+        this.tubes.push({ el: e, device, offset });
+        this.devices.push(device);
+      }
+    }
+    this.outputNode = idx(circuit.output.node);
+    this.nodeNames = names;
+    const nu = this.caps.length + this.sources.length;
+    this.capV = new Float64Array(this.caps.length);
+    this.capI = new Float64Array(this.caps.length);
+    this.capR = new Float64Array(this.caps.length);
+    this.u = new Float64Array(nu);
+    this.p = new Float64Array(this.nlPorts.length);
+    this.compile();
+    this.root = new NewtonRoot(this.devices, this.tr.F);
+    this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
+    this.resetToOperatingPoint();
+  }
+
+  get outputNodeName(): string {
+    return this.circuit.output.node;
+  }
+
+  get inputNodeName(): string {
+    return this.circuit.input.node;
+  }
+
+  get sampleRate(): number {
+    return this.sampleRateHz;
+  }
+
+  /** Newton statistics of the transient root. */
+  get solverStats(): { solves: number; iterations: number; failures: number } {
+    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures };
+  }
+
+  private spec(transient: boolean) {
+    const conductances: (Branch & { siemens: number })[] = [];
+    const node = (n: string) => this.nodeIndex.get(n) ?? -1;
+    for (const e of this.elements.values()) {
+      if (e.kind === 'resistor') conductances.push({ a: node(e.nodes[0]), b: node(e.nodes[1]), siemens: 1 / e.ohms });
+      else if (e.kind === 'switch' && e.closed) conductances.push({ a: node(e.nodes[0]), b: node(e.nodes[1]), siemens: 1 / e.contactOhms });
+    }
+    const T = 1 / this.sampleRateHz;
+    const wavePorts = [
+      ...(transient ? this.caps.map((c, j) => ({ ...c.branch, ohms: (this.capR[j] = T / (2 * c.farads)) })) : []),
+      ...this.sources.map((s) => ({ ...s.branch, ohms: s.ohms })),
+    ];
+    return { nodeCount: this.nodeNames.length, conductances, wavePorts, nonlinearPorts: this.nlPorts, gminSiemens: GMIN_SIEMENS };
+  }
+
+  private compile(): void {
+    this.tr = compileLinearNetwork(this.spec(true));
+    this.dc = null;
+    this.root?.setF(this.tr.F);
+    this.op = null;
+  }
+
+  /** Change component values at run time (batched: one recompilation). Capacitor voltages and currents are kept. */
+  setValues(updates: readonly ValueUpdate[]): void {
+    for (const up of updates) {
+      const e = this.elements.get(up.id);
+      if (!e) throw new Error(`no element "${up.id}" in this circuit`);
+      if (!Number.isFinite(up.value)) throw new Error(`value for ${up.id} must be finite`);
+      if (e.kind === 'resistor') {
+        if (!(up.value > 0)) throw new Error(`${up.id}: resistance must be positive`);
+        this.elements.set(up.id, { ...e, ohms: up.value });
+      } else if (e.kind === 'capacitor') {
+        if (!(up.value > 0)) throw new Error(`${up.id}: capacitance must be positive`);
+        this.elements.set(up.id, { ...e, farads: up.value });
+        const c = this.caps.find((x) => x.id === up.id);
+        if (c) c.farads = up.value;
+      } else if (e.kind === 'dc-source') {
+        this.elements.set(up.id, { ...e, volts: up.value });
+        const s = this.sources.find((x) => x.id === up.id);
+        if (s) s.volts = up.value;
+        this.op = null;
+        continue;
+      } else throw new Error(`${up.id}: a ${e.kind} has no single value to set`);
+    }
+    if (updates.some((u) => this.elements.get(u.id)?.kind !== 'dc-source')) this.compile();
+  }
+
+  setSwitch(id: string, closed: boolean): void {
+    const e = this.elements.get(id);
+    if (!e || e.kind !== 'switch') throw new Error(`no switch "${id}" in this circuit`);
+    this.elements.set(id, { ...e, closed });
+    this.compile();
+  }
+
+  /** Tube sample factor (plate and screen current scale: weak < 1 < strong). */
+  setTubeSample(id: string, factor: number): void {
+    const t = this.tubes.find((x) => x.el.id === id);
+    if (!t) throw new Error(`no tube "${id}" in this circuit`);
+    if (!(factor > 0 && factor < 10)) throw new Error(`${id}: sample factor must be between 0 and 10`);
+    t.device.sample = factor;
+    this.op = null;
+  }
+
+  /** Per-sample override of a dc-source EMF (supply ripple); cheap, no recompilation. */
+  setSourceVolts(id: string, volts: number): void {
+    const j = this.sources.findIndex((s) => s.id === id);
+    if (j < 0) throw new Error(`no dc-source "${id}"`);
+    this.sources[j]!.volts = volts;
+  }
+
+  setSampleRate(sampleRateHz: number): void {
+    this.sampleRateHz = sampleRateHz;
+    this.compile();
+  }
+
+  /** DC operating point: capacitors open, input at 0 V, supplies stepped up from zero. */
+  operatingPoint(): OperatingPoint {
+    if (this.op) return this.op;
+    if (!this.dc) this.dc = compileLinearNetwork(this.spec(false));
+    const dc = this.dc;
+    this.dcRoot.setF(dc.F);
+    const ns = this.sources.length;
+    const uFull = new Float64Array(ns);
+    this.sources.forEach((s, j) => { uFull[j] = j === 0 ? 0 : s.volts; });
+    const m = this.nlPorts.length;
+    const p = new Float64Array(m);
+    const solveAt = (steps: number): number => {
+      this.dcRoot.v.fill(0);
+      let its = 0;
+      for (let k = 1; k <= steps; k++) {
+        const s = k / steps;
+        for (let r = 0; r < m; r++) {
+          let acc = 0;
+          for (let c = 0; c < ns; c++) acc += dc.E[r * ns + c]! * uFull[c]! * s;
+          p[r] = acc;
+        }
+        const n = this.dcRoot.solve(p, DC);
+        if (n < 0) return -1;
+        its += n;
+      }
+      return its;
+    };
+    let steps = 10;
+    let its = solveAt(steps);
+    while (its < 0 && steps < 2000) { steps *= 4; its = solveAt(steps); }
+    if (its < 0) throw new OperatingPointError('DC operating point did not converge even with fine supply stepping');
+    const v = this.dcRoot.v, i = this.dcRoot.i;
+    const nodes: Record<string, number> = {};
+    this.nodeNames.forEach((name, n) => {
+      let acc = 0;
+      for (let c = 0; c < ns; c++) acc += dc.Zu[n * ns + c]! * uFull[c]!;
+      for (let c = 0; c < m; c++) acc += dc.Zi[n * m + c]! * i[c]!;
+      nodes[name] = acc;
+    });
+    nodes[this.circuit.ground] = 0;
+    const tubes: Record<string, TubeOperatingPoint> = {};
+    for (const t of this.tubes) {
+      const o = t.offset;
+      const pent = t.el.kind === 'pentode';
+      const ig = i[o]!, ip = i[o + 1]!, is = pent ? i[o + 2]! : 0;
+      const vsk = pent ? v[o + 2]! : 0;
+      tubes[t.el.id] = {
+        kind: t.el.kind, plateAmps: ip, plateWatts: ip * v[o + 1]!, gridAmps: ig, screenAmps: is, screenWatts: is * vsk,
+        cathodeAmps: ig + ip + is, vgk: v[o]!, vpk: v[o + 1]!, vsk,
+      };
+    }
+    this.op = { nodes, tubes, iterations: its, supplySteps: steps };
+    return this.op;
+  }
+
+  /** Put every capacitor at its DC voltage and the root at the DC solution: the next sample is steady. */
+  resetToOperatingPoint(): void {
+    const op = this.operatingPoint();
+    const volt = (n: number) => (n < 0 ? 0 : op.nodes[this.nodeNames[n]!]!);
+    this.caps.forEach((c, j) => {
+      this.capV[j] = volt(c.branch.a) - volt(c.branch.b);
+      this.capI[j] = 0;
+    });
+    this.root.setState(this.dcRoot.v);
+  }
+
+  /** Choose node voltages to read after every sample (probeValues). */
+  setProbes(nodeNames: readonly string[]): void {
+    this.probeRows = Int32Array.from(nodeNames.map((n) => {
+      if (n === this.circuit.ground) return -1;
+      const i = this.nodeIndex.get(n);
+      if (i === undefined) throw new Error(`no node "${n}" to probe`);
+      return i;
+    }));
+    this.probeValues = new Float64Array(nodeNames.length);
+  }
+
+  /** One sample: input source EMF in volts, returns the output node voltage in volts. */
+  processSample(vin: number): number {
+    const tr = this.tr;
+    const nu = tr.nu, m = tr.m, nc = this.caps.length;
+    const u = this.u, p = this.p, capV = this.capV, capI = this.capI, capR = this.capR;
+    for (let j = 0; j < nc; j++) u[j] = capV[j]! + capR[j]! * capI[j]!;
+    u[this.inputLeaf] = vin;
+    for (let s = 1; s < this.sources.length; s++) u[nc + s] = this.sources[s]!.volts;
+    const E = tr.E;
+    for (let r = 0; r < m; r++) {
+      let acc = 0;
+      const base = r * nu;
+      for (let c = 0; c < nu; c++) acc += E[base + c]! * u[c]!;
+      p[r] = acc;
+    }
+    this.root.solve(p, TRANSIENT);
+    const i = this.root.i;
+    const Pu = tr.Pu, Pi = tr.Pi;
+    for (let j = 0; j < nc; j++) {
+      let vj = 0;
+      const bu = j * nu, bi = j * m;
+      for (let c = 0; c < nu; c++) vj += Pu[bu + c]! * u[c]!;
+      for (let c = 0; c < m; c++) vj += Pi[bi + c]! * i[c]!;
+      capI[j] = (vj - u[j]!) / capR[j]!;
+      capV[j] = vj;
+    }
+    for (let k = 0; k < this.probeRows.length; k++) this.probeValues[k] = this.nodeVoltage(this.probeRows[k]!);
+    const out = this.nodeVoltage(this.outputNode);
+    return Number.isFinite(out) ? out : 0;
+  }
+
+  private nodeVoltage(n: number): number {
+    if (n < 0) return 0;
+    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, i = this.root.i;
+    let acc = 0;
+    for (let c = 0; c < nu; c++) acc += tr.Zu[n * nu + c]! * u[c]!;
+    for (let c = 0; c < m; c++) acc += tr.Zi[n * m + c]! * i[c]!;
+    return acc;
+  }
+
+  /** Process a block of input volts into output volts (arrays may be the same). */
+  processBlock(input: ArrayLike<number>, output: { [k: number]: number; length: number }, n = input.length): void {
+    for (let k = 0; k < n; k++) output[k] = this.processSample(input[k]!);
+  }
+}

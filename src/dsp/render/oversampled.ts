@@ -1,0 +1,64 @@
+// A circuit engine run at factor x the base rate between an interpolator and a decimator.
+import { CircuitEngine, type EngineCircuit } from '../circuit/engine.ts';
+import type { Netlist } from '../circuit/netlist.ts';
+import { Oversampler, type OversamplingFactor, type OversamplingQuality } from '../oversampling/oversampler.ts';
+
+export const OVERSAMPLING_FACTORS: readonly OversamplingFactor[] = [1, 2, 4, 8, 16, 32];
+
+export function isOversamplingFactor(x: number): x is OversamplingFactor {
+  return (OVERSAMPLING_FACTORS as readonly number[]).includes(x);
+}
+
+export class OversampledCircuit {
+  readonly engine: CircuitEngine;
+  readonly factor: OversamplingFactor;
+  readonly baseRateHz: number;
+  private up: Oversampler;
+  private down: Oversampler;
+  private readonly hi: Float64Array;
+  private readonly hiOut: Float64Array;
+  private outDc = 0;
+
+  constructor(circuit: EngineCircuit | Netlist, baseRateHz: number, factor: OversamplingFactor, quality?: OversamplingQuality) {
+    this.factor = factor;
+    this.baseRateHz = baseRateHz;
+    this.engine = new CircuitEngine(circuit, baseRateHz * factor);
+    const opts = quality ? { quality } : undefined;
+    this.up = new Oversampler(factor, opts);
+    this.down = new Oversampler(factor, opts);
+    this.hi = new Float64Array(factor);
+    this.hiOut = new Float64Array(factor);
+    this.reset();
+  }
+
+  /** Round-trip latency of the rate conversion, in base-rate samples. */
+  get latencySamples(): number {
+    return this.up.latencyBaseSamples;
+  }
+
+  /** Back to the DC operating point with the filters at steady state. */
+  reset(): void {
+    this.engine.resetToOperatingPoint();
+    const op = this.engine.operatingPoint();
+    this.outDc = op.nodes[this.outputNodeName()] ?? 0;
+    this.up.reset(0);
+    this.down.reset(this.outDc);
+  }
+
+  private outputNodeName(): string {
+    return this.engine.outputNodeName;
+  }
+
+  /** One base-rate sample of input volts to output volts. */
+  processSample(vin: number): number {
+    const f = this.factor;
+    if (f === 1) return this.engine.processSample(vin);
+    this.up.upsample(vin, this.hi);
+    for (let k = 0; k < f; k++) this.hiOut[k] = this.engine.processSample(this.hi[k]!);
+    return this.down.downsample(this.hiOut);
+  }
+
+  processBlock(input: ArrayLike<number>, output: { [k: number]: number; length: number }, n = input.length): void {
+    for (let k = 0; k < n; k++) output[k] = this.processSample(input[k]!);
+  }
+}

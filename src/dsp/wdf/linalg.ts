@@ -1,0 +1,111 @@
+// Small dense linear algebra on row-major Float64Array matrices (circuits here have < 64 nodes).
+
+export class SingularMatrixError extends Error {
+  override name = 'SingularMatrixError';
+}
+
+/** In-place LU factorisation with partial pivoting. Returns the pivot permutation. */
+export function luFactor(a: Float64Array, n: number, piv: Int32Array = new Int32Array(n)): Int32Array {
+  for (let i = 0; i < n; i++) piv[i] = i;
+  for (let k = 0; k < n; k++) {
+    let p = k;
+    let max = Math.abs(a[k * n + k]!);
+    for (let i = k + 1; i < n; i++) {
+      const v = Math.abs(a[i * n + k]!);
+      if (v > max) { max = v; p = i; }
+    }
+    if (!(max > 1e-300)) throw new SingularMatrixError(`matrix is singular at column ${k}`);
+    if (p !== k) {
+      for (let j = 0; j < n; j++) {
+        const t = a[k * n + j]!; a[k * n + j] = a[p * n + j]!; a[p * n + j] = t;
+      }
+      const t = piv[k]!; piv[k] = piv[p]!; piv[p] = t;
+    }
+    const d = a[k * n + k]!;
+    for (let i = k + 1; i < n; i++) {
+      const f = a[i * n + k]! / d;
+      a[i * n + k] = f;
+      if (f !== 0) for (let j = k + 1; j < n; j++) a[i * n + j]! -= f * a[k * n + j]!;
+    }
+  }
+  return piv;
+}
+
+/** Solve LU x = P b in place in `b` (b overwritten by x). `tmp` must have length n. */
+export function luSolve(lu: Float64Array, piv: Int32Array, n: number, b: Float64Array, tmp: Float64Array): void {
+  for (let i = 0; i < n; i++) tmp[i] = b[piv[i]!]!;
+  for (let i = 0; i < n; i++) {
+    let s = tmp[i]!;
+    for (let j = 0; j < i; j++) s -= lu[i * n + j]! * tmp[j]!;
+    tmp[i] = s;
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    let s = tmp[i]!;
+    for (let j = i + 1; j < n; j++) s -= lu[i * n + j]! * b[j]!;
+    b[i] = s / lu[i * n + i]!;
+  }
+}
+
+/** Inverse of an n x n matrix (input not modified). */
+export function invert(m: Float64Array, n: number): Float64Array {
+  const a = Float64Array.from(m);
+  const piv = luFactor(a, n);
+  const inv = new Float64Array(n * n);
+  const col = new Float64Array(n);
+  const tmp = new Float64Array(n);
+  for (let j = 0; j < n; j++) {
+    col.fill(0);
+    col[j] = 1;
+    luSolve(a, piv, n, col, tmp);
+    for (let i = 0; i < n; i++) inv[i * n + j] = col[i]!;
+  }
+  return inv;
+}
+
+/** C = A (r x k) * B (k x c). */
+export function matMul(a: Float64Array, b: Float64Array, r: number, k: number, c: number): Float64Array {
+  const out = new Float64Array(r * c);
+  for (let i = 0; i < r; i++) {
+    for (let t = 0; t < k; t++) {
+      const av = a[i * k + t]!;
+      if (av === 0) continue;
+      for (let j = 0; j < c; j++) out[i * c + j]! += av * b[t * c + j]!;
+    }
+  }
+  return out;
+}
+
+/**
+ * Solve the small dense system J x = r in place (x returned in r) by Gaussian elimination with
+ * partial pivoting; J is destroyed. Returns false if singular. No allocation.
+ */
+export function solveInPlace(j: Float64Array, r: Float64Array, n: number): boolean {
+  for (let k = 0; k < n; k++) {
+    let p = k;
+    let max = Math.abs(j[k * n + k]!);
+    for (let i = k + 1; i < n; i++) {
+      const v = Math.abs(j[i * n + k]!);
+      if (v > max) { max = v; p = i; }
+    }
+    if (!(max > 1e-300)) return false;
+    if (p !== k) {
+      for (let c = k; c < n; c++) {
+        const t = j[k * n + c]!; j[k * n + c] = j[p * n + c]!; j[p * n + c] = t;
+      }
+      const t = r[k]!; r[k] = r[p]!; r[p] = t;
+    }
+    const d = j[k * n + k]!;
+    for (let i = k + 1; i < n; i++) {
+      const f = j[i * n + k]! / d;
+      if (f === 0) continue;
+      for (let c = k + 1; c < n; c++) j[i * n + c]! -= f * j[k * n + c]!;
+      r[i]! -= f * r[k]!;
+    }
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    let s = r[i]!;
+    for (let c = i + 1; c < n; c++) s -= j[i * n + c]! * r[c]!;
+    r[i] = s / j[i * n + i]!;
+  }
+  return true;
+}
