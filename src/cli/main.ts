@@ -1,0 +1,46 @@
+// The valvewright command line: one dispatcher, one module per command.
+import { CliError } from './args.ts';
+
+export interface CommandIO {
+  out(line: string): void;
+  err(line: string): void;
+}
+
+type Command = (argv: readonly string[], io: CommandIO) => Promise<number>;
+
+const COMMANDS: Record<string, { summary: string; load: () => Promise<Command> }> = {
+  render: { summary: 'render a WAV through a design or netlist', load: async () => (await import('./commands/render.ts')).runRender },
+  op: { summary: 'DC operating point (node voltages, tube currents and dissipation)', load: async () => (await import('./commands/op.ts')).runOp },
+  netlist: { summary: 'print a design as netlist-v1 JSON', load: async () => (await import('./commands/netlist.ts')).runNetlist },
+  bench: { summary: 'real-time factors of the templates at 1x-8x oversampling', load: async () => (await import('./commands/bench.ts')).runBench },
+  loudness: {
+    summary: 'integrated loudness, loudness range and true peak of a WAV (BS.1770-4)',
+    load: async () => {
+      const { runLoudness } = await import('./commands/loudness.ts');
+      return (argv, io) => runLoudness(argv, io.out);
+    },
+  },
+};
+
+function usage(io: CommandIO): void {
+  io.out('usage: valvewright COMMAND [options]   (valvewright COMMAND --help for a command\'s options)');
+  for (const [name, c] of Object.entries(COMMANDS)) io.out(`  ${name.padEnd(10)} ${c.summary}`);
+  io.out('High voltage: tube circuits run at lethal voltages. Build and test them only with the training and');
+  io.out('precautions your local codes and licensed practice require; this tool does not make a circuit safe.');
+}
+
+export async function main(argv: readonly string[], io: CommandIO = { out: (l) => console.log(l), err: (l) => console.error(l) }): Promise<number> {
+  const [name, ...rest] = argv;
+  if (!name || name === '--help' || name === '-h' || name === 'help') { usage(io); return name ? 0 : 2; }
+  const cmd = COMMANDS[name];
+  if (!cmd) { io.err(`valvewright: unknown command "${name}" (commands: ${Object.keys(COMMANDS).join(', ')})`); return 2; }
+  try {
+    return await (await cmd.load())(rest, io);
+  } catch (e) {
+    const known = e instanceof CliError || (e instanceof Error && /Error$/.test(e.name) && e.name !== 'Error' && e.name !== 'TypeError' && e.name !== 'RangeError');
+    const msg = e instanceof Error ? e.message : String(e);
+    io.err(`valvewright ${name}: ${msg}`);
+    if (!known && e instanceof Error && process.env.VALVEWRIGHT_DEBUG) io.err(e.stack ?? '');
+    return 1;
+  }
+}
