@@ -7,47 +7,73 @@ export type Slot = 'A' | 'B';
 export type Monitor = Slot | 'dry';
 
 export type ToProcessor =
-  /** Replace a slot's design (compiled on the audio thread at a block boundary; the slot restarts at its operating point). */
+  /** Replace a slot's design (compiled on the audio thread at a block boundary, faded out and in; the slot starts at its operating point). */
   | { readonly type: 'load-design'; readonly slot: Slot; readonly design: Design }
-  /** New value of one part (resistor, capacitor, pot position/value): the circuit keeps its state. */
+  /** Empty a slot (it outputs silence and costs nothing). */
+  | { readonly type: 'clear-slot'; readonly slot: Slot }
+  /** New value of one part (resistor, capacitor, pot position/value, switch, tube sample): smoothed, the circuit keeps its state. A tube type change recompiles the slot. */
   | { readonly type: 'set-part'; readonly slot: Slot; readonly part: Part }
   | { readonly type: 'set-tube-sample'; readonly slot: Slot; readonly tubeId: string; readonly sample: number }
+  /** Oversampling factor of both slots (both are rebuilt behind a short fade). */
   | { readonly type: 'set-quality'; readonly factor: OversamplingFactor }
   /** What is heard: slot A, slot B or the dry input; crossfaded over a few milliseconds. */
   | { readonly type: 'monitor'; readonly target: Monitor }
   /** Input samples at full scale stand for this many volts at the circuit input (peak). */
   | { readonly type: 'set-input-calibration'; readonly voltsAtFullScale: number }
-  /** Output volts that map to full scale, per slot (loudness matching sets these). */
+  /** Output volts (deviation from the operating point) that map to full scale, per slot (loudness matching sets these). */
   | { readonly type: 'set-output-scale'; readonly slot: Slot; readonly voltsAtFullScale: number }
   /** Master output level in dB (applied before the safety limiter). */
   | { readonly type: 'set-output-level'; readonly db: number }
+  /** Safety limiter wanted (ignored while live input is on: then it is always on). */
+  | { readonly type: 'set-limiter'; readonly enabled: boolean }
   /** Live input forces the safety limiter on; files may bypass it. */
   | { readonly type: 'set-live-input'; readonly live: boolean }
   | { readonly type: 'set-mute'; readonly muted: boolean }
+  /** Both slots back to their operating points (behind a short fade). */
   | { readonly type: 'reset' };
 
 export interface MeterReport {
   readonly type: 'meter';
   /** Peak of the circuit input since the last report, volts. */
   readonly inputPeakVolts: number;
-  /** Peak of the output since the last report, dBFS. */
+  /** Peak of the output since the last report, dBFS (-Infinity is sent as -200). */
   readonly outputPeakDbfs: number;
   /** First stage control-grid voltage of the monitored slot (or A when dry), volts, at report time. */
   readonly gridVolts: number;
   /** Plate voltages of the monitored slot's tubes, in design order, volts. */
   readonly plateVolts: readonly number[];
-  /** Processor time per block as a fraction of the block's real-time budget. */
+  /** Processor time per block as a fraction of the block's real-time budget (mean since the last report). */
   readonly loadFraction: number;
   /** Safety-limiter gain reduction since the last report, dB (0 = none). */
   readonly limiterReductionDb: number;
+  /** Whether the safety limiter is in the signal path. */
+  readonly limiterOn: boolean;
+  /** Which slot the grid and plate values come from (null: that slot is empty). */
+  readonly traceSlot: Slot | null;
 }
 
 export type FromProcessor =
-  | { readonly type: 'ready' }
-  | { readonly type: 'loaded'; readonly slot: Slot; readonly designName: string }
+  | { readonly type: 'ready'; readonly sampleRateHz: number; readonly factor: OversamplingFactor }
+  | {
+      readonly type: 'loaded'; readonly slot: Slot; readonly designName: string; readonly factor: OversamplingFactor;
+      /** Round-trip latency of the oversampling filters, base-rate samples (the dry path is delayed by its rounded value). */
+      readonly latencySamples: number;
+      /** Tube ids in design order (the order of MeterReport.plateVolts). */
+      readonly tubeIds: readonly string[];
+    }
   | { readonly type: 'error'; readonly message: string }
   /** A NaN/Inf was caught: the slot was restored to its operating point and a silent block sent. */
   | { readonly type: 'recovered'; readonly slot: Slot; readonly reason: string }
   | MeterReport;
+
+/** Given to the processor at construction (AudioWorkletNodeOptions.processorOptions). */
+export interface ProcessorInit {
+  /** Messages applied at once, before the first block (no fades): an offline render starts exactly in this state. */
+  readonly initial?: readonly ToProcessor[];
+  /** Oversampling factor before any set-quality. */
+  readonly factor?: OversamplingFactor;
+  /** Meter reports per second (default 30; 0 = none). */
+  readonly meterHz?: number;
+}
 
 export const PROCESSOR_NAME = 'valvewright-circuit';
