@@ -1,0 +1,33 @@
+// Alias level, added latency and real-time factor of the render path at each oversampling factor.
+// Run: npx tsx bench/alias.bench.ts [--template pentode-triode] [--volts 1]
+import { designCircuit } from '../src/dsp/circuit/design.ts';
+import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
+import { OversampledCircuit, OVERSAMPLING_FACTORS } from '../src/dsp/render/oversampled.ts';
+import { aliasFreeTestFrequency, measureAliasing } from '../src/dsp/analysis/aliasing.ts';
+
+const args = process.argv.slice(2);
+const opt = (name: string, def: string) => { const i = args.indexOf(`--${name}`); return i >= 0 ? args[i + 1] ?? def : def; };
+const template = opt('template', 'pentode-triode');
+const volts = Number(opt('volts', '1'));
+const fs = 48000, n = 65536, settle = Math.round(0.5 * fs);
+const design = TEMPLATES[template];
+if (!design) throw new Error(`unknown template ${template}`);
+
+const rows = [];
+for (const target of [1000, 2500]) {
+  const f0 = aliasFreeTestFrequency(target, fs, n);
+  for (const factor of OVERSAMPLING_FACTORS) {
+    const m = new OversampledCircuit(designCircuit(design), fs, factor);
+    const y = new Float64Array(n);
+    const t0 = performance.now();
+    for (let k = 0; k < settle + n; k++) {
+      const out = m.processSample(volts * Math.sin((2 * Math.PI * f0 * k) / fs));
+      if (k >= settle) y[k - settle] = out;
+    }
+    const seconds = (performance.now() - t0) / 1000;
+    const r = measureAliasing(y, fs, f0);
+    rows.push({ inputHz: Number(f0.toFixed(3)), oversample: factor, aliasDb: Number(r.aliasDb.toFixed(1)), latencyMs: Number(((m.latencySamples / fs) * 1000).toFixed(3)), realTimeFactor: Number(((settle + n) / fs / seconds).toFixed(2)) });
+    console.error(JSON.stringify(rows[rows.length - 1]));
+  }
+}
+console.log(JSON.stringify({ command: `npx tsx bench/alias.bench.ts --template ${template} --volts ${volts}`, template, inputVoltsPeak: volts, baseRateHz: fs, band: [20, 15000], rows }, null, 2));
