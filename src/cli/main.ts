@@ -12,7 +12,14 @@ const COMMANDS: Record<string, { summary: string; load: () => Promise<Command> }
   render: { summary: 'render a WAV through a design or netlist', load: async () => (await import('./commands/render.ts')).runRender },
   op: { summary: 'DC operating point (node voltages, tube currents and dissipation)', load: async () => (await import('./commands/op.ts')).runOp },
   netlist: { summary: 'print a design as netlist-v1 JSON', load: async () => (await import('./commands/netlist.ts')).runNetlist },
+  pair: { summary: 'loudness-matched A/B or dry/processed WAVs from one DI, with a sheet', load: async () => (await import('./commands/pair.ts')).runPair },
   bench: { summary: 'real-time factors of the templates at 1x-8x oversampling', load: async () => (await import('./commands/bench.ts')).runBench },
+  check: { summary: 'wiring check and worst-case ratings sheet of a design', load: async () => (await import('./commands/check.ts')).runCheck },
+  supply: { summary: 'power-supply estimate (B+ loaded and unloaded, ripple, heaters)', load: async () => (await import('./commands/supply.ts')).runSupply },
+  spread: { summary: 'seeded Monte Carlo over tube samples and part tolerances', load: async () => (await import('./commands/spread.ts')).runSpread },
+  ac: { summary: 'small-signal response of the whole circuit and the tone network', load: async () => (await import('./commands/ac.ts')).runAc },
+  parts: { summary: 'parts list with ratings to buy (CSV with --csv)', load: async () => (await import('./commands/parts.ts')).runParts },
+  spice: { summary: 'export a SPICE-syntax netlist with behavioural tube sources', load: async () => (await import('./commands/spice.ts')).runSpice },
   loudness: {
     summary: 'integrated loudness, loudness range and true peak of a WAV (BS.1770-4)',
     load: async () => {
