@@ -1,6 +1,6 @@
 // A small wave-digital-filter library: every element shares one wave interface; a value change
 // propagates port resistances up to the root. Voltage waves a = v + R i, b = v - R i
-// (Fettweis, "Wave digital filters: theory and practice", Proc. IEEE 74(2), 1986, eq. 8).
+// (Fettweis, "Wave digital filters: theory and practice", Proc. IEEE 74(2), 1986; cited from memory, equation numbers not checked).
 // Here `a` is the wave arriving at an element from its parent, `b` the wave it sends back.
 import { invert } from './linalg.ts';
 
