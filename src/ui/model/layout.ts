@@ -76,7 +76,9 @@ export function railNodes(d: Design): Set<string> {
     for (const p of d.parts) {
       if (p.kind !== 'resistor') continue;
       const [x, y] = p.nodes;
-      const cand = rails.has(x) && !rails.has(y) ? y : rails.has(y) && !rails.has(x) ? x : null;
+      // fed from a supply rail (never from ground: a bypassed cathode is not a rail)
+      const fed = (n: string) => rails.has(n) && n !== GROUND;
+      const cand = fed(x) && !rails.has(y) ? y : fed(y) && !rails.has(x) ? x : null;
       if (cand === null || cand === d.input.node || cand === d.output.node) continue;
       const decoupled = d.parts.some((q) => q.kind === 'capacitor' && q.farads >= 1e-6 && q.nodes.includes(cand) && q.nodes.includes(GROUND));
       if (decoupled) { rails.add(cand); grew = true; }
@@ -183,8 +185,9 @@ export function layoutDesign(d: Design): SchematicLayout {
           cx += SP;
           continue;
         }
-        const kind = p.kind === 'pot' ? 'pot2' : (p.kind as 'resistor' | 'capacitor' | 'switch');
-        const firstIsNear = p.kind === 'pot' ? p.nodes[0] === n : p.nodes[0] === n;
+        if (p.kind === 'tube') continue;
+        const kind = p.kind === 'pot' ? 'pot2' : p.kind;
+        const firstIsNear = p.nodes[0] === n;
         b.parts.push({ id: p.id, kind, a: firstIsNear ? top : bot, b: firstIsNear ? bot : top });
         cx += SP;
       }

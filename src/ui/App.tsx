@@ -1,0 +1,313 @@
+// The audition workspace: schematic and part editor, operating point, listening, plots.
+import { useCallback, useEffect, useMemo, useRef, useState, type ReactElement } from 'react';
+import type { Design, Part } from '../dsp/circuit/design.ts';
+import { TEMPLATES } from '../dsp/circuit/templates.ts';
+import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
+import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
+import { probeNodes } from './audio-local.ts';
+import { EnginePort } from './audio-engine-port.ts';
+import type { AudioStatus, LoopRegion, SourceClip } from './audio-port.ts';
+import { canRedo, canUndo, pushHistory, redo, startHistory, undo, type History } from './model/history.ts';
+import { applyTemplate, copySlot, differingParts, editPart, editSupplyVolts, findPart, initialSlots, withSlot, type Slots } from './model/workspace.ts';
+import { CAUTION_KEY, STORAGE_KEY, parseWorkspace, serializeWorkspace } from './model/storage.ts';
+import { designFileName, exportDesignText, importDesignText } from './model/design-file.ts';
+import { decodeDesignHash, encodeDesignHash } from './model/share.ts';
+import { computeOperatingReport, type OperatingReport } from './model/operating.ts';
+import { designResponses, type Responses } from './model/response.ts';
+import { Schematic } from './Schematic.tsx';
+import { PartEditor, ValueField } from './PartEditor.tsx';
+import { OperatingPanel } from './OperatingPanel.tsx';
+import { ResponsePlot, ScopePlot, SpectrumPlot } from './Plots.tsx';
+import { Meters, Waveform, type DemoClip } from './Listen.tsx';
+import { CautionDialog } from './Cautions.tsx';
+
+const IMPULSES = import.meta.glob('/impulses/*.wav', { query: '?url', import: 'default', eager: true }) as Record<string, string>;
+const QUALITIES: readonly OversamplingFactor[] = [1, 2, 4, 8];
+
+interface OpState { report: OperatingReport | null; failure: string | null; findings: Finding[] }
+
+function useDebounced<T>(value: T, ms: number): T {
+  const [v, setV] = useState(value);
+  useEffect(() => { const t = setTimeout(() => setV(value), ms); return () => clearTimeout(t); }, [value, ms]);
+  return v;
+}
+
+function loadInitial(): History<Slots> {
+  const saved = typeof localStorage !== 'undefined' ? parseWorkspace(localStorage.getItem(STORAGE_KEY)) : null;
+  return startHistory(saved?.slots ?? initialSlots());
+}
+
+export function App(): ReactElement {
+  const port = useMemo(() => new EnginePort(), []);
+  const [history, setHistory] = useState<History<Slots>>(loadInitial);
+  const slots = history.present;
+  const [active, setActive] = useState<Slot>(() => parseWorkspace(localStorage.getItem(STORAGE_KEY))?.active ?? 'A');
+  const [monitor, setMonitorState] = useState<Monitor>(active);
+  const [selected, setSelected] = useState<string | null>(null);
+  const [message, setMessage] = useState<{ text: string; bad: boolean } | null>(null);
+  const [status, setStatus] = useState<AudioStatus | null>(null);
+  const [clips, setClips] = useState<DemoClip[]>([]);
+  const [clip, setClip] = useState<SourceClip | null>(null);
+  const [clipName, setClipName] = useState('');
+  const [calibration, setCalibration] = useState(0.2);
+  const [loop, setLoop] = useState<LoopRegion | null>(null);
+  const [matched, setMatched] = useState(true);
+  const [quality, setQuality] = useState<OversamplingFactor>(2);
+  const [cabinet, setCabinet] = useState<string>('off');
+  const [caution, setCaution] = useState<'first-run' | 'live' | null>(() => (localStorage.getItem(CAUTION_KEY) ? null : 'first-run'));
+  const [scopeNodes, setScopeNodes] = useState<string[] | null>(null);
+  const [dragging, setDragging] = useState(false);
+  const design = slots[active];
+  const part = selected ? findPart(design, selected) ?? null : null;
+  const say = (text: string, bad = false) => setMessage({ text, bad });
+
+  // shared link in the hash wins over the autosave (into slot A, undoable)
+  useEffect(() => {
+    void decodeDesignHash(location.hash).then((r) => {
+      if (r.ok === true) { setHistory((h) => pushHistory(h, withSlot(h.present, 'A', r.design))); say(`Opened the shared design "${r.design.name}" in slot A.`); }
+      else if (r.ok === false) say(`${r.reason} — kept your current design.`, true);
+    });
+    fetch('/demo/clips.json').then((r) => r.json() as Promise<{ clips: DemoClip[] }>).then((j) => setClips(j.clips)).catch(() => say('demo clips could not be loaded', true));
+    return port.subscribe(setStatus);
+  }, [port]);
+
+  useEffect(() => { port.setDesign('A', slots.A); port.setDesign('B', slots.B); }, [port, slots]);
+  useEffect(() => { localStorage.setItem(STORAGE_KEY, serializeWorkspace({ slots, active })); }, [slots, active]);
+  useEffect(() => { port.setMonitor(monitor); }, [port, monitor]);
+  useEffect(() => { port.setLoudnessMatch(matched); }, [port, matched]);
+  useEffect(() => { port.setQuality(quality); }, [port, quality]);
+  useEffect(() => { port.setInputCalibration(calibration); }, [port, calibration]);
+
+  // operating point of the slot on screen, recomputed shortly after edits
+  const opDesign = useDebounced(design, 40);
+  const op: OpState = useMemo(() => {
+    const r = computeOperatingReport(opDesign);
+    if (!r.ok) return { report: null, failure: `No operating point: ${r.reason}`, findings: [] };
+    let findings: Finding[] = [];
+    try { findings = checkWiring(opDesign, { warmNodes: r.op.nodes }).filter((f) => f.severity !== 'note'); } catch { /* findings are advisory */ }
+    return { report: r.report, failure: null, findings };
+  }, [opDesign]);
+  useEffect(() => {
+    const w = window as unknown as { __vwReadyMs?: number };
+    if (op.report && w.__vwReadyMs === undefined) w.__vwReadyMs = performance.now();
+  }, [op]);
+
+  const respA = useDebounced(slots.A, 150), respB = useDebounced(slots.B, 150);
+  const responses = useMemo(() => {
+    const one = (d: Design): Responses => { const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
+    const a = one(respA);
+    return { A: a, B: respB === respA ? a : one(respB) };
+  }, [respA, respB]);
+
+  const commit = useCallback((next: Slots) => setHistory((h) => pushHistory(h, next)), []);
+  const onPart = (p: Part): string | null => {
+    const r = editPart(slots, active, p);
+    if (!r.ok) return r.reason;
+    commit(r.slots);
+    return null;
+  };
+  const onSupply = (volts: number): string | null => {
+    const r = editSupplyVolts(slots, active, volts);
+    if (!r.ok) return r.reason;
+    commit(r.slots);
+    return null;
+  };
+  const switchSlot = (s: Monitor) => { setMonitorState(s); if (s !== 'dry') setActive(s); };
+
+  const loadClip = async (c: SourceClip, name: string) => {
+    setClip(c); setClipName(name); setLoop(null); port.setLoop(null);
+    if (c.voltsAtFullScale) setCalibration(c.voltsAtFullScale);
+    port.setSource(c);
+  };
+  const chooseDemo = async (name: string) => {
+    const d = clips.find((c) => c.name === name);
+    if (!d) return;
+    try {
+      const bytes = await (await fetch(`/demo/${d.file}`)).arrayBuffer();
+      const c = await port.decode(bytes, d.title);
+      await loadClip({ ...c, voltsAtFullScale: d.voltsAtFullScale }, d.title);
+    } catch (err) { say(`could not load ${d.title}: ${(err as Error).message}`, true); }
+  };
+  const openAudioFile = async (f: File) => {
+    try {
+      const c = await port.decode(await f.arrayBuffer(), f.name);
+      await loadClip(c, f.name);
+      say(`Loaded ${f.name} (${c.sampleRateHz} Hz, ${(c.samples.length / c.sampleRateHz).toFixed(1)} s). Set the input calibration to your pickup's level.`);
+    } catch { say(`${f.name}: the browser could not decode this as audio`, true); }
+  };
+  const openDesignFile = async (f: File) => {
+    const r = importDesignText(await f.text(), f.name);
+    if (!r.ok) { say(`${r.reason} — your current design was kept.`, true); return; }
+    commit(withSlot(slots, active, r.design));
+    say(`Imported "${r.design.name}" into slot ${active}.`);
+  };
+  const onDropFiles = (files: FileList) => {
+    const f = files[0];
+    if (!f) return;
+    if (f.name.toLowerCase().endsWith('.json')) void openDesignFile(f); else void openAudioFile(f);
+  };
+  const exportDesign = () => {
+    const blob = new Blob([exportDesignText(design)], { type: 'application/json' });
+    const a = document.createElement('a');
+    a.href = URL.createObjectURL(blob); a.download = designFileName(design); a.click();
+    setTimeout(() => URL.revokeObjectURL(a.href), 1000);
+  };
+  const share = async () => {
+    const h = await encodeDesignHash(design);
+    window.history.replaceState(null, '', `#${h}`);
+    const url = location.href;
+    try { await navigator.clipboard.writeText(url); say('Link to this design copied; it is also in the address bar.'); } catch { say('Link to this design is in the address bar.'); }
+  };
+  const chooseCabinet = async (key: string, file?: File) => {
+    setCabinet(key);
+    if (key === 'off') { port.setCabinet(null, 48000); return; }
+    try {
+      const bytes = file ? await file.arrayBuffer() : await (await fetch(IMPULSES[key]!)).arrayBuffer();
+      const c = await port.decode(bytes, key);
+      port.setCabinet(c.samples, c.sampleRateHz);
+    } catch (err) { say(`cabinet response: ${(err as Error).message}`, true); setCabinet('off'); }
+  };
+  const startLive = async () => {
+    try { await port.startLive(); } catch (err) { say(`live input: ${(err as Error).message}`, true); }
+  };
+  const togglePlay = () => { if (status?.playing) port.stop(); else void port.play(); };
+  const toggleMute = () => { if (status?.live === 'on') port.setMuted(true); else if (status?.live === 'muted') port.setMuted(false); };
+
+  const keyRef = useRef<(e: KeyboardEvent) => void>(() => {});
+  keyRef.current = (e: KeyboardEvent) => {
+    const t = e.target as HTMLElement;
+    const typing = t.closest('input, select, textarea, [contenteditable]') !== null;
+    if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'z' && !typing) { e.preventDefault(); setHistory(e.shiftKey ? redo : undo); return; }
+    if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'y' && !typing) { e.preventDefault(); setHistory(redo); return; }
+    if (e.key.toLowerCase() === 'm' && !e.ctrlKey && !e.metaKey && (!typing || e.altKey)) { e.preventDefault(); if (status?.live !== 'off') port.setMuted(true); return; }
+    if (typing || e.ctrlKey || e.metaKey || e.altKey) return;
+    if (e.key === 'a' || e.key === 'A') switchSlot('A');
+    else if (e.key === 'b' || e.key === 'B') switchSlot('B');
+    else if (e.key === 'd' || e.key === 'D') switchSlot('dry');
+    else if (e.key === ' ' && !t.closest('button, [role=button], [role=slider]')) { e.preventDefault(); togglePlay(); }
+  };
+  useEffect(() => { const h = (e: KeyboardEvent) => keyRef.current(e); window.addEventListener('keydown', h); return () => window.removeEventListener('keydown', h); }, []);
+
+  useEffect(() => {
+    const w = window as unknown as Record<string, unknown>;
+    w.__valvewright = { port, slots: () => history.present, active: () => active };
+  });
+
+  const changed = useMemo(() => new Set(differingParts(slots.A, slots.B)), [slots]);
+  const probes = probeNodes(design);
+  const chosenScope = scopeNodes ?? probes.slice(0, 3);
+  const templateKey = Object.entries(TEMPLATES).find(([, t]) => t.name === design.name)?.[0] ?? '';
+  const dur = status?.durationSeconds ?? 0;
+  const load = status?.loadFraction;
+
+  return (
+    <div className={`app${dragging ? ' dragging' : ''}`} onDragOver={(e) => { e.preventDefault(); setDragging(true); }} onDragLeave={(e) => { if (e.currentTarget === e.target) setDragging(false); }} onDrop={(e) => { e.preventDefault(); setDragging(false); onDropFiles(e.dataTransfer.files); }}>
+      <header className="top">
+        <h1>Valvewright <span className="sub">audition bench</span></h1>
+        <label className="inline-label">Starting circuit
+          <select value={templateKey} onChange={(e) => { const t = TEMPLATES[e.target.value]; if (!t) return; const r = applyTemplate(design, t); commit(withSlot(slots, active, r.design)); say(`Slot ${active} is now "${t.name}"; kept values of ${r.kept.length} shared parts.`); setSelected(null); }}>
+            {templateKey === '' && <option value="">{design.name}</option>}
+            {Object.entries(TEMPLATES).map(([k, t]) => <option key={k} value={k}>{t.name}</option>)}
+          </select>
+        </label>
+        <div className="toolbar" role="toolbar" aria-label="Design file">
+          <button type="button" onClick={() => setHistory(undo)} disabled={!canUndo(history)} title="Ctrl+Z">Undo</button>
+          <button type="button" onClick={() => setHistory(redo)} disabled={!canRedo(history)} title="Ctrl+Shift+Z">Redo</button>
+          <button type="button" onClick={exportDesign}>Export JSON</button>
+          <label className="button">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
+          <button type="button" onClick={() => void share()}>Copy link</button>
+          <button type="button" onClick={() => setCaution('first-run')}>Safety</button>
+        </div>
+      </header>
+      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} <button type="button" className="link" onClick={() => setMessage(null)} aria-label="Dismiss message">×</button></p>}
+
+      <main className="grid">
+        <section className="panel circuit" aria-labelledby="circuit-h">
+          <h2 id="circuit-h">{design.name} <span className="sub">slot {active}{changed.size ? ` · ${changed.size} part${changed.size === 1 ? "" : "s"} differ${changed.size === 1 ? "s" : ""} from slot ${active === 'A' ? 'B' : 'A'}` : ''}</span></h2>
+          <Schematic design={design} selectedId={selected} changedIds={changed} onSelect={setSelected} />
+        </section>
+
+        <div className="side">
+          <PartEditor design={design} part={part} stress={op.report?.parts.find((p) => p.id === selected)} onChange={onPart} onSupplyVolts={onSupply} />
+          <OperatingPanel report={op.report} failure={op.failure} findings={op.findings} slot={active} />
+        </div>
+
+        <section className="panel listen" aria-labelledby="listen-h">
+          <h2 id="listen-h">Listen</h2>
+          <div className="row">
+            <label className="inline-label">Demo clip
+              <select value={clips.find((c) => c.title === clipName)?.name ?? ''} onChange={(e) => void chooseDemo(e.target.value)} data-testid="demo-select">
+                <option value="" disabled>choose…</option>
+                {clips.map((c) => <option key={c.name} value={c.name} title={c.description}>{c.title}</option>)}
+              </select>
+            </label>
+            <label className="button">Open audio file…<input type="file" accept="audio/*,.wav,.flac,.mp3,.ogg" data-testid="audio-file" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openAudioFile(f); e.target.value = ''; }} /></label>
+            <span className="fine">or drop a file anywhere</span>
+          </div>
+          <div className="row transport">
+            <button type="button" className="primary" onClick={togglePlay} disabled={!clip} aria-keyshortcuts="Space" data-testid="play">{status?.playing ? 'Stop' : 'Play'}</button>
+            <button type="button" onClick={() => { setLoop(null); port.setLoop(null); }} disabled={!loop}>Clear loop</button>
+            <span className="fine">{clip ? `${clipName} · ${dur.toFixed(1)} s${loop ? ` · loop ${loop.startSeconds.toFixed(2)}–${loop.endSeconds.toFixed(2)} s` : ' · drag on the waveform to loop a region'}` : 'no clip yet'}{status?.rendering ? ' · rendering…' : ''}</span>
+          </div>
+          <Waveform samples={clip?.samples ?? null} duration={dur} loop={loop} onLoop={(r) => { setLoop(r); port.setLoop(r); }} position={() => port.positionSeconds()} />
+          <div className="row">
+            <ValueField label="Input calibration (volts at full scale)" unit="volts" value={calibration} snap="off" onCommit={(v) => { setCalibration(v); return null; }} testId="calibration" />
+            <Meters port={port} />
+          </div>
+          <div className="row ab" role="group" aria-label="Compare">
+            <div className="seg" role="radiogroup" aria-label="What you hear">
+              {(['A', 'B', 'dry'] as const).map((s) => <button key={s} type="button" role="radio" aria-checked={monitor === s} className={`slot-${s}`} onClick={() => switchSlot(s)} aria-keyshortcuts={s === 'dry' ? 'D' : s}>{s === 'dry' ? 'Dry' : s}</button>)}
+            </div>
+            <button type="button" onClick={() => { commit(copySlot(slots, 'A')); say('Copied slot A to slot B.'); }}>Copy A → B</button>
+            <label className="inline-label"><input type="checkbox" checked={matched} onChange={(e) => setMatched(e.target.checked)} /> loudness-matched</label>
+            <span className="offset" data-testid="offset">{status?.offsetDb != null ? `B is ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB against A${matched ? ' (matched out)' : ''}` : 'level offset: —'}</span>
+          </div>
+          <div className="row">
+            <label className="inline-label">Cabinet
+              <select value={cabinet.startsWith('file:') ? 'file' : cabinet} onChange={(e) => void chooseCabinet(e.target.value)}>
+                <option value="off">off (direct)</option>
+                {Object.keys(IMPULSES).map((k) => <option key={k} value={k}>{k.replace('/impulses/', '').replace('.wav', '')}</option>)}
+                {cabinet.startsWith('file:') && <option value="file">{cabinet.slice(5)}</option>}
+              </select>
+            </label>
+            <label className="button">Load response…<input type="file" accept="audio/*,.wav" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void chooseCabinet(`file:${f.name}`, f); e.target.value = ''; }} /></label>
+            <label className="inline-label">Quality
+              <select value={quality} onChange={(e) => setQuality(Number(e.target.value) as OversamplingFactor)}>
+                {QUALITIES.map((q) => <option key={q} value={q}>{q === 1 ? 'draft (1×)' : `${q}× oversampled`}</option>)}
+              </select>
+            </label>
+            <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''})</span>
+          </div>
+          <div className="row live">
+            {status?.live === 'off' || !status ? (
+              <button type="button" onClick={() => setCaution('live')}>Live input…</button>
+            ) : (
+              <>
+                <button type="button" className={status.live === 'on' ? 'danger' : ''} onClick={toggleMute} aria-keyshortcuts="M" data-testid="mute">{status.live === 'on' ? 'Mute (M)' : 'Unmute'}</button>
+                <button type="button" onClick={() => port.stopLive()}>Stop live input</button>
+                <span className="fine">{status.live === 'muted' ? 'live input muted' : 'live input on'}{status.message ? ` · ${status.message}` : ''}</span>
+              </>
+            )}
+          </div>
+        </section>
+
+        <section className="panel see" aria-labelledby="see-h">
+          <h2 id="see-h">See</h2>
+          <div className="scope-head">
+            <span>Scope, slot {active}: node voltages over the clip</span>
+            {probes.map((n) => <label key={n} className="inline-label"><input type="checkbox" checked={chosenScope.includes(n)} onChange={(e) => setScopeNodes(e.target.checked ? [...chosenScope, n] : chosenScope.filter((x) => x !== n))} />{n}</label>)}
+          </div>
+          <ScopePlot trace={() => port.scope(active)} position={() => port.positionSeconds()} duration={dur} chosen={chosenScope} />
+          <div className="plots">
+            <ResponsePlot title="Whole circuit, small signal at the operating point" series={[{ name: 'A', curve: responses.A.whole, cls: 'a' }, { name: 'B', curve: responses.B.whole, cls: 'b' }]} note={responses.A.whole ? null : responses.A.reason} />
+            <ResponsePlot title="Tone network" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }]} note={responses.A.tone ? `parts: ${responses.A.toneParts.join(', ')}` : responses.A.reason} />
+            <SpectrumPlot read={(into) => port.spectrum(into)} />
+          </div>
+        </section>
+      </main>
+      <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo</footer>
+      {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); setCaution(null); }} onCancel={caution === 'live' ? () => setCaution(null) : undefined} />}
+    </div>
+  );
+}

@@ -1,0 +1,205 @@
+// AudioPort over the real-time engine of src/audio (Tone.js graph around the circuit worklet).
+// The engine is created on the first call that needs sound (a user gesture); settings made
+// before that are kept and applied then.
+import { designCircuit, type Design, type Part } from '../dsp/circuit/design.ts';
+import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
+import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
+import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import { createAudioEngine, type AudioEngine } from '../audio/index.ts';
+import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
+import { offsetDb } from './model/meters.ts';
+
+const SLOTS: readonly Slot[] = ['A', 'B'];
+
+/** True when only part values / tube samples differ (same parts, nodes, types and supply). */
+export function sameStructure(a: Design, b: Design): boolean {
+  if (a.parts.length !== b.parts.length || JSON.stringify(a.supply) !== JSON.stringify(b.supply) || JSON.stringify(a.input) !== JSON.stringify(b.input) || JSON.stringify(a.output) !== JSON.stringify(b.output)) return false;
+  return a.parts.every((p, i) => {
+    const q = b.parts[i]!;
+    if (p.id !== q.id || p.kind !== q.kind || JSON.stringify(p.nodes) !== JSON.stringify(q.nodes)) return false;
+    if (p.kind === 'tube' && q.kind === 'tube') return p.type === q.type;
+    if (p.kind === 'switch' && q.kind === 'switch') return p.closed === q.closed;
+    return true;
+  });
+}
+
+export class EnginePort implements AudioPort {
+  readonly engineName = 'real-time circuit worklet';
+  private engine: AudioEngine | null = null;
+  private creating: Promise<AudioEngine> | null = null;
+  private designs: Partial<Record<Slot, Design>> = {};
+  private sent: Partial<Record<Slot, Design>> = {};
+  private scales: Partial<Record<Slot, number>> = {};
+  private monitor: Monitor = 'A';
+  private matched = true;
+  private calibration = 0.2;
+  private factor: OversamplingFactor = 2;
+  private clip: SourceClip | null = null;
+  private loop: LoopRegion | null = null;
+  private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
+  private listeners = new Set<(s: AudioStatus) => void>();
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null };
+  private levelTimer: ReturnType<typeof setTimeout> | null = null;
+  private lastStatusMs = 0;
+  private grid = new Float32Array(300);
+  private decoder: OfflineAudioContext | null = null;
+
+  private emit(patch: Partial<AudioStatus>): void {
+    this.status = { ...this.status, ...patch };
+    for (const l of this.listeners) l(this.status);
+  }
+
+  subscribe(listener: (s: AudioStatus) => void): () => void {
+    this.listeners.add(listener);
+    listener(this.status);
+    return () => this.listeners.delete(listener);
+  }
+
+  /** Create the engine (needs a user gesture for sound to start). */
+  private ensure(): Promise<AudioEngine> {
+    if (this.engine) return Promise.resolve(this.engine);
+    if (!this.creating) {
+      this.creating = createAudioEngine({ factor: this.factor, inputVoltsAtFullScale: this.calibration }).then(async (e) => {
+        this.engine = e;
+        e.setMonitor(this.monitor);
+        e.onReport((m) => {
+          if (m.type === 'error') this.emit({ message: m.message });
+          else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
+          else if (m.type === 'meter') {
+            const now = performance.now();
+            if (now - this.lastStatusMs > 500) { this.lastStatusMs = now; this.emit({ loadFraction: m.loadFraction, playing: e.playing }); }
+          }
+        });
+        for (const s of SLOTS) await this.sendDesign(s);
+        if (this.clip) e.setSource(this.clip.samples, this.clip.sampleRateHz);
+        e.setLoop(this.loop);
+        if (this.cabinet) await e.loadCabinet(this.cabinet);
+        return e;
+      }).catch((err: unknown) => {
+        this.creating = null;
+        this.emit({ message: `audio engine could not start: ${(err as Error).message}` });
+        throw err;
+      });
+    }
+    return this.creating;
+  }
+
+  private async sendDesign(slot: Slot): Promise<void> {
+    const e = this.engine, d = this.designs[slot];
+    if (!e || !d) return;
+    const prev = this.sent[slot];
+    this.sent[slot] = d;
+    if (prev && prev !== d && sameStructure(prev, d)) {
+      d.parts.forEach((p, i) => {
+        const q = prev.parts[i]!;
+        if (p === q || JSON.stringify(p) === JSON.stringify(q)) return;
+        if (p.kind === 'tube') e.setTubeSample(slot, p.id, p.sample);
+        else e.setPart(slot, p as Part);
+      });
+    } else if (prev !== d) {
+      await e.loadDesign(slot, d, { outputVoltsAtFullScale: this.outputScale(slot) });
+    }
+  }
+
+  private outputScale(slot: Slot): number {
+    const own = this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(this.designs[slot]!), 48000, this.calibration));
+    if (this.matched || slot === 'A') return own;
+    return this.scales.A ?? own;
+  }
+
+  /** Re-estimate both slots' output scalings (loudness match) a little after edits. */
+  private releveling(): void {
+    if (this.levelTimer) clearTimeout(this.levelTimer);
+    this.levelTimer = setTimeout(() => {
+      this.scales = {};
+      for (const s of SLOTS) if (this.designs[s]) this.outputScale(s);
+      const a = this.scales.A, b = this.scales.B;
+      this.emit({ offsetDb: a && b ? offsetDb(a, b) : null });
+      if (this.engine) for (const s of SLOTS) if (this.designs[s]) this.engine.setOutputScale(s, this.outputScale(s));
+    }, 250);
+  }
+
+  setDesign(slot: Slot, design: Design): void {
+    if (this.designs[slot] === design) return;
+    this.designs[slot] = design;
+    void this.sendDesign(slot).catch((err: unknown) => this.emit({ message: `slot ${slot}: ${(err as Error).message}` }));
+    this.releveling();
+  }
+
+  setMonitor(target: Monitor): void { this.monitor = target; this.engine?.setMonitor(target); }
+  setLoudnessMatch(on: boolean): void { this.matched = on; this.releveling(); }
+  setInputCalibration(v: number): void { if (this.calibration === v) return; this.calibration = v; this.engine?.setInputCalibration(v); this.releveling(); }
+  setQuality(f: OversamplingFactor): void { this.factor = f; this.engine?.setQuality(f); }
+
+  setSource(clip: SourceClip): void {
+    this.clip = clip;
+    this.emit({ durationSeconds: clip.samples.length / clip.sampleRateHz });
+    this.engine?.setSource(clip.samples, clip.sampleRateHz);
+  }
+
+  setLoop(region: LoopRegion | null): void { this.loop = region; this.engine?.setLoop(region); }
+
+  setCabinet(ir: Float32Array | null, sampleRateHz: number): void {
+    this.cabinet = ir ? { samples: ir, sampleRateHz } : null;
+    void this.engine?.loadCabinet(this.cabinet);
+  }
+
+  async decode(bytes: ArrayBuffer, name: string): Promise<SourceClip> {
+    // An offline context decodes without a user gesture (resampled to 48 kHz).
+    this.decoder ??= new OfflineAudioContext(1, 1, 48000);
+    const buf = await this.decoder.decodeAudioData(bytes.slice(0));
+    const mono = new Float32Array(buf.length);
+    for (let c = 0; c < buf.numberOfChannels; c++) {
+      const ch = buf.getChannelData(c);
+      for (let i = 0; i < mono.length; i++) mono[i]! += ch[i]! / buf.numberOfChannels;
+    }
+    return { name, samples: mono, sampleRateHz: buf.sampleRate };
+  }
+
+  async play(): Promise<void> {
+    const e = await this.ensure();
+    if (e.context.state !== 'running') await e.context.resume();
+    await e.play();
+    this.emit({ playing: true });
+    const poll = () => { if (this.engine?.playing) setTimeout(poll, 250); else this.emit({ playing: false }); };
+    setTimeout(poll, 250);
+  }
+
+  stop(): void { this.engine?.stop(); this.emit({ playing: false }); }
+  positionSeconds(): number { return this.engine?.playing ? this.engine.positionSeconds() : 0; }
+
+  async startLive(): Promise<void> {
+    const e = await this.ensure();
+    if (e.context.state !== 'running') await e.context.resume();
+    await e.startLive();
+    this.emit({ live: e.live });
+  }
+  stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off' }); }
+  setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live }); }
+
+  levels(): { inputVolts: number; outputDbfs: number } { return this.engine?.levels() ?? { inputVolts: 0, outputDbfs: -120 }; }
+  spectrum(into: Float32Array): { ok: boolean; binHertz: number } { return this.engine && this.engine.playing ? this.engine.spectrum(into) : { ok: false, binHertz: 0 }; }
+
+  scope(slot: Slot): ScopeTrace | null {
+    const e = this.engine, d = this.designs[slot];
+    if (!e || !d || e.scope.length < 2) return null;
+    const tubes = d.parts.filter((p) => p.kind === 'tube');
+    const firstGrid = tubes[0]?.kind === 'tube' ? tubes[0].nodes.grid : 'grid';
+    const names = [firstGrid, ...tubes.map((t) => (t.kind === 'tube' ? t.nodes.plate : ''))];
+    const cap = e.scope.capacity;
+    if (this.grid.length !== cap) this.grid = new Float32Array(cap);
+    const traces: Float32Array[] = [];
+    const n = e.scope.read('grid', this.grid);
+    traces.push(this.grid.slice(0, n));
+    tubes.forEach((_, i) => { const b = new Float32Array(cap); const m = e.scope.read(i, b); traces.push(b.slice(0, m)); });
+    return { names, traces, rateHz: 30, rolling: true };
+  }
+
+  async renderOffline(slot: Slot | 'dry', seconds: number): Promise<Float32Array | null> {
+    if (!this.clip) return null;
+    const e = await this.ensure();
+    const n = Math.min(this.clip.samples.length, Math.round(seconds * this.clip.sampleRateHz));
+    const overrides: ToProcessor[] = [{ type: 'monitor', target: slot }];
+    return e.renderOfflineSamples({ input: this.clip.samples.slice(0, n), sampleRateHz: this.clip.sampleRateHz, overrides });
+  }
+}

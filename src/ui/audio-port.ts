@@ -1,0 +1,65 @@
+// What the workspace needs from an audio back end. The workspace talks only to this
+// interface; audio-local.ts implements it with a render worker and Web Audio buffers.
+import type { Design } from '../dsp/circuit/design.ts';
+import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
+import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+
+export interface SourceClip {
+  readonly name: string;
+  /** Mono samples, full scale = 1. */
+  readonly samples: Float32Array;
+  readonly sampleRateHz: number;
+  /** Calibration that came with the clip (demo clips), volts at full scale. */
+  readonly voltsAtFullScale?: number;
+}
+
+export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
+
+export interface AudioStatus {
+  readonly engine: string;
+  readonly playing: boolean;
+  readonly rendering: boolean;
+  readonly durationSeconds: number;
+  /** Processor time over real time of the last render, or null before one. */
+  readonly loadFraction: number | null;
+  /** Level of B relative to A (dB) at their output scalings; shown when loudness matching. */
+  readonly offsetDb: number | null;
+  readonly live: 'off' | 'muted' | 'on';
+  readonly message: string | null;
+}
+
+export interface ScopeTrace {
+  readonly names: readonly string[];
+  readonly traces: readonly Float32Array[];
+  readonly rateHz: number;
+  /** A rolling window of the latest reports (true) or a whole clip (false). */
+  readonly rolling: boolean;
+}
+
+export interface AudioPort {
+  readonly engineName: string;
+  setDesign(slot: Slot, design: Design): void;
+  setMonitor(target: Monitor): void;
+  setLoudnessMatch(on: boolean): void;
+  setInputCalibration(voltsAtFullScale: number): void;
+  setQuality(factor: OversamplingFactor): void;
+  setSource(clip: SourceClip): void;
+  setLoop(region: LoopRegion | null): void;
+  /** Cabinet impulse response (mono) or null for none. */
+  setCabinet(ir: Float32Array | null, sampleRateHz: number): void;
+  decode(bytes: ArrayBuffer, name: string): Promise<SourceClip>;
+  play(): Promise<void>;
+  stop(): void;
+  positionSeconds(): number;
+  startLive(): Promise<void>;
+  stopLive(): void;
+  setMuted(muted: boolean): void;
+  /** Peak levels since the last call: circuit input volts and output dBFS. */
+  levels(): { inputVolts: number; outputDbfs: number };
+  /** Output spectrum in dB per bin (length = fftSize / 2) and the bin width; false if none. */
+  spectrum(into: Float32Array): { ok: boolean; binHertz: number };
+  scope(slot: Slot): ScopeTrace | null;
+  /** The present source rendered offline through one slot (for checks and tests). */
+  renderOffline(slot: Slot | 'dry', seconds: number): Promise<Float32Array | null>;
+  subscribe(listener: (s: AudioStatus) => void): () => void;
+}

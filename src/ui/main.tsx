@@ -1,0 +1,8 @@
+import { StrictMode } from 'react';
+import { createRoot } from 'react-dom/client';
+import { App } from './App.tsx';
+import './styles.css';
+
+const root = document.getElementById('root');
+if (!root) throw new Error('page has no #root element');
+createRoot(root).render(<StrictMode><App /></StrictMode>);

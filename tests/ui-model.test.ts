@@ -1,0 +1,185 @@
+// Pure workspace logic: history, share links, design files, workspace edits, layout, meters.
+import { describe, expect, it } from 'vitest';
+import { DESIGN_SCHEMA, validateDesign, type Design, type Part } from '../src/dsp/circuit/design.ts';
+import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
+import { canRedo, canUndo, pushHistory, redo, startHistory, undo } from '../src/ui/model/history.ts';
+import { decodeDesignHash, encodeDesignHash, fromBase64Url, toBase64Url } from '../src/ui/model/share.ts';
+import { exportDesignText, importDesignText } from '../src/ui/model/design-file.ts';
+import { applyTemplate, copySlot, differingParts, editPart, initialSlots } from '../src/ui/model/workspace.ts';
+import { layoutDesign, partBox, railNodes, mainPath } from '../src/ui/model/layout.ts';
+import { dbfsFraction, formatVolts, logFreqFraction, offsetDb, stepPeakHold, toDbfs, voltsFraction } from '../src/ui/model/meters.ts';
+import { parseWorkspace, serializeWorkspace } from '../src/ui/model/storage.ts';
+import { operatingReport } from '../src/ui/model/operating.ts';
+import { sameStructure } from '../src/ui/audio-engine-port.ts';
+import type { OperatingPoint } from '../src/dsp/circuit/engine.ts';
+
+const base = TEMPLATES['pentode-triode']!;
+const part = (d: Design, id: string) => d.parts.find((p) => p.id === id)!;
+
+describe('history', () => {
+  it('undoes and redoes every step in order and clears redo on a new edit', () => {
+    let h = startHistory(1);
+    h = pushHistory(h, 2); h = pushHistory(h, 3);
+    expect(canUndo(h)).toBe(true);
+    h = undo(h); expect(h.present).toBe(2);
+    h = undo(h); expect(h.present).toBe(1);
+    expect(canUndo(h)).toBe(false);
+    h = redo(h); expect(h.present).toBe(2);
+    h = pushHistory(h, 9);
+    expect(canRedo(h)).toBe(false);
+    expect(undo(h).present).toBe(2);
+  });
+  it('keeps at most the limit of past steps', () => {
+    let h = startHistory(0);
+    for (let i = 1; i <= 10; i++) h = pushHistory(h, i, 4);
+    expect(h.past).toEqual([6, 7, 8, 9]);
+  });
+});
+
+describe('share link', () => {
+  it('base64url follows RFC 4648 section 5 (test vector "foobar" -> "Zm9vYmFy", "fo" -> "Zm8")', () => {
+    const enc = (s: string) => toBase64Url(new TextEncoder().encode(s));
+    expect(enc('foobar')).toBe('Zm9vYmFy'); // RFC 4648 section 10 vectors, padding dropped
+    expect(enc('fo')).toBe('Zm8');
+    expect(toBase64Url(new Uint8Array([0xfb, 0xff]))).toBe('-_8'); // '+/' become '-_' (section 5)
+    expect([...fromBase64Url('-_8')]).toEqual([0xfb, 0xff]);
+  });
+  it('round-trips a design through the hash and refuses a damaged one with a reason', async () => {
+    const d = { ...base, name: 'shared one' };
+    const h = await encodeDesignHash(d);
+    const r = await decodeDesignHash(`#${h}`);
+    expect(r.ok).toBe(true);
+    if (r.ok === true) expect(r.design).toEqual(d);
+    const bad = await decodeDesignHash('#design=j.' + toBase64Url(new TextEncoder().encode('{"schema":"nope"}')));
+    expect(bad.ok).toBe(false);
+    if (bad.ok === false) expect(bad.reason).toMatch(/schema/);
+    expect((await decodeDesignHash('#other')).ok).toBe('none');
+  });
+});
+
+describe('design files', () => {
+  it('export then import gives an identical design', () => {
+    const r = importDesignText(exportDesignText(base));
+    expect(r).toEqual({ ok: true, design: base });
+  });
+  it('a bad file gives one clear line', () => {
+    const notJson = importDesignText('{oops', 'x.json');
+    expect(notJson.ok).toBe(false);
+    if (!notJson.ok) { expect(notJson.reason).toMatch(/^x\.json is not valid JSON/); expect(notJson.reason).not.toMatch(/\n/); }
+    const broken = importDesignText(JSON.stringify({ ...base, parts: base.parts.map((p) => (p.id === 'R2' ? { ...p, ohms: -5 } : p)) }), 'y.json');
+    expect(broken.ok).toBe(false);
+    if (!broken.ok) expect(broken.reason).toMatch(/R2 ohms must be positive/);
+  });
+});
+
+describe('workspace', () => {
+  it('edits one slot and leaves the other alone; refuses a part that breaks the design', () => {
+    const s = initialSlots();
+    const r3 = part(s.A, 'R3') as Extract<Part, { kind: 'resistor' }>;
+    const e = editPart(s, 'B', { ...r3, ohms: 220e3 });
+    expect(e.ok).toBe(true);
+    if (e.ok) { expect(part(e.slots.B, 'R3')).toMatchObject({ ohms: 220e3 }); expect(e.slots.A).toBe(s.A); expect(differingParts(e.slots.A, e.slots.B)).toEqual(['R3']); }
+    const r2 = part(s.A, 'R2') as Extract<Part, { kind: 'resistor' }>;
+    expect(editPart(s, 'A', { ...r2, ohms: 0 }).ok).toBe(false);
+    expect(copySlot({ A: s.A, B: base }, 'A').B).toBe(s.A);
+  });
+  it('switching template keeps the values of shared parts (same id and kind)', () => {
+    const edited = { ...base, parts: base.parts.map((p) => (p.id === 'R2' && p.kind === 'resistor' ? { ...p, ohms: 10e6 } : p.id === 'V1' && p.kind === 'tube' ? { ...p, sample: 1.3 } : p)) };
+    const r = applyTemplate(edited, TEMPLATES['triode-triode']!);
+    expect(part(r.design, 'R2')).toMatchObject({ ohms: 10e6 });
+    // V1 is an EF86 pentode in one template and a 12AX7 triode in the other: type is not carried, sample is
+    expect(part(r.design, 'V1')).toMatchObject({ type: '12AX7', sample: 1.3 });
+    expect(part(r.design, 'R3')).toMatchObject({ ohms: 470e3 });
+    expect(() => validateDesign(r.design)).not.toThrow();
+  });
+  it('autosave round-trips and a corrupted save is ignored', () => {
+    const s = initialSlots();
+    expect(parseWorkspace(serializeWorkspace({ slots: s, active: 'B' }))).toEqual({ slots: s, active: 'B' });
+    expect(parseWorkspace('{"version":1,"A":{},"B":{}}')).toBeNull();
+    expect(parseWorkspace(null)).toBeNull();
+  });
+  it('value-only edits keep the structure (sent as part updates), a type change does not', () => {
+    const r3 = part(base, 'R3') as Extract<Part, { kind: 'resistor' }>;
+    expect(sameStructure(base, { ...base, parts: base.parts.map((p) => (p.id === 'R3' ? { ...r3, ohms: 1e5 } : p)) })).toBe(true);
+    expect(sameStructure(base, { ...base, parts: base.parts.map((p) => (p.id === 'V2' && p.kind === 'tube' ? { ...p, type: '12AT7' } : p)) })).toBe(false);
+  });
+});
+
+describe('schematic layout', () => {
+  for (const [key, d] of Object.entries(TEMPLATES)) {
+    it(`${key}: every part placed once, no two symbols overlapping`, () => {
+      const l = layoutDesign(d);
+      expect(l.parts.map((p) => p.id).sort()).toEqual(d.parts.map((p) => p.id).sort());
+      const boxes = l.parts.map((p) => ({ id: p.id, ...partBox(p) }));
+      for (let i = 0; i < boxes.length; i++) for (let j = i + 1; j < boxes.length; j++) {
+        const a = boxes[i]!, b = boxes[j]!;
+        const overlap = a.x0 < b.x1 && b.x0 < a.x1 && a.y0 < b.y1 && b.y0 < a.y1;
+        expect(overlap, `${a.id} overlaps ${b.id}`).toBe(false);
+      }
+      for (const p of l.parts) for (const v of Object.values(partBox(p))) expect(v >= 0 && v <= Math.max(l.width, l.height)).toBe(true);
+    });
+  }
+  it('signal flows left to right along input -> ... -> output', () => {
+    const rails = railNodes(base);
+    // the decoupled supply node b1 is a rail; a bypassed cathode (k2) is not
+    expect(rails.has('b1')).toBe(true);
+    expect(rails.has('k2')).toBe(false);
+    const path = mainPath(base, rails)!;
+    expect(path.nodes[0]).toBe('in');
+    expect(path.nodes.at(-1)).toBe('out');
+    const l = layoutDesign(base);
+    const x = (id: string) => { const p = l.parts.find((q) => q.id === id)!; return p.kind === 'tube' ? p.centre[0] : p.a[0]; };
+    expect(x('C2')).toBeLessThan(x('V1'));
+    expect(x('V1')).toBeLessThan(x('V2'));
+    expect(x('V2')).toBeLessThan(x('C5'));
+    expect(x('C5')).toBeLessThan(x('VOL'));
+  });
+});
+
+describe('meters', () => {
+  it('dBFS: full scale is 0 dB, half amplitude is -6.02 dB (20 log10 0.5)', () => {
+    expect(toDbfs(1)).toBe(0);
+    expect(toDbfs(0.5)).toBeCloseTo(-6.0206, 3);
+    expect(toDbfs(0)).toBe(-120);
+    expect(dbfsFraction(-30)).toBeCloseTo(0.5, 9);
+    expect(dbfsFraction(6)).toBe(1);
+  });
+  it('volts scale is logarithmic between its ends; formatting picks a prefix', () => {
+    expect(voltsFraction(1e-3)).toBe(0);
+    expect(voltsFraction(Math.sqrt(3e-3))).toBeCloseTo(0.5, 9); // geometric mean of 1 mV and 3 V
+    expect(formatVolts(0.0123)).toBe('12.3 mV');
+    expect(formatVolts(246.2)).toBe('246 V');
+  });
+  it('log frequency axis: 20 Hz at 0, 632 Hz (geometric mean) at 0.5, 20 kHz at 1', () => {
+    expect(logFreqFraction(20)).toBe(0);
+    expect(logFreqFraction(Math.sqrt(20 * 20000))).toBeCloseTo(0.5, 9);
+    expect(logFreqFraction(20000)).toBe(1);
+  });
+  it('offset of twice the output scale is +6.02 dB; peak hold holds then falls', () => {
+    expect(offsetDb(1, 2)).toBeCloseTo(6.0206, 3);
+    let h = stepPeakHold({ db: -60, heldSeconds: 0 }, -10, 0.1);
+    expect(h.db).toBe(-10);
+    h = stepPeakHold(h, -60, 0.5); expect(h.db).toBe(-10);
+    h = stepPeakHold(h, -60, 0.6); expect(h.db).toBeCloseTo(-22, 9); // 20 dB/s over 0.6 s
+  });
+});
+
+describe('operating report', () => {
+  it('flags a figure above its data-sheet rating', () => {
+    // 12AX7 maximum plate dissipation 1.0 W, plate 300 V (RCA/Sylvania sheet, check-values.md, confirmed)
+    const d = TEMPLATES['triode-triode']!;
+    const op: OperatingPoint = {
+      nodes: { '0': 0, bp: 300, b1: 290, p1: 150, g1: -0.5, k2: 100, p2: 200 }, iterations: 1, supplySteps: 1,
+      tubes: {
+        V1: { kind: 'triode', plateAmps: 0.01, plateWatts: 1.5, gridAmps: 0, screenAmps: 0, screenWatts: 0, cathodeAmps: 0.01, vgk: -0.5, vpk: 150, vsk: 0 },
+        V2: { kind: 'triode', plateAmps: 0.001, plateWatts: 0.1, gridAmps: 0, screenAmps: 0, screenWatts: 0, cathodeAmps: 0.001, vgk: -2, vpk: 100, vsk: 0 },
+      },
+    };
+    const r = operatingReport(d, op);
+    const v1 = r.tubes.find((t) => t.id === 'V1')!;
+    expect(v1.figures.find((f) => f.label === 'plate dissipation')).toMatchObject({ limit: 1, exceeded: true });
+    expect(r.warnings.some((w) => w.startsWith('V1 (12AX7): plate dissipation'))).toBe(true);
+    expect(r.tubes.find((t) => t.id === 'V2')!.figures.every((f) => !f.exceeded)).toBe(true);
+    expect(DESIGN_SCHEMA).toBe(d.schema);
+  });
+});
