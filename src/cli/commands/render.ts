@@ -1,5 +1,5 @@
 // valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav
-//   [--oversample N] [--input-volts V] [--raw]
+//   [--oversample N] [--input-volts V] [--raw] [--hum 50|60]
 import { resolve } from 'node:path';
 import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
@@ -8,13 +8,14 @@ import { CliError, loadCircuitArg, optNumber, optString, parseArgs } from '../ar
 import { openWavFile, WavFileWriter } from '../wav-file.ts';
 import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
 import type { CommandIO } from '../main.ts';
+import { humForRender } from '../hum.ts';
 
-export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32] [--input-volts V] [--raw]';
+export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32] [--input-volts V] [--raw] [--hum 50|60]';
 const BLOCK = 8192;
 export const DEFAULT_RENDER_OVERSAMPLE = 8;
 
 export async function runRender(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['raw', 'json'], ['design', 'netlist', 'input', 'output', 'oversample', 'input-volts']);
+  const a = parseArgs(argv, ['raw', 'json'], ['design', 'netlist', 'input', 'output', 'oversample', 'input-volts', 'hum']);
   const inPath = optString(a, 'input');
   const outPath = optString(a, 'output');
   if (!inPath || !outPath) throw new CliError(`missing --input or --output (${RENDER_USAGE})`);
@@ -24,7 +25,10 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (raw && a.options.has('oversample')) throw new CliError('--raw renders the plain circuit at the file\'s rate: drop --oversample');
   const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   if (raw && a.options.has('input-volts')) throw new CliError('--raw reads input samples as volts: drop --input-volts');
-  const loaded = await loadCircuitArg(a);
+  const humText = optString(a, 'hum');
+  const loaded0 = await loadCircuitArg(a);
+  const withHum = humText === undefined ? null : humForRender(loaded0, humText, 1);
+  const loaded = withHum ? withHum.loaded : loaded0;
   const reader = await openWavFile(inPath);
   const h = reader.header;
   if (h.frameCount === 0) { await reader.close(); throw new CliError(`${inPath} has no audio frames`); }
@@ -39,6 +43,8 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const mono = new Float64Array(BLOCK);
   const out = new Float32Array(BLOCK);
   const inGain = raw ? 1 : inputVolts;
+  const hum = withHum ? humForRender(loaded0, humText!, fs).hum : null;
+  const humEngine = model instanceof CircuitEngine ? model : model.engine;
   let nonFinite = 0;
   try {
     for (let f = 0; f < h.frameCount; f += BLOCK) {
@@ -50,6 +56,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
         mono[k] = (s / chans.length) * inGain;
       }
       for (let k = 0; k < n; k++) {
+        if (hum) humEngine.setSourceVolts(hum.sourceId, hum.next());
         let y = model.processSample(mono[k]!);
         if (!Number.isFinite(y)) { y = 0; nonFinite++; }
         out[k] = raw ? y : limiter.process(y * outScale);

@@ -4,15 +4,18 @@ import { tubeType, type TubeType } from '../tubes/library.ts';
 import type { EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
+import type { RectifierSpec, SecondarySpec } from '../analysis/supply.ts';
 
 export const DESIGN_SCHEMA = 'valvewright.design.v1';
 
 export type Taper = 'linear' | 'log' | 'reverse-log';
 
-export interface ResistorPart { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number; readonly tolerance?: number; readonly label?: string }
-export interface CapacitorPart { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number; readonly tolerance?: number; readonly polarized?: boolean; readonly label?: string }
+/** ratedWatts (optional): the power rating of the part you have or mean to buy; checked by the ratings sheet. */
+export interface ResistorPart { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number; readonly tolerance?: number; readonly ratedWatts?: number; readonly label?: string }
+/** Polarised: nodes[0] is the + lead. ratedVolts (optional): the voltage rating of the part; checked by the ratings sheet. */
+export interface CapacitorPart { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number; readonly tolerance?: number; readonly polarized?: boolean; readonly ratedVolts?: number; readonly label?: string }
 /** Three-terminal potentiometer: nodes [end1, wiper, end2]; position 0 puts the wiper at end1. */
-export interface PotPart { readonly id: string; readonly kind: 'pot'; readonly nodes: readonly [string, string, string]; readonly ohms: number; readonly taper: Taper; readonly position: number; readonly tolerance?: number; readonly label?: string }
+export interface PotPart { readonly id: string; readonly kind: 'pot'; readonly nodes: readonly [string, string, string]; readonly ohms: number; readonly taper: Taper; readonly position: number; readonly tolerance?: number; readonly ratedWatts?: number; readonly label?: string }
 export interface SwitchPart { readonly id: string; readonly kind: 'switch'; readonly nodes: readonly [string, string]; readonly closed: boolean; readonly contactOhms?: number; readonly label?: string }
 export interface TubePart {
   readonly id: string; readonly kind: 'tube'; readonly type: string;
@@ -32,6 +35,21 @@ export interface Supply {
   readonly filterFarads: number;
 }
 
+/**
+ * Optional transformer-to-B+ data for the supply estimate (analysis/supply.ts): the last RC stage
+ * (or the reservoir when there are none) is the design's supply node; its estimate replaces
+ * supply.volts / ohms / filterFarads when the estimate feeds the model.
+ */
+export interface PowerSupplySection {
+  readonly secondary: SecondarySpec;
+  readonly rectifier: RectifierSpec;
+  readonly mainsHertz: 50 | 60;
+  readonly reservoirFarads: number;
+  readonly reservoirRatedVolts?: number;
+  readonly stages?: readonly { readonly droppingOhms: number; readonly farads: number; readonly ratedVolts?: number; readonly label?: string }[];
+  readonly heaterWinding?: { readonly volts: number; readonly amps: number };
+}
+
 export interface Design {
   readonly schema: typeof DESIGN_SCHEMA;
   readonly name: string;
@@ -40,6 +58,7 @@ export interface Design {
   readonly output: { readonly node: string; readonly loadOhms: number };
   readonly supply: Supply;
   readonly parts: readonly Part[];
+  readonly powerSupply?: PowerSupplySection;
 }
 
 export const GROUND = '0';
@@ -80,8 +99,12 @@ function checkPositive(v: unknown, what: string, min: number, max: number, unit:
   if (v < min || v > max) throw new DesignError(`${what} = ${v} ${unit} is outside the sane range ${min}..${max} ${unit}`);
 }
 
-/** Validate a design (object or parsed JSON). Throws DesignError with one clear line. */
-export function validateDesign(doc: unknown): Design {
+/**
+ * Validate a design (object or parsed JSON). Throws DesignError with one clear line.
+ * `wiring: false` skips the topology checks (single-terminal nodes, grids without a DC path) so
+ * that the wiring check can report them as findings instead.
+ */
+export function validateDesign(doc: unknown, options: { readonly wiring?: boolean } = {}): Design {
   if (typeof doc !== 'object' || doc === null) throw new DesignError('design must be a JSON object');
   const d = doc as Partial<Design>;
   if (d.schema !== DESIGN_SCHEMA) throw new DesignError(`design "schema" must be "${DESIGN_SCHEMA}"`);
@@ -105,8 +128,14 @@ export function validateDesign(doc: unknown): Design {
     const nodeList = p.kind === 'tube' ? Object.values(p.nodes ?? {}) : (p.nodes as readonly string[] | undefined);
     if (!Array.isArray(nodeList) || nodeList.some((n) => typeof n !== 'string' || !n)) throw new DesignError(`${where}: nodes must be node names`);
     switch (p.kind) {
-      case 'resistor': checkPositive(p.ohms, `${where} ohms`, 0.01, 1e12, 'ohms'); break;
-      case 'capacitor': checkPositive(p.farads, `${where} farads`, 1e-15, 10, 'F'); break;
+      case 'resistor':
+        checkPositive(p.ohms, `${where} ohms`, 0.01, 1e12, 'ohms');
+        if (p.ratedWatts !== undefined) checkPositive(p.ratedWatts, `${where} ratedWatts`, 0.01, 1000, 'W');
+        break;
+      case 'capacitor':
+        checkPositive(p.farads, `${where} farads`, 1e-15, 10, 'F');
+        if (p.ratedVolts !== undefined) checkPositive(p.ratedVolts, `${where} ratedVolts`, 1, 100000, 'V');
+        break;
       case 'pot':
         checkPositive(p.ohms, `${where} ohms`, 10, 1e8, 'ohms');
         if (!(p.position >= 0 && p.position <= 1)) throw new DesignError(`${where}: position must be between 0 and 1`);
@@ -131,7 +160,11 @@ export function validateDesign(doc: unknown): Design {
     for (const n of nodeList) nodes.add(n);
   }
   if (!nodes.has(d.output.node)) throw new DesignError(`output node "${d.output.node}" is not connected to any part`);
+  if (d.powerSupply !== undefined && (typeof d.powerSupply !== 'object' || d.powerSupply === null || typeof d.powerSupply.secondary !== 'object')) {
+    throw new DesignError('design "powerSupply" must be an object with "secondary", "rectifier", "mainsHertz" and "reservoirFarads"');
+  }
   const design = doc as Design;
+  if (options.wiring === false) return design;
   // Every node needs at least two connections (the supply, input and load count).
   const uses = new Map<string, number>();
   const bump = (n: string) => uses.set(n, (uses.get(n) ?? 0) + 1);
