@@ -2,42 +2,66 @@
 // triode [grid-cathode, plate-cathode], pentode [grid-cathode, plate-cathode, screen-cathode].
 // Grid conduction is part of every tube's root, so grid-leak bias and blocking come out of the
 // same solve as the plate current.
+// 'exact' evaluates the netlist-v1 equations (models.ts); 'table' uses tables.ts (an option,
+// accuracy measured in tests/engine-perf-correctness.test.ts).
 import type { RootDevice } from '../wdf/newton-root.ts';
 import {
-  dempwolfZolzerGrid, korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes,
+  dempwolfZolzerGridInto, korenPentodeInto, korenTriodeInto,
   type GridCurrentParams, type KorenPentodeParams, type KorenTriodeParams,
 } from './models.ts';
+import { gridTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
 
 const NO_GRID: GridCurrentParams = { gg: 0, cg: 1, xi: 1, ig0: 0 };
+
+export type TubeFunctions = 'exact' | 'table';
 
 export class TriodeDevice implements RootDevice {
   readonly portCount = 2;
   readonly maxStepVolts = [2, 50];
   readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1]];
-  params: KorenTriodeParams;
-  grid: GridCurrentParams | undefined;
+  readonly params: KorenTriodeParams;
+  readonly grid: GridCurrentParams | undefined;
   /** Tube sample factor: scales plate current (strong > 1 > weak). */
   sample: number;
-  private readonly ip = newSlopes();
-  private readonly ig = newSlopes();
+  readonly functions: TubeFunctions;
+  private readonly w = new Float64Array(8);
+  private readonly tables: TriodeTables | null;
+  private readonly gridTab: HermiteTable | null;
 
-  constructor(params: KorenTriodeParams, grid: GridCurrentParams | undefined, sample = 1) {
+  constructor(params: KorenTriodeParams, grid: GridCurrentParams | undefined, sample = 1, functions: TubeFunctions = 'exact') {
     this.params = params;
     this.grid = grid;
     this.sample = sample;
+    this.functions = functions;
+    this.tables = functions === 'table' ? triodeTables(params) : null;
+    this.gridTab = functions === 'table' && grid ? gridTable(grid) : null;
   }
 
-  evaluate(v: Float64Array, o: number, i: Float64Array, jac: Float64Array, m: number): void {
-    const vgk = v[o]!, vpk = v[o + 1]!;
-    korenTriode(this.params, vgk, vpk, this.sample, this.ip);
-    if (this.grid) dempwolfZolzerGrid(this.grid, vgk, this.ig);
-    else { this.ig.amps = 0; this.ig.dVgk = 0; }
-    i[o] = this.ig.amps;
-    i[o + 1] = this.ip.amps;
-    jac[o * m + o] = this.ig.dVgk;
-    jac[o * m + o + 1] = 0;
-    jac[(o + 1) * m + o] = this.ip.dVgk;
-    jac[(o + 1) * m + o + 1] = this.ip.dVpk;
+  evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
+    const vgk = v[o]!, vpk = v[o + 1]!, w = this.w;
+    if (!this.tables || !this.tableTriode(vgk, vpk)) korenTriodeInto(this.params, vgk, vpk, this.sample, w, 0);
+    if (this.grid) {
+      if (!this.gridTab || !this.gridTab.lookup(vgk, w, 3)) dempwolfZolzerGridInto(this.grid, vgk, w, 3);
+    } else { w[3] = 0; w[4] = 0; }
+    i[o] = w[3]!;
+    i[o + 1] = w[0]!;
+    d[dOff] = w[4]!;
+    d[dOff + 1] = w[1]!;
+    d[dOff + 2] = w[2]!;
+  }
+
+  /** Table path into w[0..2]; false when outside the tables (caller uses the exact equations). */
+  private tableTriode(vgk: number, vpk: number): boolean {
+    const t = this.tables!, w = this.w, p = this.params;
+    if (!(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; return true; }
+    const s = Math.sqrt(p.kvb + vpk * vpk);
+    const z = p.kp * (1 / p.mu + vgk / s);
+    if (!t.w.lookup(vpk, w, 5) || !t.g.lookup(z, w, 3)) return false;
+    const W = this.sample * w[5]!, dW = this.sample * w[6]!, G = w[3]!, dG = w[4]!;
+    w[0] = W * G;
+    w[1] = W * dG * (p.kp / s);
+    w[2] = dW * G - W * dG * ((p.kp * vgk * vpk) / (s * s * s));
+    return true;
   }
 }
 
@@ -45,32 +69,55 @@ export class PentodeDevice implements RootDevice {
   readonly portCount = 3;
   readonly maxStepVolts = [2, 50, 50];
   readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1], [1, 2], [2, 0], [2, 2]];
-  params: KorenPentodeParams;
-  grid: GridCurrentParams | undefined;
+  readonly params: KorenPentodeParams;
+  readonly grid: GridCurrentParams | undefined;
   sample: number;
-  private readonly ip = newSlopes();
-  private readonly is = newSlopes();
-  private readonly ig = newSlopes();
+  readonly functions: TubeFunctions;
+  private readonly w = new Float64Array(16);
+  private readonly tables: PentodeTables | null;
+  private readonly gridTab: HermiteTable | null;
 
-  constructor(params: KorenPentodeParams, grid: GridCurrentParams | undefined, sample = 1) {
+  constructor(params: KorenPentodeParams, grid: GridCurrentParams | undefined, sample = 1, functions: TubeFunctions = 'exact') {
     this.params = params;
     this.grid = grid;
     this.sample = sample;
+    this.functions = functions;
+    this.tables = functions === 'table' ? pentodeTables(params) : null;
+    this.gridTab = functions === 'table' && grid ? gridTable(grid) : null;
   }
 
-  evaluate(v: Float64Array, o: number, i: Float64Array, jac: Float64Array, m: number): void {
-    const vgk = v[o]!, vpk = v[o + 1]!, vsk = v[o + 2]!;
-    korenPentodePlate(this.params, vgk, vpk, vsk, this.sample, this.ip);
-    korenPentodeScreen(this.params, vgk, vsk, this.sample, this.is);
-    dempwolfZolzerGrid(this.grid ?? NO_GRID, vgk, this.ig);
-    if (!this.grid) { this.ig.amps = 0; this.ig.dVgk = 0; }
-    i[o] = this.ig.amps;
-    i[o + 1] = this.ip.amps;
-    i[o + 2] = this.is.amps;
-    const r0 = o * m, r1 = (o + 1) * m, r2 = (o + 2) * m;
-    jac[r0 + o] = this.ig.dVgk; jac[r0 + o + 1] = 0; jac[r0 + o + 2] = 0;
-    jac[r1 + o] = this.ip.dVgk; jac[r1 + o + 1] = this.ip.dVpk; jac[r1 + o + 2] = this.ip.dVsk;
-    jac[r2 + o] = this.is.dVgk; jac[r2 + o + 1] = 0; jac[r2 + o + 2] = this.is.dVsk;
+  evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
+    const vgk = v[o]!, vpk = v[o + 1]!, vsk = v[o + 2]!, w = this.w;
+    if (!this.tables || !this.tablePentode(vgk, vpk, vsk)) korenPentodeInto(this.params, vgk, vpk, vsk, this.sample, w, 0);
+    if (this.grid) {
+      if (!this.gridTab || !this.gridTab.lookup(vgk, w, 7)) dempwolfZolzerGridInto(this.grid, vgk, w, 7);
+    } else { w[7] = 0; w[8] = 0; }
+    i[o] = w[7]!;
+    i[o + 1] = w[0]!;
+    i[o + 2] = w[4]!;
+    d[dOff] = w[8]!;
+    d[dOff + 1] = w[1]!; d[dOff + 2] = w[2]!; d[dOff + 3] = w[3]!;
+    d[dOff + 4] = w[5]!; d[dOff + 5] = w[6]!;
+  }
+
+  /** Table path into w[0..6] (korenPentodeInto layout); false when outside the tables. */
+  private tablePentode(vgk: number, vpk: number, vsk: number): boolean {
+    const t = this.tables!, w = this.w, p = this.params, sc = this.sample;
+    const base = vgk + vsk / p.mu;
+    if (base > 0) {
+      if (!t.s.lookup(base, w, 9)) return false;
+      w[4] = sc * w[9]!; w[5] = sc * w[10]!; w[6] = (sc * w[10]!) / p.mu;
+    } else { w[4] = 0; w[5] = 0; w[6] = 0; }
+    if (!(vsk > 0) || !(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; w[3] = 0; return true; }
+    const z = p.kp * (1 / p.mu + vgk / vsk);
+    if (!t.w.lookup(vsk, w, 9) || !t.g.lookup(z, w, 11) || !t.a.lookup(vpk, w, 13)) return false;
+    const W = sc * w[9]!, dW = sc * w[10]!, G = w[11]!, dG = w[12]!, A = w[13]!, dA = w[14]!;
+    const WG = W * G;
+    w[0] = WG * A;
+    w[1] = W * dG * (p.kp / vsk) * A;
+    w[2] = WG * dA;
+    w[3] = (dW * G - W * dG * ((p.kp * vgk) / (vsk * vsk))) * A;
+    return true;
   }
 }
 

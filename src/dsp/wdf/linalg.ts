@@ -109,3 +109,55 @@ export function solveInPlace(j: Float64Array, r: Float64Array, n: number): boole
   }
   return true;
 }
+
+/**
+ * Allocation-free LU with partial pivoting for the per-sample Newton system (PA = LU, L unit
+ * lower, both stored in `a`). Returns false if singular. Row swaps are applied to whole rows,
+ * `piv[k]` is the row chosen at step k (LAPACK getrf convention).
+ */
+export function luFactorInPlace(a: Float64Array, n: number, piv: Int32Array): boolean {
+  for (let k = 0; k < n; k++) {
+    let p = k;
+    const kn = k * n;
+    let max = Math.abs(a[kn + k]!);
+    for (let i = k + 1; i < n; i++) {
+      const v = Math.abs(a[i * n + k]!);
+      if (v > max) { max = v; p = i; }
+    }
+    if (!(max > 1e-300)) return false;
+    piv[k] = p;
+    if (p !== k) {
+      const pn = p * n;
+      for (let c = 0; c < n; c++) { const t = a[kn + c]!; a[kn + c] = a[pn + c]!; a[pn + c] = t; }
+    }
+    const inv = 1 / a[kn + k]!;
+    for (let i = k + 1; i < n; i++) {
+      const in_ = i * n;
+      const f = a[in_ + k]! * inv;
+      a[in_ + k] = f;
+      if (f === 0) continue;
+      for (let c = k + 1; c < n; c++) a[in_ + c]! -= f * a[kn + c]!;
+    }
+  }
+  return true;
+}
+
+/** Solve with luFactorInPlace's factors: b overwritten by x. No allocation. */
+export function luSolveInPlace(lu: Float64Array, piv: Int32Array, n: number, b: Float64Array): void {
+  for (let k = 0; k < n; k++) {
+    const p = piv[k]!;
+    if (p !== k) { const t = b[k]!; b[k] = b[p]!; b[p] = t; }
+  }
+  for (let i = 1; i < n; i++) {
+    let s = b[i]!;
+    const in_ = i * n;
+    for (let j = 0; j < i; j++) s -= lu[in_ + j]! * b[j]!;
+    b[i] = s;
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    let s = b[i]!;
+    const in_ = i * n;
+    for (let j = i + 1; j < n; j++) s -= lu[in_ + j]! * b[j]!;
+    b[i] = s / lu[in_ + i]!;
+  }
+}
