@@ -1,0 +1,428 @@
+/**
+ * Main-thread audio engine (Tone.js graph around the circuit AudioWorklet).
+ *
+ *   const audio = await createAudioEngine({ factor?, context?, scopeCapacity?, fftSize? });
+ *
+ * Designs and settings (each sends one typed ToProcessor message; see src/dsp/realtime/messages.ts)
+ *   loadDesign(slot, design, { outputVoltsAtFullScale? }): Promise<LoadedInfo>
+ *       validated here first (throws DesignError); without a scale, the output level is estimated
+ *       (estimateOutputVoltsAtFullScale at the present input calibration) so A and B sit alike.
+ *   clearSlot(slot) · setPart(slot, part) · setTubeSample(slot, tubeId, sample)
+ *   setMonitor('A' | 'B' | 'dry') · setQuality(1|2|4|8|16|32) · setInputCalibration(volts)
+ *   setOutputScale(slot, volts) · setOutputLevel(db) · setLimiter(on) · setMuted(muted) · reset()
+ * File player
+ *   loadFile(bytes: ArrayBuffer | Blob): Promise<SourceInfo>   (decodeAudioData: any rate, resampled)
+ *   setSource(samples: Float32Array, sampleRateHz): SourceInfo
+ *   play() · stop() · playing · positionSeconds() · setLoop({ startSeconds, endSeconds } | null)
+ * Live input (starts muted; LIVE_INPUT_WARNING is the text to show first)
+ *   startLive(deviceId?): Promise<void>  rejects with LiveInputError (one line) if denied or absent;
+ *       the rest of the graph keeps working. Echo cancellation, noise suppression, AGC off.
+ *   setLiveMuted(muted)  acts at once (input gain ramps in 2 ms) · stopLive() · live: 'off'|'muted'|'on'
+ *       While live input is on, the processor keeps its safety limiter on whatever setLimiter says.
+ * Cabinet
+ *   loadCabinet(source: string (URL) | ArrayBuffer | { samples, sampleRateHz } | null): Promise<void>
+ *       convolved at its real level (Tone.Convolver, normalize off); null bypasses.
+ * Meters and analysers
+ *   onReport(listener): unsubscribe    every FromProcessor message (meter ~30 Hz, loaded, error, recovered)
+ *   latestMeter: MeterReport | null · levels(): { inputVolts, outputDbfs } (peaks since last call)
+ *   spectrum(into: Float32Array): { ok, binHertz }   dB per bin of the output (fftSize / 2 bins)
+ *   scope: ScopeBuffer                  grid and plate traces of the monitored slot (meter rate)
+ * Offline (same graph on an OfflineAudioContext, present settings, cabinet included)
+ *   renderOffline({ input, sampleRateHz?, tailSeconds?, overrides? }): Promise<AudioBuffer>
+ *   renderOfflineSamples(...same): Promise<Float32Array>
+ * dispose(): Promise<void>
+ */
+import * as Tone from 'tone';
+import { designCircuit, validateDesign, type Design, type Part } from '../dsp/circuit/design.ts';
+import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
+import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
+import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import type { FromProcessor, MeterReport, Monitor, ProcessorInit, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
+import { buildGraph, type Graph } from './graph.ts';
+import { ScopeBuffer } from './scope.ts';
+
+export { ScopeBuffer } from './scope.ts';
+export { buildGraph, loadWorklet, type Graph } from './graph.ts';
+
+export const LIVE_INPUT_WARNING =
+  'Use headphones: with speakers the guitar pickup and the microphone feed back, and a fuzz can howl loudly. Live input starts muted.';
+
+export class LiveInputError extends Error {
+  override name = 'LiveInputError';
+}
+
+export interface AudioEngineOptions {
+  readonly factor?: OversamplingFactor;
+  /** A native AudioContext to use (default: a new one, latencyHint 'interactive'). */
+  readonly context?: AudioContext;
+  /** Meter reports kept by the scope (default 300, 10 s at 30 Hz). */
+  readonly scopeCapacity?: number;
+  readonly fftSize?: number;
+  /** Input calibration to start with, volts at full scale (default 0.2). */
+  readonly inputVoltsAtFullScale?: number;
+}
+
+export interface LoadedInfo { readonly slot: Slot; readonly designName: string; readonly latencySamples: number; readonly tubeIds: readonly string[] }
+export interface SourceInfo { readonly durationSeconds: number; readonly sampleRateHz: number; readonly channels: number }
+export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
+export type CabinetSource = string | ArrayBuffer | { readonly samples: Float32Array; readonly sampleRateHz: number } | null;
+
+export interface OfflineRenderOptions {
+  /** Mono samples (full scale 1) or an AudioBuffer (its channels are mixed by the processor). */
+  readonly input: Float32Array | AudioBuffer;
+  /** Rate of a Float32Array input and of the render (default: the AudioBuffer's rate or 48000). */
+  readonly sampleRateHz?: number;
+  /** Extra seconds rendered after the input ends (default 0). */
+  readonly tailSeconds?: number;
+  /** Messages applied after the present settings (e.g. a different monitor). */
+  readonly overrides?: readonly ToProcessor[];
+}
+
+export interface AudioEngine {
+  readonly context: AudioContext;
+  readonly sampleRateHz: number;
+  loadDesign(slot: Slot, design: Design, options?: { readonly outputVoltsAtFullScale?: number }): Promise<LoadedInfo>;
+  clearSlot(slot: Slot): void;
+  setPart(slot: Slot, part: Part): void;
+  setTubeSample(slot: Slot, tubeId: string, sample: number): void;
+  setMonitor(target: Monitor): void;
+  setQuality(factor: OversamplingFactor): void;
+  setInputCalibration(voltsAtFullScale: number): void;
+  setOutputScale(slot: Slot, voltsAtFullScale: number): void;
+  setOutputLevel(db: number): void;
+  setLimiter(enabled: boolean): void;
+  setMuted(muted: boolean): void;
+  reset(): void;
+  loadFile(bytes: ArrayBuffer | Blob): Promise<SourceInfo>;
+  setSource(samples: Float32Array, sampleRateHz: number): SourceInfo;
+  play(): Promise<void>;
+  stop(): void;
+  readonly playing: boolean;
+  positionSeconds(): number;
+  setLoop(region: LoopRegion | null): void;
+  startLive(deviceId?: string): Promise<void>;
+  setLiveMuted(muted: boolean): void;
+  stopLive(): void;
+  readonly live: 'off' | 'muted' | 'on';
+  loadCabinet(source: CabinetSource): Promise<void>;
+  onReport(listener: (m: FromProcessor) => void): () => void;
+  readonly latestMeter: MeterReport | null;
+  levels(): { inputVolts: number; outputDbfs: number };
+  spectrum(into: Float32Array): { ok: boolean; binHertz: number };
+  readonly scope: ScopeBuffer;
+  renderOffline(options: OfflineRenderOptions): Promise<AudioBuffer>;
+  renderOfflineSamples(options: OfflineRenderOptions): Promise<Float32Array>;
+  dispose(): Promise<void>;
+}
+
+/** Settings that an offline render replays, kept as the messages that made them. */
+interface State {
+  factor: OversamplingFactor;
+  designs: Partial<Record<Slot, Design>>;
+  inputVolts: number;
+  outputScale: Partial<Record<Slot, number>>;
+  levelDb: number;
+  limiter: boolean;
+  monitor: Monitor;
+}
+
+function stateMessages(s: State): ToProcessor[] {
+  const out: ToProcessor[] = [{ type: 'set-quality', factor: s.factor }];
+  for (const slot of ['A', 'B'] as const) {
+    const d = s.designs[slot];
+    if (d) out.push({ type: 'load-design', slot, design: d });
+    const v = s.outputScale[slot];
+    if (v !== undefined) out.push({ type: 'set-output-scale', slot, voltsAtFullScale: v });
+  }
+  out.push(
+    { type: 'set-input-calibration', voltsAtFullScale: s.inputVolts },
+    { type: 'set-output-level', db: s.levelDb },
+    { type: 'set-limiter', enabled: s.limiter },
+    { type: 'monitor', target: s.monitor },
+  );
+  return out;
+}
+
+/** Build an AudioBuffer at `rateHz` from mono samples at `fromHz` (resampled by an offline render if the rates differ). */
+export async function monoBuffer(samples: Float32Array, fromHz: number, rateHz: number): Promise<AudioBuffer> {
+  if (!(fromHz >= 3000 && fromHz <= 768000)) throw new Error(`sample rate ${fromHz} Hz is outside 3000..768000 Hz`);
+  const src = new AudioBuffer({ length: Math.max(1, samples.length), sampleRate: fromHz, numberOfChannels: 1 });
+  src.copyToChannel(Float32Array.from(samples), 0);
+  if (fromHz === rateHz) return src;
+  const len = Math.max(1, Math.round((samples.length * rateHz) / fromHz));
+  const off = new OfflineAudioContext(1, len, rateHz);
+  const node = new AudioBufferSourceNode(off, { buffer: src });
+  node.connect(off.destination);
+  node.start(0);
+  return off.startRendering();
+}
+
+/**
+ * Render the graph offline: the same processor, cabinet and safety stage as live.
+ * `init` is the processor state at frame 0 (applied before the first block, without fades).
+ */
+export async function renderGraphOffline(
+  init: ProcessorInit, input: Float32Array | AudioBuffer, options: { sampleRateHz?: number; tailSeconds?: number; cabinet?: AudioBuffer | null } = {},
+): Promise<AudioBuffer> {
+  const rate = options.sampleRateHz ?? (input instanceof AudioBuffer ? input.sampleRate : 48000);
+  const buf = input instanceof AudioBuffer ? input : await monoBuffer(input, rate, rate);
+  if (buf.sampleRate !== rate) throw new Error(`input buffer is at ${buf.sampleRate} Hz, render asked for ${rate} Hz`);
+  const tail = options.tailSeconds ?? 0;
+  if (!(tail >= 0 && tail <= 60)) throw new Error(`tailSeconds must be between 0 and 60 (got ${tail})`);
+  const length = buf.length + Math.round(tail * rate);
+  const ctx = new Tone.OfflineContext(new OfflineAudioContext(1, length, rate));
+  const graph = await buildGraph(ctx, { ...init, meterHz: 0 });
+  if (options.cabinet) graph.setCabinet(options.cabinet.sampleRate === rate ? options.cabinet : await resampleBuffer(options.cabinet, rate));
+  const src = ctx.rawContext.createBufferSource();
+  src.buffer = buf;
+  Tone.connect(src, graph.input);
+  src.start(0);
+  const rendered = await ctx.render(false);
+  const out = rendered.get();
+  graph.dispose();
+  if (!out) throw new Error('offline render produced no buffer');
+  return out;
+}
+
+async function resampleBuffer(b: AudioBuffer, rateHz: number): Promise<AudioBuffer> {
+  const len = Math.max(1, Math.round((b.length * rateHz) / b.sampleRate));
+  const off = new OfflineAudioContext(b.numberOfChannels, len, rateHz);
+  const node = new AudioBufferSourceNode(off, { buffer: b });
+  node.connect(off.destination);
+  node.start(0);
+  return off.startRendering();
+}
+
+export async function createAudioEngine(options: AudioEngineOptions = {}): Promise<AudioEngine> {
+  const raw = options.context ?? new AudioContext({ latencyHint: 'interactive' });
+  // A native context given to Tone: no wrapping of the worklet source (toolchain notes).
+  const ctx = new Tone.Context(raw);
+  const fs = raw.sampleRate;
+  const state: State = {
+    factor: options.factor ?? DEFAULT_LIVE_FACTOR, designs: {}, inputVolts: options.inputVoltsAtFullScale ?? 0.2,
+    outputScale: {}, levelDb: 0, limiter: true, monitor: 'A',
+  };
+  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: stateMessages(state) }, options.fftSize ?? 4096);
+  const scope = new ScopeBuffer(options.scopeCapacity ?? 300);
+  const listeners = new Set<(m: FromProcessor) => void>();
+  const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
+  let latestMeter: MeterReport | null = null;
+  let peakIn = 0, peakOutDb = -200;
+  graph.circuit.port.onmessage = (e: MessageEvent<FromProcessor>) => {
+    const m = e.data;
+    if (m.type === 'meter') {
+      latestMeter = m;
+      scope.push(m);
+      peakIn = Math.max(peakIn, m.inputPeakVolts);
+      peakOutDb = Math.max(peakOutDb, m.outputPeakDbfs);
+    } else if (m.type === 'loaded') {
+      const i = waiting.findIndex((w) => w.slot === m.slot);
+      if (i >= 0) waiting.splice(i, 1)[0]!.resolve({ slot: m.slot, designName: m.designName, latencySamples: m.latencySamples, tubeIds: m.tubeIds });
+    } else if (m.type === 'error') {
+      const i = waiting.findIndex((w) => m.message.startsWith(`slot ${w.slot}:`) || m.message.startsWith('design rejected'));
+      if (i >= 0) waiting.splice(i, 1)[0]!.reject(new Error(m.message));
+    }
+    for (const l of listeners) l(m);
+  };
+  const send = (m: ToProcessor) => graph.send(m);
+
+  // File player.
+  const player = new Tone.Player({ context: ctx, loop: false });
+  player.connect(graph.input);
+  let source: AudioBuffer | null = null;
+  let loop: LoopRegion | null = null;
+  let startedAt = 0;
+  const info = (b: AudioBuffer): SourceInfo => ({ durationSeconds: b.duration, sampleRateHz: b.sampleRate, channels: b.numberOfChannels });
+  const useBuffer = (b: AudioBuffer): SourceInfo => {
+    if (player.state === 'started') player.stop();
+    source = b;
+    player.buffer = new Tone.ToneAudioBuffer(b);
+    applyLoop();
+    return info(b);
+  };
+  const applyLoop = (): void => {
+    if (!source) return;
+    if (loop) {
+      player.loop = true;
+      player.setLoopPoints(loop.startSeconds, loop.endSeconds);
+    } else player.loop = false;
+  };
+
+  // Live input.
+  const liveGain = new Tone.Gain({ context: ctx, gain: 0 });
+  liveGain.connect(graph.input);
+  let stream: MediaStream | null = null;
+  let streamNode: MediaStreamAudioSourceNode | null = null;
+  let liveMuted = true;
+
+  let cabinetBuffer: AudioBuffer | null = null;
+  const decode = async (bytes: ArrayBuffer): Promise<AudioBuffer> => {
+    try {
+      return await raw.decodeAudioData(bytes.slice(0));
+    } catch (e) {
+      throw new Error(`could not decode the audio file (${e instanceof Error ? e.message : String(e)})`);
+    }
+  };
+
+  const engine: AudioEngine = {
+    context: raw,
+    sampleRateHz: fs,
+    async loadDesign(slot, design, opts) {
+      const d = validateDesign(design);
+      const scale = opts?.outputVoltsAtFullScale ?? estimateOutputVoltsAtFullScale(designCircuit(d), fs, state.inputVolts);
+      state.designs[slot] = d;
+      state.outputScale[slot] = scale;
+      const done = new Promise<LoadedInfo>((resolve, reject) => waiting.push({ slot, resolve, reject }));
+      send({ type: 'load-design', slot, design: d });
+      send({ type: 'set-output-scale', slot, voltsAtFullScale: scale });
+      return done;
+    },
+    clearSlot(slot) { delete state.designs[slot]; send({ type: 'clear-slot', slot }); },
+    setPart(slot, part) {
+      const d = state.designs[slot];
+      if (d) state.designs[slot] = { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) };
+      send({ type: 'set-part', slot, part });
+    },
+    setTubeSample(slot, tubeId, sample) {
+      const d = state.designs[slot];
+      if (d) state.designs[slot] = { ...d, parts: d.parts.map((p) => (p.id === tubeId && p.kind === 'tube' ? { ...p, sample } : p)) };
+      send({ type: 'set-tube-sample', slot, tubeId, sample });
+    },
+    setMonitor(target) { state.monitor = target; send({ type: 'monitor', target }); },
+    setQuality(factor) { state.factor = factor; send({ type: 'set-quality', factor }); },
+    setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
+    setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
+    setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
+    setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
+    setMuted(muted) {
+      send({ type: 'set-mute', muted });
+      graph.output.gain.cancelScheduledValues(ctx.currentTime);
+      graph.output.gain.rampTo(muted ? 0 : 1, 0.002);
+    },
+    reset() { send({ type: 'reset' }); },
+    async loadFile(bytes) {
+      const ab = bytes instanceof ArrayBuffer ? bytes : await bytes.arrayBuffer();
+      return useBuffer(await decode(ab));
+    },
+    setSource(samples, rateHz) {
+      if (!(rateHz >= 3000 && rateHz <= 768000)) throw new Error(`sample rate ${rateHz} Hz is outside 3000..768000 Hz`);
+      const b = new AudioBuffer({ length: Math.max(1, samples.length), sampleRate: rateHz, numberOfChannels: 1 });
+      b.copyToChannel(Float32Array.from(samples), 0);
+      return useBuffer(b);
+    },
+    async play() {
+      if (!source) throw new Error('no audio file loaded: load one before playing');
+      await raw.resume();
+      if (player.state === 'started') player.stop();
+      const offset = loop ? loop.startSeconds : 0;
+      player.start(undefined, offset);
+      startedAt = ctx.currentTime - offset;
+    },
+    stop() { if (player.state === 'started') player.stop(); },
+    get playing() { return player.state === 'started'; },
+    positionSeconds() {
+      if (player.state !== 'started' || !source) return 0;
+      const t = ctx.currentTime - startedAt;
+      if (!loop) return Math.min(t, source.duration);
+      const len = loop.endSeconds - loop.startSeconds;
+      return t < loop.endSeconds ? t : loop.startSeconds + ((t - loop.startSeconds) % len);
+    },
+    setLoop(region) {
+      if (region) {
+        const dur = source?.duration ?? Infinity;
+        if (!(region.startSeconds >= 0 && region.endSeconds > region.startSeconds && region.endSeconds <= dur + 1e-9)) {
+          throw new Error(`loop region ${region.startSeconds}..${region.endSeconds} s must lie inside the file (0..${dur} s) with start before end`);
+        }
+      }
+      loop = region;
+      applyLoop();
+    },
+    async startLive(deviceId) {
+      if (stream) return;
+      if (!navigator.mediaDevices?.getUserMedia) throw new LiveInputError('live input needs a secure page (https or localhost) with microphone support');
+      const audio: MediaTrackConstraints = { echoCancellation: false, noiseSuppression: false, autoGainControl: false, ...(deviceId ? { deviceId: { exact: deviceId } } : {}) };
+      try {
+        stream = await navigator.mediaDevices.getUserMedia({ audio });
+      } catch (e) {
+        const name = e instanceof DOMException ? e.name : '';
+        if (name === 'NotAllowedError' || name === 'SecurityError') throw new LiveInputError('microphone access was denied: allow it in the browser to use live input');
+        if (name === 'NotFoundError' || name === 'OverconstrainedError') throw new LiveInputError('no audio input device found (or the chosen one is gone)');
+        if (name === 'NotReadableError') throw new LiveInputError('the audio input device is busy or failed to start');
+        throw new LiveInputError(`live input failed: ${e instanceof Error ? e.message : String(e)}`);
+      }
+      await raw.resume();
+      streamNode = raw.createMediaStreamSource(stream);
+      Tone.connect(streamNode, liveGain);
+      liveMuted = true;
+      liveGain.gain.value = 0;
+      send({ type: 'set-live-input', live: true });
+    },
+    setLiveMuted(muted) {
+      liveMuted = muted;
+      liveGain.gain.cancelScheduledValues(ctx.currentTime);
+      liveGain.gain.rampTo(muted || !stream ? 0 : 1, 0.002);
+    },
+    stopLive() {
+      if (!stream) return;
+      liveGain.gain.value = 0;
+      streamNode?.disconnect();
+      for (const t of stream.getTracks()) t.stop();
+      stream = null;
+      streamNode = null;
+      liveMuted = true;
+      send({ type: 'set-live-input', live: false });
+    },
+    get live() { return !stream ? 'off' : liveMuted ? 'muted' : 'on'; },
+    async loadCabinet(src) {
+      let b: AudioBuffer | null = null;
+      if (typeof src === 'string') {
+        const r = await fetch(src);
+        if (!r.ok) throw new Error(`could not fetch cabinet response ${src} (HTTP ${r.status})`);
+        b = await decode(await r.arrayBuffer());
+      } else if (src instanceof ArrayBuffer) b = await decode(src);
+      else if (src) b = await monoBuffer(src.samples, src.sampleRateHz, fs);
+      if (b && b.sampleRate !== fs) b = await resampleBuffer(b, fs);
+      cabinetBuffer = b;
+      graph.setCabinet(b);
+    },
+    onReport(l) { listeners.add(l); return () => listeners.delete(l); },
+    get latestMeter() { return latestMeter; },
+    levels() {
+      const r = { inputVolts: peakIn, outputDbfs: peakOutDb };
+      peakIn = 0; peakOutDb = -200;
+      return r;
+    },
+    spectrum(into) {
+      const v = graph.analyser.getValue();
+      if (!(v instanceof Float32Array)) return { ok: false, binHertz: 0 };
+      into.set(v.subarray(0, Math.min(into.length, v.length)));
+      return { ok: true, binHertz: fs / graph.analyser.size };
+    },
+    scope,
+    async renderOffline(o) {
+      const init: ProcessorInit = { factor: state.factor, initial: [...stateMessages(state), ...(o.overrides ?? [])] };
+      return renderGraphOffline(init, o.input, {
+        ...(o.sampleRateHz !== undefined ? { sampleRateHz: o.sampleRateHz } : {}),
+        ...(o.tailSeconds !== undefined ? { tailSeconds: o.tailSeconds } : {}),
+        cabinet: cabinetBuffer,
+      });
+    },
+    async renderOfflineSamples(o) {
+      const b = await engine.renderOffline(o);
+      return b.getChannelData(0).slice();
+    },
+    async dispose() {
+      engine.stopLive();
+      player.dispose();
+      liveGain.dispose();
+      graph.dispose();
+      for (const w of waiting.splice(0)) w.reject(new Error('audio engine disposed'));
+      // Tone's Context.dispose closes the native context too: only for a context made here.
+      if (!options.context) {
+        ctx.dispose();
+        if (raw.state !== 'closed') await raw.close();
+      }
+    },
+  };
+  return engine;
+}

@@ -1,0 +1,673 @@
+// The audio-thread core: two design slots (A, B) run side by side on the same input, so that
+// A/B/dry switching is instant and sample-aligned (the dry path is delayed by the oversampling
+// latency). Pure TypeScript, no Web Audio types: worklets/circuit.worklet.ts wraps it.
+//
+// Click-free editing:
+// - monitor changes crossfade linearly over CROSSFADE_SECONDS (the gains sum to 1 at every sample);
+// - part values (resistor, capacitor: geometric; pot position, tube sample: linear) glide to a new
+//   value over SMOOTHING_SECONDS (COMPONENT_SMOOTHING_SECONDS for resistors and capacitors); the
+//   engine is recompiled with the glided values every SMOOTHING_STEP_SAMPLES (block boundaries and
+//   fixed points inside a block), keeping the circuit's state;
+// - a design load, quality change or reset fades the affected output out, rebuilds at a block
+//   boundary, and fades in (an unheard slot is rebuilt at once);
+// - scalar gains (input calibration, output scales, master, mute) ramp per sample.
+// Design loads compile a new engine here on the audio thread: a compiled engine is a class
+// instance that cannot be posted from another thread, and compiling takes 1-6 ms (one or two
+// render quanta), acceptable for an explicit load behind a fade.
+//
+// Allocation: nothing on the per-block path of this file (ramps, meters and update lists are
+// pre-allocated). CircuitEngine.setValues allocates while it recompiles its matrices, so part
+// glides allocate on the steps they take (at most one recompile per slot per step).
+import {
+  designCircuit, partValueUpdates, potResistors, validateDesign, withPart, DesignError,
+  type Design, type Part, type PotPart, type TubePart,
+} from '../circuit/design.ts';
+import type { ValueUpdate } from '../circuit/engine.ts';
+import { OversampledCircuit, isOversamplingFactor } from '../render/oversampled.ts';
+import { PeakLimiter } from '../render/limiter.ts';
+import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
+import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './messages.ts';
+
+/**
+ * Default live factor. Chosen from bench/worklet.browser.bench.ts and bench/dual-slot.bench.ts
+ * (both slots, Hearthstone pentode front, 48 kHz): see the numbers in those benches' output.
+ */
+export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 2;
+export const CROSSFADE_SECONDS = 0.005;
+/** Pot and tube-sample glide: fast enough to follow a knob. */
+export const SMOOTHING_SECONDS = 0.02;
+/** Resistor and capacitor changes (discrete edits) glide longer, so a DC shift they cause
+ * (e.g. a new plate load) arrives as a ramp of small steps rather than a thump. */
+export const COMPONENT_SMOOTHING_SECONDS = 0.15;
+/** Glide step interval: zipper steps shrink with it, each step costs one engine recompile. */
+export const SMOOTHING_STEP_SAMPLES = 64;
+export const MUTE_SECONDS = 0.001;
+export const METER_HZ = 30;
+export const LIMITER_CEILING_DBFS = -1;
+const DRY_DELAY_CAPACITY = 1024; // power of two, > any oversampler latency in base samples
+const SILENT_DBFS = -200;
+const FINITE_LIMIT = 1e9; // |slot output| beyond this is treated as a fault, like NaN/Inf
+const INPUT_LIMIT = 1e3; // input samples outside ±this (or NaN) are read as 0
+
+/** What a slot needs from a circuit model (the default is an OversampledCircuit). */
+export interface SlotModel {
+  /** One base-rate sample: input volts to output volts. */
+  processSample(vin: number): number;
+  readonly latencySamples: number;
+  /** Output node voltage at the operating point (subtracted from the output). */
+  readonly outputDcVolts: number;
+  /** [first-stage grid, plate of each tube in design order] after the last sample, volts. */
+  readonly probeValues: Float64Array;
+  setValues(updates: readonly ValueUpdate[]): void;
+  setSwitch(id: string, closed: boolean): void;
+  setTubeSample(id: string, sample: number): void;
+  /** Back to the operating point (recomputed for the present values). */
+  reset(): void;
+}
+export type ModelFactory = (design: Design, baseRateHz: number, factor: OversamplingFactor) => SlotModel;
+
+const tubesOf = (d: Design): TubePart[] => d.parts.filter((p): p is TubePart => p.kind === 'tube');
+
+/** The default model: the design's circuit at factor x the base rate (src/dsp/render/oversampled.ts). */
+export const circuitModel: ModelFactory = (design, baseRateHz, factor) => {
+  const oc = new OversampledCircuit(designCircuit(design), baseRateHz, factor);
+  const tubes = tubesOf(design);
+  oc.engine.setProbes([tubes[0]?.nodes.grid ?? design.output.node, ...tubes.map((t) => t.nodes.plate)]);
+  const dcOf = (): number => oc.engine.operatingPoint().nodes[oc.engine.outputNodeName] ?? 0;
+  let dc = dcOf();
+  return {
+    processSample: (v) => oc.processSample(v),
+    get latencySamples() { return oc.latencySamples; },
+    get outputDcVolts() { return dc; },
+    get probeValues() { return oc.engine.probeValues; },
+    setValues: (u) => oc.engine.setValues(u),
+    setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
+    setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
+    reset: () => { oc.reset(); dc = dcOf(); },
+  };
+};
+
+/** Linear per-sample ramp. */
+class Ramp {
+  value: number;
+  target: number;
+  private inc = 0;
+  private left = 0;
+  constructor(v: number) { this.value = v; this.target = v; }
+  to(target: number, samples: number): void {
+    this.target = target;
+    const n = Math.max(0, Math.round(samples));
+    if (n === 0 || target === this.value) { this.value = target; this.left = 0; return; }
+    this.inc = (target - this.value) / n;
+    this.left = n;
+  }
+  jump(v: number): void { this.value = v; this.target = v; this.left = 0; }
+  get moving(): boolean { return this.left > 0; }
+  next(): number {
+    if (this.left > 0) {
+      this.left--;
+      this.value = this.left === 0 ? this.target : this.value + this.inc;
+    }
+    return this.value;
+  }
+}
+
+type Mutable<T> = { -readonly [K in keyof T]: T[K] };
+interface MutableUpdate { id: string; value: number }
+
+/** A part value gliding from `from` to `to` between sample clocks start and start+total. */
+interface Glide {
+  readonly partId: string;
+  readonly kind: 'resistor' | 'capacitor' | 'pot' | 'tube';
+  from: number; to: number; value: number;
+  /** Pots: ohms glide (geometric) besides the position. */
+  fromOhms: number; toOhms: number;
+  start: number; total: number; active: boolean;
+  readonly updates: MutableUpdate[];
+  readonly pot: Mutable<PotPart> | null;
+}
+
+class SlotState {
+  design: Design | null = null;
+  model: SlotModel | null = null;
+  pending: Design | null = null;
+  pendingClear = false;
+  glides: Glide[] = [];
+  glideById = new Map<string, Glide>();
+  allUpdates: MutableUpdate[] = [];
+  lastStepClock = -Infinity;
+  readonly fade = new Ramp(1);
+  readonly outScale = new Ramp(1); // 1 / volts at full scale
+  dc = 0;
+  faultReported = false;
+  tubeIds: string[] = [];
+  plateVolts: number[] = [];
+  constructor(readonly name: Slot) {}
+}
+
+export interface DualSlotOptions {
+  readonly sampleRateHz: number;
+  readonly factor?: OversamplingFactor;
+  /** Meter reports per second (0: none). */
+  readonly meterHz?: number;
+  /** Clock for the load measurement, milliseconds. */
+  readonly nowMs?: () => number;
+  /** Receives reports. The meter report object is reused between calls: copy it to keep it. */
+  readonly post?: (m: FromProcessor) => void;
+  readonly createModel?: ModelFactory;
+  /** Glide times (defaults SMOOTHING_SECONDS, COMPONENT_SMOOTHING_SECONDS; 0: values jump, for comparison). */
+  readonly smoothingSeconds?: number;
+  readonly componentSmoothingSeconds?: number;
+  /** Applied at once, before the first block, without fades. */
+  readonly initial?: readonly ToProcessor[];
+}
+
+function isObject(x: unknown): x is Record<string, unknown> {
+  return typeof x === 'object' && x !== null;
+}
+const isSlot = (x: unknown): x is Slot => x === 'A' || x === 'B';
+const finite = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
+const errMsg = (e: unknown): string => (e instanceof Error ? e.message : String(e));
+
+export class DualSlotEngine {
+  readonly sampleRateHz: number;
+  private factorNow: OversamplingFactor;
+  private readonly post: (m: FromProcessor) => void;
+  private readonly nowMs: () => number;
+  private readonly createModel: ModelFactory;
+  private readonly slots: readonly [SlotState, SlotState];
+  private readonly xfadeSamples: number;
+  private readonly glideSamples: number;
+  private readonly componentGlideSamples: number;
+  private readonly muteSamples: number;
+  // monitor gains
+  private monitorTarget: Monitor = 'A';
+  private readonly gA = new Ramp(1);
+  private readonly gB = new Ramp(0);
+  private readonly gDry = new Ramp(0);
+  private readonly inCal = new Ramp(1); // volts at full scale
+  private readonly master = new Ramp(1);
+  private readonly mute = new Ramp(1);
+  private readonly globalFade = new Ramp(1);
+  private pendingFactor: OversamplingFactor | null = null;
+  private pendingReset = false;
+  private limiterWanted = true;
+  private live = false;
+  private readonly limiter: PeakLimiter;
+  private readonly dryRing = new Float64Array(DRY_DELAY_CAPACITY);
+  private dryPos = 0;
+  private dryDelay = 0;
+  private clock = 0;
+  // meters
+  private readonly meterInterval: number;
+  private sinceMeter = 0;
+  private inPeak = 0;
+  private outPeak = 0;
+  private busyMs = 0;
+  private budgetMs = 0;
+  private readonly report: Mutable<MeterReport> & { plateVolts: number[] } = {
+    type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
+    limiterReductionDb: 0, limiterOn: true, traceSlot: null,
+  };
+  private readonly noPlates: number[] = [];
+
+  constructor(options: DualSlotOptions) {
+    const fs = options.sampleRateHz;
+    if (!(finite(fs) && fs >= 8000 && fs <= 384000)) throw new Error(`sample rate must be between 8000 and 384000 Hz (got ${String(fs)})`);
+    this.sampleRateHz = fs;
+    const f = options.factor ?? DEFAULT_LIVE_FACTOR;
+    if (!isOversamplingFactor(f)) throw new Error(`oversampling factor must be 1, 2, 4, 8, 16 or 32 (got ${String(f)})`);
+    this.factorNow = f;
+    this.post = options.post ?? (() => {});
+    this.nowMs = options.nowMs ?? (() => Date.now());
+    this.createModel = options.createModel ?? circuitModel;
+    this.slots = [new SlotState('A'), new SlotState('B')];
+    this.xfadeSamples = Math.round(CROSSFADE_SECONDS * fs);
+    this.glideSamples = Math.round((options.smoothingSeconds ?? SMOOTHING_SECONDS) * fs);
+    this.componentGlideSamples = Math.round((options.componentSmoothingSeconds ?? COMPONENT_SMOOTHING_SECONDS) * fs);
+    this.muteSamples = Math.round(MUTE_SECONDS * fs);
+    this.limiter = new PeakLimiter(fs, LIMITER_CEILING_DBFS);
+    const hz = options.meterHz ?? METER_HZ;
+    this.meterInterval = hz > 0 ? Math.max(1, Math.round(fs / hz)) : Infinity;
+    this.dryDelay = this.latencyFor(f);
+    for (const m of options.initial ?? []) this.apply(m, true);
+  }
+
+  get factor(): OversamplingFactor { return this.factorNow; }
+  get monitor(): Monitor { return this.monitorTarget; }
+  get limiterOn(): boolean { return this.live || this.limiterWanted; }
+  /** Delay of the dry path, base samples (the rounded oversampling latency). */
+  get dryDelaySamples(): number { return this.dryDelay; }
+  /** The design a slot plays (or will play after a pending load), with every edit applied. */
+  design(slot: Slot): Design | null {
+    const s = this.slot(slot);
+    return s.pending ?? s.design;
+  }
+
+  private slot(s: Slot): SlotState { return s === 'A' ? this.slots[0] : this.slots[1]; }
+
+  private latencyFor(f: OversamplingFactor): number {
+    return Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
+  }
+
+  private error(message: string): void { this.post({ type: 'error', message }); }
+
+  /** A message from the main thread (validated; bad ones are answered with an 'error' report). */
+  handle(msg: unknown): void {
+    this.apply(msg, false);
+  }
+
+  private apply(msg: unknown, immediate: boolean): void {
+    try {
+      this.applyUnsafe(msg, immediate);
+    } catch (e) {
+      this.error(e instanceof DesignError ? `design rejected: ${e.message}` : errMsg(e));
+    }
+  }
+
+  private applyUnsafe(raw: unknown, immediate: boolean): void {
+    if (!isObject(raw) || typeof raw.type !== 'string') throw new Error('message must be an object with a "type"');
+    const msg = raw as ToProcessor;
+    const needSlot = (s: unknown): SlotState => {
+      if (!isSlot(s)) throw new Error(`${msg.type}: slot must be "A" or "B" (got ${JSON.stringify(s)})`);
+      return this.slot(s);
+    };
+    switch (msg.type) {
+      case 'load-design': {
+        const s = needSlot(msg.slot);
+        const d = validateDesign(msg.design);
+        s.pendingClear = false;
+        if (immediate) this.build(s, d);
+        else s.pending = d;
+        return;
+      }
+      case 'clear-slot': {
+        const s = needSlot(msg.slot);
+        s.pending = null;
+        if (immediate) this.clear(s);
+        else s.pendingClear = true;
+        return;
+      }
+      case 'set-part': {
+        const s = needSlot(msg.slot);
+        if (!isObject(msg.part) || typeof msg.part.id !== 'string') throw new Error('set-part: "part" must be a part with an "id"');
+        this.setPart(s, msg.part, immediate);
+        return;
+      }
+      case 'set-tube-sample': {
+        const s = needSlot(msg.slot);
+        const base = s.pending ?? s.design;
+        const tube = base?.parts.find((p) => p.id === msg.tubeId);
+        if (!tube || tube.kind !== 'tube') throw new Error(`set-tube-sample: slot ${s.name} has no tube "${String(msg.tubeId)}"`);
+        if (!finite(msg.sample)) throw new Error('set-tube-sample: sample must be a number');
+        this.setPart(s, { ...tube, sample: msg.sample }, immediate);
+        return;
+      }
+      case 'set-quality': {
+        if (!isOversamplingFactor(msg.factor)) throw new Error(`set-quality: factor must be 1, 2, 4, 8, 16 or 32 (got ${JSON.stringify(msg.factor)})`);
+        if (immediate) this.rebuildAll(msg.factor);
+        else if (msg.factor !== this.factorNow || this.pendingFactor !== null) this.pendingFactor = msg.factor;
+        return;
+      }
+      case 'monitor': {
+        const t = msg.target;
+        if (t !== 'A' && t !== 'B' && t !== 'dry') throw new Error(`monitor: target must be "A", "B" or "dry" (got ${JSON.stringify(t)})`);
+        this.monitorTarget = t;
+        const n = immediate ? 0 : this.xfadeSamples;
+        this.gA.to(t === 'A' ? 1 : 0, n);
+        this.gB.to(t === 'B' ? 1 : 0, n);
+        this.gDry.to(t === 'dry' ? 1 : 0, n);
+        return;
+      }
+      case 'set-input-calibration': {
+        const v = msg.voltsAtFullScale;
+        if (!(finite(v) && v > 0 && v <= 100)) throw new Error(`set-input-calibration: volts at full scale must be between 0 and 100 (got ${String(v)})`);
+        this.inCal.to(v, immediate ? 0 : this.glideSamples);
+        return;
+      }
+      case 'set-output-scale': {
+        const s = needSlot(msg.slot);
+        const v = msg.voltsAtFullScale;
+        if (!(finite(v) && v >= 1e-6 && v <= 1e4)) throw new Error(`set-output-scale: volts at full scale must be between 1e-6 and 1e4 (got ${String(v)})`);
+        s.outScale.to(1 / v, immediate ? 0 : this.glideSamples);
+        return;
+      }
+      case 'set-output-level': {
+        const db = msg.db;
+        if (!(finite(db) && db >= -120 && db <= 24)) throw new Error(`set-output-level: level must be between -120 and +24 dB (got ${String(db)})`);
+        this.master.to(Math.pow(10, db / 20), immediate ? 0 : this.glideSamples);
+        return;
+      }
+      case 'set-limiter':
+        if (typeof msg.enabled !== 'boolean') throw new Error('set-limiter: "enabled" must be true or false');
+        this.limiterWanted = msg.enabled;
+        if (msg.enabled === false && this.live) this.error('the safety limiter stays on while live input is on');
+        return;
+      case 'set-live-input':
+        if (typeof msg.live !== 'boolean') throw new Error('set-live-input: "live" must be true or false');
+        this.live = msg.live;
+        return;
+      case 'set-mute':
+        if (typeof msg.muted !== 'boolean') throw new Error('set-mute: "muted" must be true or false');
+        this.mute.to(msg.muted ? 0 : 1, immediate ? 0 : this.muteSamples);
+        return;
+      case 'reset':
+        if (immediate) this.resetAll();
+        else this.pendingReset = true;
+        return;
+      default:
+        throw new Error(`unknown message type ${JSON.stringify((msg as { type: unknown }).type)}`);
+    }
+  }
+
+  private setPart(s: SlotState, part: Part, immediate: boolean): void {
+    const base = s.pending ?? s.design;
+    if (!base) throw new Error(`set-part: slot ${s.name} has no design (load one first)`);
+    const old = base.parts.find((p) => p.id === part.id);
+    if (!old) throw new Error(`set-part: slot ${s.name} has no part "${part.id}"`);
+    if (old.kind !== part.kind) throw new Error(`set-part: ${part.id} is a ${old.kind}, not a ${String(part.kind)}`);
+    if (JSON.stringify(old.nodes) !== JSON.stringify(part.nodes)) throw new Error(`set-part: ${part.id} changes its nodes; load a design to rewire`);
+    const next = withPart(base, part);
+    validateDesign(next);
+    if (s.pending) { s.pending = next; return; }
+    s.design = next;
+    const model = s.model;
+    if (!model) return;
+    switch (part.kind) {
+      case 'switch':
+        model.setSwitch(part.id, part.closed);
+        return;
+      case 'tube':
+        if (old.kind === 'tube' && old.type !== part.type) {
+          if (immediate) this.build(s, next);
+          else s.pending = next;
+          return;
+        }
+        this.glideTo(s, part.id, part.sample, 0, immediate);
+        return;
+      case 'pot':
+        this.glideTo(s, part.id, part.position, part.ohms, immediate, part);
+        return;
+      case 'resistor':
+        this.glideTo(s, part.id, part.ohms, 0, immediate);
+        return;
+      case 'capacitor':
+        this.glideTo(s, part.id, part.farads, 0, immediate);
+        return;
+    }
+  }
+
+  private glideTo(s: SlotState, id: string, to: number, toOhms: number, immediate: boolean, pot?: PotPart): void {
+    const g = s.glideById.get(id);
+    if (!g) return;
+    g.from = g.value;
+    g.to = to;
+    g.fromOhms = g.pot ? g.pot.ohms : 0;
+    g.toOhms = toOhms;
+    if (g.pot && pot) g.pot.taper = pot.taper;
+    g.start = this.clock;
+    g.total = immediate ? 0 : g.kind === 'resistor' || g.kind === 'capacitor' ? this.componentGlideSamples : this.glideSamples;
+    g.active = true;
+    if (immediate) this.stepGlides(s, 0, true);
+  }
+
+  /** Advance the glides of a slot to the middle of the coming block; one recompile for all. */
+  private stepGlides(s: SlotState, n: number, force: boolean): void {
+    const model = s.model;
+    if (!model) return;
+    let any = false, finishing = false;
+    const t = this.clock + n / 2;
+    for (const g of s.glides) {
+      if (!g.active) continue;
+      any = true;
+      if (t - g.start >= g.total) finishing = true;
+    }
+    if (!any) return;
+    if (!force && !finishing && this.clock - s.lastStepClock < SMOOTHING_STEP_SAMPLES) return;
+    s.lastStepClock = this.clock;
+    let linear = false;
+    for (const g of s.glides) {
+      if (!g.active) continue;
+      const fr = g.total <= 0 ? 1 : Math.min(1, Math.max(0, (t - g.start) / g.total));
+      if (fr >= 1) g.active = false;
+      if (g.kind === 'pot' && g.pot) {
+        g.value = g.from + (g.to - g.from) * fr;
+        g.pot.position = g.value;
+        g.pot.ohms = fr >= 1 ? g.toOhms : g.fromOhms * Math.pow(g.toOhms / g.fromOhms, fr);
+        const r = potResistors(g.pot);
+        g.updates[0]!.value = r.upperOhms;
+        if (g.updates.length > 1) g.updates[1]!.value = r.lowerOhms;
+        linear = true;
+      } else if (g.kind === 'tube') {
+        g.value = g.from + (g.to - g.from) * fr;
+        model.setTubeSample(g.partId, g.value);
+      } else {
+        g.value = fr >= 1 ? g.to : g.from * Math.pow(g.to / g.from, fr);
+        g.updates[0]!.value = g.value;
+        linear = true;
+      }
+    }
+    if (linear) model.setValues(s.allUpdates);
+  }
+
+  private build(s: SlotState, d: Design): boolean {
+    let model: SlotModel;
+    try {
+      model = this.createModel(d, this.sampleRateHz, this.factorNow);
+    } catch (e) {
+      this.error(`slot ${s.name}: could not compile "${d.name}": ${errMsg(e)}`);
+      return false;
+    }
+    s.model = model;
+    s.design = d;
+    s.dc = model.outputDcVolts;
+    s.faultReported = false;
+    s.glides = [];
+    s.glideById = new Map();
+    s.allUpdates = [];
+    s.lastStepClock = -Infinity;
+    for (const p of d.parts) {
+      if (p.kind !== 'resistor' && p.kind !== 'capacitor' && p.kind !== 'pot' && p.kind !== 'tube') continue;
+      const updates: MutableUpdate[] = p.kind === 'tube' ? [] : partValueUpdates(p).map((u) => ({ id: u.id, value: u.value }));
+      const value = p.kind === 'resistor' ? p.ohms : p.kind === 'capacitor' ? p.farads : p.kind === 'pot' ? p.position : p.sample;
+      const g: Glide = {
+        partId: p.id, kind: p.kind, from: value, to: value, value, fromOhms: p.kind === 'pot' ? p.ohms : 0, toOhms: p.kind === 'pot' ? p.ohms : 0,
+        start: 0, total: 0, active: false, updates, pot: p.kind === 'pot' ? { ...p } : null,
+      };
+      s.glides.push(g);
+      s.glideById.set(p.id, g);
+      s.allUpdates.push(...updates);
+    }
+    const tubes = tubesOf(d);
+    s.tubeIds = tubes.map((t) => t.id);
+    s.plateVolts = tubes.map(() => 0);
+    this.post({ type: 'loaded', slot: s.name, designName: d.name, factor: this.factorNow, latencySamples: model.latencySamples, tubeIds: s.tubeIds.slice() });
+    return true;
+  }
+
+  private clear(s: SlotState): void {
+    s.model = null;
+    s.design = null;
+    s.glides = [];
+    s.glideById = new Map();
+    s.allUpdates = [];
+    s.tubeIds = [];
+    s.plateVolts = [];
+    s.pendingClear = false;
+  }
+
+  private rebuildAll(f: OversamplingFactor): void {
+    this.factorNow = f;
+    this.dryDelay = this.latencyFor(f);
+    this.dryRing.fill(0);
+    for (const s of this.slots) {
+      const d = s.pending ?? s.design;
+      s.pending = null;
+      if (d) this.build(s, d);
+    }
+  }
+
+  private resetAll(): void {
+    for (const s of this.slots) this.recover(s);
+    this.limiter.reset();
+  }
+
+  /** Back to the operating point; false (and the slot emptied) if that fails. */
+  private recover(s: SlotState): boolean {
+    if (!s.model) return true;
+    try {
+      s.model.reset();
+      s.dc = s.model.outputDcVolts;
+      for (const g of s.glides) { g.active = false; g.from = g.to = g.value; }
+      return true;
+    } catch (e) {
+      this.error(`slot ${s.name}: operating point lost (${errMsg(e)}); the slot was emptied`);
+      this.clear(s);
+      return false;
+    }
+  }
+
+  private audible(s: SlotState): boolean {
+    const g = s.name === 'A' ? this.gA : this.gB;
+    return g.value > 0 || g.target > 0;
+  }
+
+  /** Block-boundary work: pending loads, quality changes, resets. */
+  private boundary(): void {
+    const gf = this.globalFade;
+    if (this.pendingFactor !== null || this.pendingReset) {
+      if (gf.value === 0 && !gf.moving) {
+        if (this.pendingFactor !== null) this.rebuildAll(this.pendingFactor);
+        if (this.pendingReset) this.resetAll();
+        this.pendingFactor = null;
+        this.pendingReset = false;
+        gf.to(1, this.xfadeSamples);
+      } else if (gf.target !== 0) gf.to(0, this.xfadeSamples);
+    }
+    for (const s of this.slots) {
+      if (s.pending || s.pendingClear) {
+        if (s.fade.target !== 0) s.fade.to(0, this.audible(s) && s.model ? this.xfadeSamples : 0);
+        if (s.fade.value === 0 && !s.fade.moving) {
+          if (s.pendingClear) this.clear(s);
+          else if (s.pending) { const d = s.pending; s.pending = null; this.build(s, d); }
+          s.fade.to(1, this.audible(s) ? this.xfadeSamples : 0);
+        }
+      }
+    }
+  }
+
+  /**
+   * Process n samples: input full-scale samples (mono; null = silence) to output samples.
+   * Never writes NaN/Inf. Gliding part values step every SMOOTHING_STEP_SAMPLES within the block.
+   */
+  process(input: ArrayLike<number> | null, output: { [k: number]: number; length: number }, n: number): void {
+    const t0 = this.nowMs();
+    this.boundary();
+    const A = this.slots[0], B = this.slots[1];
+    this.faultA = false;
+    this.faultB = false;
+    for (let off = 0; off < n; off += SMOOTHING_STEP_SAMPLES) {
+      const len = Math.min(SMOOTHING_STEP_SAMPLES, n - off);
+      this.stepGlides(A, len, false);
+      this.stepGlides(B, len, false);
+      this.segment(input, output, off, len);
+      this.clock += len;
+    }
+    if (A.model) this.checkFault(A, this.faultA, output, n);
+    if (B.model) this.checkFault(B, this.faultB, output, n);
+    this.busyMs += this.nowMs() - t0;
+    this.budgetMs += (n / this.sampleRateHz) * 1000;
+    this.sinceMeter += n;
+    if (this.sinceMeter >= this.meterInterval) this.sendMeter();
+  }
+
+  private faultA = false;
+  private faultB = false;
+
+  private segment(input: ArrayLike<number> | null, output: { [k: number]: number }, off: number, len: number): void {
+    const A = this.slots[0], B = this.slots[1];
+    const mA = A.model, mB = B.model;
+    const dcA = A.dc, dcB = B.dc;
+    const ring = this.dryRing, mask = DRY_DELAY_CAPACITY - 1, delay = this.dryDelay;
+    const limit = this.limiterOn, lim = this.limiter;
+    let pos = this.dryPos, inPeak = this.inPeak, outPeak = this.outPeak;
+    let faultA = false, faultB = false;
+    for (let k = off, end = off + len; k < end; k++) {
+      let x = input ? input[k]! : 0;
+      if (!(x > -INPUT_LIMIT && x < INPUT_LIMIT)) x = 0;
+      const vin = x * this.inCal.next();
+      const av = vin < 0 ? -vin : vin;
+      if (av > inPeak) inPeak = av;
+      ring[pos] = x;
+      const dry = ring[(pos - delay) & mask]!;
+      pos = (pos + 1) & mask;
+      let yA = 0, yB = 0;
+      if (mA) {
+        yA = (mA.processSample(vin) - dcA) * A.outScale.next() * A.fade.next();
+        if (!(yA > -FINITE_LIMIT && yA < FINITE_LIMIT)) { faultA = true; yA = 0; }
+      }
+      if (mB) {
+        yB = (mB.processSample(vin) - dcB) * B.outScale.next() * B.fade.next();
+        if (!(yB > -FINITE_LIMIT && yB < FINITE_LIMIT)) { faultB = true; yB = 0; }
+      }
+      let y = (this.gA.next() * yA + this.gB.next() * yB + this.gDry.next() * dry) * this.master.next() * this.mute.next() * this.globalFade.next();
+      if (limit) y = lim.process(y);
+      const ay = y < 0 ? -y : y;
+      if (ay > outPeak) outPeak = ay;
+      output[k] = y;
+    }
+    this.dryPos = pos;
+    this.inPeak = inPeak;
+    this.outPeak = outPeak;
+    if (faultA) this.faultA = true;
+    if (faultB) this.faultB = true;
+  }
+
+  private checkFault(s: SlotState, fault: boolean, output: { [k: number]: number }, n: number): void {
+    const m = s.model;
+    if (!m) return;
+    let bad = fault;
+    const pv = m.probeValues;
+    for (let i = 0; i < pv.length; i++) if (!Number.isFinite(pv[i]!)) bad = true;
+    if (!bad) { s.faultReported = false; return; }
+    for (let k = 0; k < n; k++) output[k] = 0;
+    this.outPeak = 0;
+    const wasReported = s.faultReported;
+    if (this.recover(s)) {
+      s.fade.jump(0);
+      s.fade.to(1, this.xfadeSamples);
+      s.faultReported = true;
+    }
+    if (!wasReported) this.post({ type: 'recovered', slot: s.name, reason: fault ? 'non-finite output' : 'non-finite node voltage' });
+  }
+
+  private sendMeter(): void {
+    const r = this.report;
+    const traced = this.monitorTarget === 'B' || (this.monitorTarget === 'dry' && !this.slots[0].model) ? this.slots[1] : this.slots[0];
+    r.inputPeakVolts = this.inPeak;
+    r.outputPeakDbfs = this.outPeak > 0 ? Math.max(SILENT_DBFS, 20 * Math.log10(this.outPeak)) : SILENT_DBFS;
+    r.loadFraction = this.budgetMs > 0 ? this.busyMs / this.budgetMs : 0;
+    r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
+    r.limiterOn = this.limiterOn;
+    const m = traced.model;
+    if (m) {
+      const pv = m.probeValues;
+      r.gridVolts = pv[0] ?? 0;
+      const pl = traced.plateVolts;
+      for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
+      r.plateVolts = pl;
+      r.traceSlot = traced.name;
+    } else {
+      r.gridVolts = 0;
+      r.plateVolts = this.noPlates;
+      r.traceSlot = null;
+    }
+    this.post(r);
+    this.sinceMeter = Math.min(this.sinceMeter - this.meterInterval, this.meterInterval);
+    this.inPeak = 0;
+    this.outPeak = 0;
+    this.busyMs = 0;
+    this.budgetMs = 0;
+    this.limiter.minGain = 1;
+  }
+}

@@ -1,0 +1,66 @@
+// Test-only page module: puts entry points on window for tests/browser/*.test.ts and
+// bench/worklet.browser.bench.ts (driven by playwright-core).
+import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
+import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
+import { createAudioEngine, renderGraphOffline, monoBuffer } from '../../src/audio/index.ts';
+import type { Design } from '../../src/dsp/circuit/design.ts';
+
+/** The worklet alone in an OfflineAudioContext: input samples in, output channel out, and the render time. */
+async function renderWorklet(init: ProcessorInit, input: number[], rateHz: number): Promise<{ output: number[]; renderMs: number; messages: FromProcessor[] }> {
+  const ctx = new OfflineAudioContext(1, input.length, rateHz);
+  await ctx.audioWorklet.addModule(workletUrl);
+  const node = new AudioWorkletNode(ctx, PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: init });
+  const messages: FromProcessor[] = [];
+  node.port.onmessage = (e: MessageEvent<FromProcessor>) => messages.push(e.data);
+  const buf = new AudioBuffer({ length: input.length, sampleRate: rateHz, numberOfChannels: 1 });
+  buf.copyToChannel(Float32Array.from(input), 0);
+  const src = new AudioBufferSourceNode(ctx, { buffer: buf });
+  src.connect(node).connect(ctx.destination);
+  src.start(0);
+  const t0 = performance.now();
+  const out = await ctx.startRendering();
+  const renderMs = performance.now() - t0;
+  await new Promise((r) => setTimeout(r, 50));
+  return { output: Array.from(out.getChannelData(0)), renderMs, messages };
+}
+
+/** The whole Tone.js graph offline, with a cabinet response given as samples. */
+async function renderGraph(init: ProcessorInit, input: number[], rateHz: number, ir: number[] | null): Promise<number[]> {
+  const cabinet = ir ? await monoBuffer(Float32Array.from(ir), rateHz, rateHz) : null;
+  const out = await renderGraphOffline(init, Float32Array.from(input), { sampleRateHz: rateHz, cabinet });
+  return Array.from(out.getChannelData(0));
+}
+
+/** Live input through the real-time graph for `seconds`; returns meter reports and the spectrum peak. */
+async function liveRun(design: Design, seconds: number): Promise<{ reports: FromProcessor[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string }> {
+  const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
+  const reports: FromProcessor[] = [];
+  audio.onReport((m) => reports.push(structuredClone(m)));
+  await audio.loadDesign('A', design);
+  await audio.startLive();
+  const liveBefore = audio.live;
+  audio.setLiveMuted(false);
+  await new Promise((r) => setTimeout(r, seconds * 1000));
+  const spec = new Float32Array(audio.context.sampleRate > 0 ? 2048 : 0);
+  const s = audio.spectrum(spec);
+  let best = 0;
+  for (let k = 1; k < spec.length; k++) if (spec[k]! > spec[best]!) best = k;
+  const liveAfter = audio.live;
+  const sampleRateHz = audio.sampleRateHz;
+  await audio.dispose();
+  return { reports, peakHz: best * s.binHertz, peakDb: spec[best] ?? -Infinity, sampleRateHz, liveBefore, liveAfter };
+}
+
+/** Denied microphone: the error and whether the graph still works afterwards. */
+async function liveDenied(): Promise<{ error: string; name: string; stillPlays: boolean }> {
+  const audio = await createAudioEngine();
+  let error = '', name = '';
+  try { await audio.startLive(); } catch (e) { error = (e as Error).message; name = (e as Error).name; }
+  audio.setSource(new Float32Array(4800).fill(0.1), 48000);
+  let stillPlays = true;
+  try { await audio.play(); audio.stop(); } catch { stillPlays = false; }
+  await audio.dispose();
+  return { error, name, stillPlays };
+}
+
+Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, ready: true } });
