@@ -19,7 +19,7 @@ import { Schematic } from './Schematic.tsx';
 import { PartEditor, ValueField } from './PartEditor.tsx';
 import { OperatingPanel } from './OperatingPanel.tsx';
 import { ResponsePlot, ScopePlot, SpectrumPlot } from './Plots.tsx';
-import { Meters, Waveform, type DemoClip } from './Listen.tsx';
+import { ClientPack, Meters, Waveform, type DemoClip } from './Listen.tsx';
 import { CautionDialog } from './Cautions.tsx';
 
 const IMPULSES = import.meta.glob('/impulses/*.wav', { query: '?url', import: 'default', eager: true }) as Record<string, string>;
@@ -279,6 +279,7 @@ export function App(): ReactElement {
             </label>
             <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''})</span>
           </div>
+          <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} factor={quality} />
           <div className="row live">
             {status?.live === 'off' || !status ? (
               <button type="button" onClick={() => setCaution('live')}>Live input…</button>

@@ -1,6 +1,9 @@
 // Hearing the design: source, transport with waveform and loop, input staging and meters.
 import { useEffect, useRef, useState, type ReactElement } from 'react';
-import type { AudioPort, LoopRegion } from './audio-port.ts';
+import type { AudioPort, LoopRegion, SourceClip } from './audio-port.ts';
+import type { Design } from '../dsp/circuit/design.ts';
+import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import type { PackReply, PackRequest } from './pack-protocol.ts';
 import { dbfsFraction, formatDbfs, formatVolts, voltsFraction } from './model/meters.ts';
 
 export interface DemoClip { readonly name: string; readonly title: string; readonly file: string; readonly description: string; readonly voltsAtFullScale: number; readonly durationSeconds: number }
@@ -74,6 +77,58 @@ export function Meters({ port }: { port: AudioPort }): ReactElement {
     <div className="meters">
       <div className="meter"><span className="meter-label">Circuit input</span><span className="meter-track"><span ref={inBar} className="meter-fill" /></span><span ref={inText} className="meter-num" aria-live="off">—</span><span className="meter-scale">1 mV … 3 V</span></div>
       <div className="meter"><span className="meter-label">Output</span><span className="meter-track"><span ref={outBar} className="meter-fill out" /></span><span ref={outText} className="meter-num" aria-live="off">—</span><span className="meter-scale">−60 … 0 dBFS</span></div>
+    </div>
+  );
+}
+
+/** Renders the loop region (or the whole clip) for A, B and dry in a worker and downloads the pack. */
+export function ClientPack({ clip, loop, designA, designB, voltsAtFullScale, factor }: { clip: SourceClip | null; loop: LoopRegion | null; designA: Design; designB: Design; voltsAtFullScale: number; factor: OversamplingFactor }): ReactElement {
+  const [state, setState] = useState<{ kind: 'idle' } | { kind: 'busy'; fraction: number; stage: string } | { kind: 'done'; text: string } | { kind: 'failed'; text: string }>({ kind: 'idle' });
+  const worker = useRef<Worker | null>(null);
+  const nextId = useRef(0);
+  useEffect(() => () => worker.current?.terminate(), []);
+  const start = () => {
+    if (!clip) { setState({ kind: 'failed', text: 'No clip loaded: choose a demo clip or open an audio file first.' }); return; }
+    const fs = clip.sampleRateHz;
+    const from = loop ? Math.max(0, Math.floor(loop.startSeconds * fs)) : 0;
+    const to = loop ? Math.min(clip.samples.length, Math.ceil(loop.endSeconds * fs)) : clip.samples.length;
+    if (to - from < 1) { setState({ kind: 'failed', text: 'The loop region is empty: drag a longer region or clear the loop.' }); return; }
+    const input = clip.samples.slice(from, to);
+    const regionLabel = loop ? `loop ${(from / fs).toFixed(3)}–${(to / fs).toFixed(3)} s` : 'whole clip';
+    worker.current?.terminate();
+    const w = new Worker(new URL('./pack.worker.ts', import.meta.url), { type: 'module' });
+    worker.current = w;
+    const id = ++nextId.current;
+    const finish = () => { w.terminate(); if (worker.current === w) worker.current = null; };
+    w.onmessage = (ev: MessageEvent<PackReply>) => {
+      const m = ev.data;
+      if (m.id !== id) return;
+      if (m.type === 'progress') setState({ kind: 'busy', fraction: m.fraction, stage: m.stage });
+      else if (m.type === 'failed') { finish(); setState({ kind: 'failed', text: `Could not render the pack: ${m.reason}` }); }
+      else {
+        finish();
+        const a = document.createElement('a');
+        a.href = URL.createObjectURL(new Blob([m.zip as Uint8Array<ArrayBuffer>], { type: 'application/zip' }));
+        a.download = m.fileName; a.click();
+        setTimeout(() => URL.revokeObjectURL(a.href), 1000);
+        setState({ kind: 'done', text: `Downloaded ${m.fileName} (${(m.zip.length / 1048576).toFixed(1)} MB): A/B and dry/B pairs, loudness-matched, with sheets.` });
+      }
+    };
+    w.onerror = (ev) => { finish(); setState({ kind: 'failed', text: `Could not render the pack: ${ev.message || 'the render worker failed to start'}` }); };
+    setState({ kind: 'busy', fraction: 0, stage: 'starting' });
+    const req: PackRequest = { type: 'pack', id, designA, designB, input, sampleRateHz: fs, inputVoltsAtFullScale: voltsAtFullScale, factor, clipName: clip.name, regionLabel };
+    w.postMessage(req, [input.buffer]);
+  };
+  const cancel = () => { worker.current?.terminate(); worker.current = null; setState({ kind: 'idle' }); };
+  const busy = state.kind === 'busy';
+  return (
+    <div className="row pack" role="group" aria-label="Client pack">
+      <button type="button" onClick={start} disabled={busy} data-testid="render-pack" aria-describedby="pack-status">Render client pack</button>
+      {busy && <button type="button" onClick={cancel}>Cancel</button>}
+      {busy && <progress max={1} value={state.fraction} aria-label="Client pack progress" data-testid="pack-progress" />}
+      <span id="pack-status" className={`fine${state.kind === 'failed' ? ' warn' : ''}`} role={state.kind === 'failed' ? 'alert' : 'status'} data-testid="pack-status">
+        {busy ? `${state.stage}… ${Math.round(state.fraction * 100)} %` : state.kind === 'idle' ? `${loop ? 'loop region' : 'whole clip'} through A, B and dry, matched loudness, as one .zip` : state.text}
+      </span>
     </div>
   );
 }
