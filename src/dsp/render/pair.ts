@@ -8,7 +8,7 @@
 
 import { measureLoudness, type LoudnessReport } from '../analysis/loudness.ts';
 import type { Design } from '../circuit/design.ts';
-import type { EngineCircuit, OperatingPoint } from '../circuit/engine.ts';
+import type { EngineCircuit, OperatingPoint, TubeOperatingPoint } from '../circuit/engine.ts';
 import type { Netlist } from '../circuit/netlist.ts';
 import { formatValue } from '../parts/values.ts';
 import { ratingsSheet, type RatingsSheet } from '../analysis/ratings-sheet.ts';
@@ -371,18 +371,8 @@ export function partBuyEntries(sheet: RatingsSheet): PartBuyEntry[] {
   ];
 }
 
-export interface TubeOpEntry {
-  readonly kind: 'triode' | 'pentode';
-  readonly plateAmps: number;
-  readonly plateWatts: number;
-  readonly gridAmps: number;
-  readonly screenAmps: number;
-  readonly screenWatts: number;
-  readonly cathodeAmps: number;
-  readonly vgk: number;
-  readonly vpk: number;
-  readonly vsk: number;
-}
+/** One tube's operating point as the sheet records it (the engine's own record). */
+export type TubeOpEntry = TubeOperatingPoint;
 
 export interface DesignSheetEntry {
   readonly name: string;
