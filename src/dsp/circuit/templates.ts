@@ -23,18 +23,28 @@ const supplyParts: Part[] = [
   { id: 'C1', kind: 'capacitor', nodes: ['b1', '0'], farads: 22 * u, tolerance: 0.2, polarized: true, label: 'decoupling capacitor' },
 ];
 
+/** Guitar input, output load and a 300 V supply shared by the two-stage templates. */
+const twoStageShell = {
+  input: { node: 'in', ohms: 10 * k },
+  output: { node: 'out', loadOhms: 1 * M },
+  supply: { node: 'bp', volts: 300, ohms: 1 * k, filterFarads: 47 * u },
+} as const;
+
+/** Input coupling into a grid-leak-biased first grid (g1). */
+const gridLeakInput: Part[] = [
+  { id: 'C2', kind: 'capacitor', nodes: ['in', 'g1'], farads: 10 * n, tolerance: 0.1, label: 'input coupling' },
+  { id: 'R2', kind: 'resistor', nodes: ['g1', '0'], ohms: 4.7 * M, tolerance: 0.05, label: 'grid leak' },
+];
+
 /** (1) Pentode first stage, grounded cathode, grid-leak bias, direct-coupled into a triode. */
 export const PENTODE_INTO_TRIODE: Design = {
   schema: DESIGN_SCHEMA,
   name: 'Hearthstone (pentode front)',
   description: 'Starved EF86 with grid-leak bias, direct-coupled into a 12AX7 with a bypassed cathode, treble cut and volume.',
-  input: { node: 'in', ohms: 10 * k },
-  output: { node: 'out', loadOhms: 1 * M },
-  supply: { node: 'bp', volts: 300, ohms: 1 * k, filterFarads: 47 * u },
+  ...twoStageShell,
   parts: [
     ...supplyParts,
-    { id: 'C2', kind: 'capacitor', nodes: ['in', 'g1'], farads: 10 * n, tolerance: 0.1, label: 'input coupling' },
-    { id: 'R2', kind: 'resistor', nodes: ['g1', '0'], ohms: 4.7 * M, tolerance: 0.05, label: 'grid leak' },
+    ...gridLeakInput,
     { id: 'V1', kind: 'tube', type: 'EF86', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: '0', screen: 's1' }, heaterVolts: 0, label: 'first stage' },
     { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 470 * k, tolerance: 0.05, label: 'V1 plate load' },
     { id: 'R4', kind: 'resistor', nodes: ['b1', 's1'], ohms: 2.2 * M, tolerance: 0.05, label: 'V1 screen feed' },
@@ -48,13 +58,10 @@ export const TRIODE_INTO_TRIODE: Design = {
   schema: DESIGN_SCHEMA,
   name: 'Hearthstone (triode front)',
   description: 'Grid-leak-biased 12AX7 direct-coupled into a second 12AX7 with a bypassed cathode, treble cut and volume.',
-  input: { node: 'in', ohms: 10 * k },
-  output: { node: 'out', loadOhms: 1 * M },
-  supply: { node: 'bp', volts: 300, ohms: 1 * k, filterFarads: 47 * u },
+  ...twoStageShell,
   parts: [
     ...supplyParts,
-    { id: 'C2', kind: 'capacitor', nodes: ['in', 'g1'], farads: 10 * n, tolerance: 0.1, label: 'input coupling' },
-    { id: 'R2', kind: 'resistor', nodes: ['g1', '0'], ohms: 4.7 * M, tolerance: 0.05, label: 'grid leak' },
+    ...gridLeakInput,
     { id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: '0' }, heaterVolts: 0, label: 'first stage' },
     { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 220 * k, tolerance: 0.05, label: 'V1 plate load' },
     ...secondStageAndTone('p1', 150 * k, 100 * k),
