@@ -5,7 +5,7 @@ import { TEMPLATES } from '../dsp/circuit/templates.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
-import { probeNodes } from './audio-local.ts';
+import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
 import type { AudioStatus, LoopRegion, SourceClip } from './audio-port.ts';
 import { canRedo, canUndo, pushHistory, redo, startHistory, undo, type History } from './model/history.ts';

@@ -1,5 +1,5 @@
 // What the workspace needs from an audio back end. The workspace talks only to this
-// interface; audio-local.ts implements it with a render worker and Web Audio buffers.
+// interface; audio-engine-port.ts implements it over the real-time engine in src/audio.
 import type { Design } from '../dsp/circuit/design.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
