@@ -91,7 +91,7 @@ describe('render', () => {
     r = await run('render', '--design', 'no-such-thing', '--input', inPath, '--output', join(dir, 'x.wav'));
     expect(r.err).toMatch(/unknown template "no-such-thing"/);
     r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', join(dir, 'x.wav'), '--oversample', '3');
-    expect(r.err).toMatch(/--oversample: must be 1, 2, 4, 8, 16 or 32/);
+    expect(r.err).toMatch(/--oversample: must be 1, 2, 4, 8, 16, 32, 64 or 128/);
   });
 });
 

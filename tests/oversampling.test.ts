@@ -41,7 +41,7 @@ function project(y: Float64Array, start: number, length: number, bin: number): P
 
 const dB = (x: number): number => 20 * Math.log10(x);
 const QUALITIES: readonly OversamplingQuality[] = ['live', 'offline'];
-const FACTORS: readonly OversamplingFactor[] = [2, 4, 8, 16, 32];
+const FACTORS: readonly OversamplingFactor[] = [2, 4, 8, 16, 32, 64, 128];
 const SKIP = 1024; // base samples dropped before analysis (longest transient: 32x FIR, ~50)
 const N = 2048; // analysis record, base samples
 
@@ -350,7 +350,7 @@ describe('1x and bad input', () => {
   });
 
   it('rejects bad factors and qualities with a one-line message', () => {
-    expect(() => new Oversampler(3 as OversamplingFactor)).toThrow(/^Oversampler: factor must be 1, 2, 4, 8, 16 or 32, got 3$/);
+    expect(() => new Oversampler(3 as OversamplingFactor)).toThrow(/^Oversampler: factor must be 1, 2, 4, 8, 16, 32, 64 or 128, got 3$/);
     expect(() => new Oversampler(4, { quality: 'best' as OversamplingQuality })).toThrow(/quality must be 'live' or 'offline'/);
   });
 

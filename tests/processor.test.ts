@@ -5,7 +5,7 @@ import { installShim, makeProcessor } from './helpers/worklet-shim.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { designCircuit, withPart, type Design, type Part, type PotPart, type ResistorPart } from '../src/dsp/circuit/design.ts';
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
-import { Oversampler } from '../src/dsp/oversampling/oversampler.ts';
+import { Oversampler, type OversamplingFactor } from '../src/dsp/oversampling/oversampler.ts';
 import { circuitModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, MeterReport, ToProcessor } from '../src/dsp/realtime/messages.ts';
 
@@ -201,7 +201,7 @@ describe('robustness', () => {
 
   it('catches a non-finite state: restores the operating point, reports once, silences that block', () => {
     let poison = -1;
-    const factory = (d: Design, fs: number, f: 1 | 2 | 4 | 8 | 16 | 32): SlotModel => {
+    const factory = (d: Design, fs: number, f: OversamplingFactor): SlotModel => {
       const inner = circuitModel(d, fs, f);
       const bad = new Float64Array(inner.probeValues.length).fill(Number.NaN);
       let n = 0;

@@ -2,6 +2,7 @@
 //   [--oversample N] [--input-volts V] [--raw] [--hum 50|60]
 import { resolve } from 'node:path';
 import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
+import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
 import { CircuitEngine } from '../../dsp/circuit/engine.ts';
 import { CliError, loadCircuitArg, optNumber, optString, parseArgs } from '../args.ts';
@@ -10,7 +11,7 @@ import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
 import type { CommandIO } from '../main.ts';
 import { humForRender } from '../hum.ts';
 
-export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32] [--input-volts V] [--raw] [--hum 50|60]';
+export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--raw] [--hum 50|60]';
 const BLOCK = 8192;
 export const DEFAULT_RENDER_OVERSAMPLE = 8;
 
@@ -21,7 +22,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (!inPath || !outPath) throw new CliError(`missing --input or --output (${RENDER_USAGE})`);
   if (resolve(inPath) === resolve(outPath)) throw new CliError('--output is the same file as --input: refusing to overwrite the source');
   const raw = a.options.has('raw');
-  const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16 or 32'));
+  const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128'));
   if (raw && a.options.has('oversample')) throw new CliError('--raw renders the plain circuit at the file\'s rate: drop --oversample');
   const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   if (raw && a.options.has('input-volts')) throw new CliError('--raw reads input samples as volts: drop --input-volts');
@@ -34,7 +35,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (h.frameCount === 0) { await reader.close(); throw new CliError(`${inPath} has no audio frames`); }
   if (h.channelCount > 1) io.err(`note: ${inPath} has ${h.channelCount} channels; mixing to mono`);
   const fs = h.sampleRate;
-  const factorT = factor as 1 | 2 | 4 | 8 | 16 | 32;
+  const factorT = factor as OversamplingFactor;
   const model = raw ? new CircuitEngine(loaded.circuit, fs) : new OversampledCircuit(loaded.circuit, fs, factorT);
   const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(loaded.circuit, fs, inputVolts);
   const limiter = new PeakLimiter(fs, -1);

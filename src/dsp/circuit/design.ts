@@ -1,7 +1,7 @@
 // A design is data: parts with values, a B+ supply, tubes from the library, the guitar input and
 // the output load. It compiles to the engine's circuit and to the netlist interchange form.
 import { tubeType, type TubeType } from '../tubes/library.ts';
-import type { EngineCircuit, EngineElement } from './engine.ts';
+import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
 import type { RectifierSpec, SecondarySpec } from '../analysis/supply.ts';
@@ -24,6 +24,12 @@ export interface TubePart {
   readonly nodes: { readonly plate: string; readonly grid: string; readonly cathode: string; readonly screen?: string };
   /** DC voltage of the heater winding relative to ground (heater elevation), volts. */
   readonly heaterVolts?: number;
+  /**
+   * Whether the model includes the tube's interelectrode capacitances (library.ts, data sheet),
+   * as capacitors `<id>.Cgp`, `<id>.Cgk`, `<id>.Cpk`. Default true: they set the Miller
+   * roll-off and the rise time of a clipping stage. false leaves them out.
+   */
+  readonly interelectrode?: boolean;
   readonly label?: string;
 }
 export type Part = ResistorPart | CapacitorPart | PotPart | SwitchPart | TubePart;
@@ -151,6 +157,7 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
         if (!(p.sample > 0.2 && p.sample < 5)) throw new DesignError(`${where}: sample factor must be between 0.2 and 5`);
         if (t.kind === 'pentode' && !p.nodes.screen) throw new DesignError(`${where}: a ${t.name} pentode needs a screen node`);
         if (t.kind === 'triode' && p.nodes.screen) throw new DesignError(`${where}: a ${t.name} triode has no screen`);
+        if (p.interelectrode !== undefined && typeof p.interelectrode !== 'boolean') throw new DesignError(`${where}: "interelectrode" must be true or false`);
         break;
       }
       default: throw new DesignError(`${where}: unknown kind ${JSON.stringify((p as { kind: unknown }).kind)}`);
@@ -197,6 +204,24 @@ function tubeElement(p: TubePart): NetTube {
   };
 }
 
+/** Suffixes of the capacitors that stand for a tube's interelectrode capacitances. */
+export const INTERELECTRODE_SUFFIXES = ['.Cgp', '.Cgk', '.Cpk'] as const;
+
+/**
+ * The tube's interelectrode capacitances as capacitor elements (none where two electrodes share a
+ * node), integrated by BDF2 in the engine because they are stiff (see CapacitorIntegration).
+ */
+export function interelectrodeCapacitors(p: TubePart): EngineCapacitor[] {
+  if (p.interelectrode === false) return [];
+  const c = tubeType(p.type).capacitance, n = p.nodes, integration = 'bdf2' as const;
+  const all: EngineCapacitor[] = [
+    { id: p.id + INTERELECTRODE_SUFFIXES[0], kind: 'capacitor', nodes: [n.grid, n.plate], farads: c.gridPlateFarads, integration },
+    { id: p.id + INTERELECTRODE_SUFFIXES[1], kind: 'capacitor', nodes: [n.grid, n.cathode], farads: c.gridCathodeFarads, integration },
+    { id: p.id + INTERELECTRODE_SUFFIXES[2], kind: 'capacitor', nodes: [n.plate, n.cathode], farads: c.plateCathodeFarads, integration },
+  ];
+  return all.filter((e) => e.nodes[0] !== e.nodes[1] && e.farads > 0);
+}
+
 function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
   const out: EngineElement[] = [
     { id: SUPPLY_ID, kind: 'dc-source', nodes: [d.supply.node, GROUND], volts: d.supply.volts, ohms: d.supply.ohms },
@@ -219,7 +244,7 @@ function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
         else if (p.closed) out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: contactOhms });
         break;
       }
-      case 'tube': out.push(tubeElement(p)); break;
+      case 'tube': out.push(tubeElement(p), ...interelectrodeCapacitors(p)); break;
     }
   }
   return out;
@@ -234,7 +259,8 @@ export function designCircuit(d: Design): EngineCircuit {
 export function designToNetlist(d: Design): Netlist {
   return {
     schema: NETLIST_SCHEMA, ground: GROUND, input: { node: d.input.node, ohms: d.input.ohms }, output: { node: d.output.node },
-    elements: elementsOf(d, 'omit') as NetElement[],
+    // the interchange form has no integration field (netlist-v1): drop it
+    elements: elementsOf(d, 'omit').map((e) => (e.kind === 'capacitor' ? { id: e.id, kind: e.kind, nodes: e.nodes, farads: e.farads } : e)) as NetElement[],
   };
 }
 

@@ -6,7 +6,7 @@
 import { compileLinearNetwork, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
-import type { NetElement, NetTube, Netlist } from './netlist.ts';
+import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
 
 /** A switch is an engine element (a netlist writes it as a resistor, or leaves it out when open). */
 export interface EngineSwitch {
@@ -16,7 +16,22 @@ export interface EngineSwitch {
   readonly closed: boolean;
   readonly contactOhms: number;
 }
-export type EngineElement = NetElement | EngineSwitch;
+/**
+ * How a capacitor is discretised. 'trapezoidal' (default, the bilinear transform of the WDF
+ * literature: no damping, frequency-warped but exact in shape) suits every capacitor whose time
+ * constant in the circuit is long against the sample period. A picofarad capacitance on a
+ * node of tens of kilohms is stiff (tau ~ 0.1-10 us against 21 us at 48 kHz): the trapezoidal
+ * rule maps such a mode to z ~ -1 and it rings at Nyquist, with overshoots beyond B+ next to
+ * a clipping tube (measured: 305 V on a 241 V plate at 1x). 'bdf2' (second-order backward
+ * differentiation, i_n = C (3 v_n - 4 v_{n-1} + v_{n-2}) / (2T); Hairer & Wanner, "Solving
+ * Ordinary Differential Equations II", ch. V.1, from memory) is second-order accurate and
+ * L-stable: stiff modes decay at once. Designs use it for tube interelectrode capacitances.
+ */
+export type CapacitorIntegration = 'trapezoidal' | 'bdf2';
+export interface EngineCapacitor extends NetCapacitor {
+  readonly integration?: CapacitorIntegration;
+}
+export type EngineElement = Exclude<NetElement, NetCapacitor> | EngineCapacitor | EngineSwitch;
 export interface EngineCircuit extends Omit<Netlist, 'elements' | 'schema'> {
   readonly elements: readonly EngineElement[];
 }
@@ -75,7 +90,7 @@ export class CircuitEngine {
   private elements: Map<string, EngineElement>;
   private readonly circuit: EngineCircuit;
   private readonly nodeIndex: Map<string, number>;
-  private readonly caps: { id: string; branch: Branch; farads: number }[] = [];
+  private readonly caps: { id: string; branch: Branch; farads: number; bdf2: boolean }[] = [];
   private readonly sources: { id: string; branch: Branch; ohms: number; volts: number }[] = [];
   private readonly tubes: TubeSlot[] = [];
   private readonly nlPorts: Branch[] = [];
@@ -90,6 +105,10 @@ export class CircuitEngine {
   private readonly capV: Float64Array;
   private readonly capI: Float64Array;
   private readonly capR: Float64Array;
+  private readonly capVPrev: Float64Array;
+  private readonly wA: Float64Array;
+  private readonly wB: Float64Array;
+  private readonly wC: Float64Array;
   private readonly u: Float64Array;
   private readonly p: Float64Array;
   private readonly invCapR: Float64Array;
@@ -130,7 +149,7 @@ export class CircuitEngine {
       return i;
     };
     for (const e of circuit.elements) {
-      if (e.kind === 'capacitor') this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, farads: e.farads });
+      if (e.kind === 'capacitor') this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, farads: e.farads, bdf2: 'integration' in e && e.integration === 'bdf2' });
     }
     this.inputLeaf = this.caps.length;
     this.sources.push({ id: '<input>', branch: { a: idx(circuit.input.node), b: -1 }, ohms: circuit.input.ohms, volts: 0 });
@@ -156,6 +175,11 @@ export class CircuitEngine {
     this.capV = new Float64Array(this.caps.length);
     this.capI = new Float64Array(this.caps.length);
     this.capR = new Float64Array(this.caps.length);
+    this.capVPrev = new Float64Array(this.caps.length);
+    // history source w = wA v[n-1] + wB v[n-2] + wC R i[n-1]: trapezoidal (1, 0, 1), BDF2 (4/3, -1/3, 0)
+    this.wA = Float64Array.from(this.caps, (c) => (c.bdf2 ? 4 / 3 : 1));
+    this.wB = Float64Array.from(this.caps, (c) => (c.bdf2 ? -1 / 3 : 0));
+    this.wC = Float64Array.from(this.caps, (c) => (c.bdf2 ? 0 : 1));
     this.u = new Float64Array(nu);
     const m = this.nlPorts.length, nx = this.caps.length + 1 + m;
     this.p = new Float64Array(m);
@@ -203,7 +227,8 @@ export class CircuitEngine {
     }
     const T = 1 / this.sampleRateHz;
     const wavePorts = [
-      ...(transient ? this.caps.map((c, j) => ({ ...c.branch, ohms: (this.capR[j] = T / (2 * c.farads)) })) : []),
+      // port resistance T/(2C) (trapezoidal) or 2T/(3C) (BDF2)
+      ...(transient ? this.caps.map((c, j) => ({ ...c.branch, ohms: (this.capR[j] = (c.bdf2 ? (2 * T) / (3 * c.farads) : T / (2 * c.farads))) })) : []),
       ...this.sources.map((s) => ({ ...s.branch, ohms: s.ohms })),
     ];
     return { nodeCount: this.nodeNames.length, conductances, wavePorts, nonlinearPorts: this.nlPorts, gminSiemens: GMIN_SIEMENS };
@@ -396,6 +421,7 @@ export class CircuitEngine {
     const volt = (n: number) => (n < 0 ? 0 : op.nodes[this.nodeNames[n]!]!);
     this.caps.forEach((c, j) => {
       this.capV[j] = volt(c.branch.a) - volt(c.branch.b);
+      this.capVPrev[j] = this.capV[j]!;
       this.capI[j] = 0;
     });
     this.root.setState(this.dcRoot.v);
@@ -416,8 +442,9 @@ export class CircuitEngine {
   processSample(vin: number): number {
     if (this.constDirty) this.updateConstants();
     const m = this.tr.m, nc = this.caps.length, nd = nc + 1;
-    const u = this.u, x = this.x, p = this.p, capV = this.capV, capI = this.capI, capR = this.capR;
-    for (let j = 0; j < nc; j++) { const w = capV[j]! + capR[j]! * capI[j]!; u[j] = w; x[j] = w; }
+    const u = this.u, x = this.x, p = this.p, capV = this.capV, capI = this.capI, capR = this.capR, capVPrev = this.capVPrev;
+    const wA = this.wA, wB = this.wB, wC = this.wC;
+    for (let j = 0; j < nc; j++) { const w = wA[j]! * capV[j]! + wB[j]! * capVPrev[j]! + wC[j]! * capR[j]! * capI[j]!; u[j] = w; x[j] = w; }
     u[nc] = vin;
     x[nc] = vin;
     const pRows = this.pRows, pCols = this.pCols, pVals = this.pVals, pConst = this.pConst;
@@ -434,6 +461,7 @@ export class CircuitEngine {
       let vj = cConst[j]!;
       for (let z = cRows[j]!, end = cRows[j + 1]!; z < end; z++) vj += cVals[z]! * x[cCols[z]!]!;
       capI[j] = (vj - x[j]!) * invCapR[j]!;
+      capVPrev[j] = capV[j]!;
       capV[j] = vj;
     }
     if (this.probeRows.length > 0) for (let k = 0; k < this.probeRows.length; k++) this.probeValues[k] = this.nodeVoltage(this.probeRows[k]!);

@@ -1,4 +1,4 @@
-// Oversampling by cascaded 2x polyphase half-band stages (1x … 32x).
+// Oversampling by cascaded 2x polyphase half-band stages (1x … 128x).
 //
 // Why two filter families:
 // - quality 'live' (default for 1x-8x): two-path allpass IIR half-bands, elliptic design.
@@ -24,7 +24,7 @@
 import { designEllipticHalfband, designKaiserHalfband, type HalfbandDesign } from './halfbandDesign.ts';
 import { makeStage, type HalfbandStage } from './halfbandStages.ts';
 
-export type OversamplingFactor = 1 | 2 | 4 | 8 | 16 | 32;
+export type OversamplingFactor = 1 | 2 | 4 | 8 | 16 | 32 | 64 | 128;
 export type OversamplingQuality = 'live' | 'offline';
 
 export interface OversamplerOptions {
@@ -39,7 +39,7 @@ export const STAGE_ATTENUATION_DB: Readonly<Record<OversamplingQuality, number>>
 /** Inputs are clamped to ±this (NaN becomes 0) so no state can overflow to Inf/NaN. */
 export const INPUT_LIMIT = 1e12;
 
-const FACTORS: readonly number[] = [1, 2, 4, 8, 16, 32];
+const FACTORS: readonly number[] = [1, 2, 4, 8, 16, 32, 64, 128];
 
 /** Transition width of 2x stage s (0-based from the base rate), cycles/sample at its high rate. */
 export function stageTransitionWidth(stageIndex: number): number {
@@ -76,7 +76,7 @@ export class Oversampler {
 
   constructor(factor: OversamplingFactor, options?: OversamplerOptions) {
     if (!FACTORS.includes(factor)) {
-      throw new Error(`Oversampler: factor must be 1, 2, 4, 8, 16 or 32, got ${String(factor)}`);
+      throw new Error(`Oversampler: factor must be 1, 2, 4, 8, 16, 32, 64 or 128, got ${String(factor)}`);
     }
     const quality = options?.quality ?? (factor <= 8 ? 'live' : 'offline');
     if (quality !== 'live' && quality !== 'offline') {

@@ -17,8 +17,23 @@ export interface TubeRatings {
   readonly source: string;
 }
 
+/**
+ * Direct interelectrode capacitances of one section, farads. A pentode's "grid-cathode" is its
+ * input capacitance (g1 to all other electrodes) and "plate-cathode" its output capacitance;
+ * the model places both to the cathode (the screen and suppressor are AC-grounded in use).
+ * They set the Miller roll-off of a stage and the rise time of a clipped plate, so they are
+ * part of every design's model (design.ts).
+ */
+export interface InterelectrodeCapacitance {
+  readonly gridPlateFarads: number;
+  readonly gridCathodeFarads: number;
+  readonly plateCathodeFarads: number;
+  readonly source: string;
+}
+
 interface TubeTypeBase {
   readonly name: string;
+  readonly capacitance: InterelectrodeCapacitance;
   readonly description: string;
   readonly gridCurrent: GridCurrentParams;
   readonly ratings: TubeRatings;
@@ -47,6 +62,7 @@ const DZ_BORROWED = 'Dempwolf-Zolzer 12AX7 grid law applied to this type (approx
 export const TUBE_LIBRARY: Readonly<Record<string, TubeType>> = {
   '12AX7': {
     name: '12AX7', kind: 'triode', description: 'High-mu twin triode (ECC83), mu 100',
+    capacitance: { gridPlateFarads: 1.7e-12, gridCathodeFarads: 1.6e-12, plateCathodeFarads: 0.46e-12, source: 'RCA 12AX7 sheet, unit 1, without shield (from memory, not confirmed)' },
     model: { mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
     gridCurrent: DZ_12AX7_GRID,
     modelSource: KOREN,
@@ -59,6 +75,7 @@ export const TUBE_LIBRARY: Readonly<Record<string, TubeType>> = {
   },
   '12AT7': {
     name: '12AT7', kind: 'triode', description: 'Medium-mu twin triode (ECC81), mu 60',
+    capacitance: { gridPlateFarads: 1.5e-12, gridCathodeFarads: 2.2e-12, plateCathodeFarads: 0.5e-12, source: 'RCA 12AT7 sheet, unit 1, without shield (from memory, not confirmed)' },
     model: { mu: 60, ex: 1.35, kg1: 460, kp: 300, kvb: 300 },
     gridCurrent: DZ_12AX7_GRID,
     modelSource: KOREN, gridSource: DZ_BORROWED,
@@ -70,6 +87,7 @@ export const TUBE_LIBRARY: Readonly<Record<string, TubeType>> = {
   },
   '12AU7': {
     name: '12AU7', kind: 'triode', description: 'Low-mu twin triode (ECC82), mu about 20',
+    capacitance: { gridPlateFarads: 1.5e-12, gridCathodeFarads: 1.6e-12, plateCathodeFarads: 0.5e-12, source: 'RCA 12AU7 sheet, unit 1, without shield (from memory, not confirmed)' },
     model: { mu: 21.5, ex: 1.3, kg1: 1180, kp: 84, kvb: 300 },
     gridCurrent: DZ_12AX7_GRID,
     modelSource: KOREN, gridSource: DZ_BORROWED,
@@ -81,6 +99,7 @@ export const TUBE_LIBRARY: Readonly<Record<string, TubeType>> = {
   },
   '6DJ8': {
     name: '6DJ8', kind: 'triode', description: 'Frame-grid twin triode (ECC88), mu about 30',
+    capacitance: { gridPlateFarads: 1.4e-12, gridCathodeFarads: 3.3e-12, plateCathodeFarads: 1.8e-12, source: 'ECC88 sheet, system 1 (from memory, not confirmed)' },
     model: { mu: 28, ex: 1.3, kg1: 330, kp: 320, kvb: 300 },
     gridCurrent: DZ_12AX7_GRID,
     modelSource: KOREN, gridSource: DZ_BORROWED,
@@ -92,6 +111,7 @@ export const TUBE_LIBRARY: Readonly<Record<string, TubeType>> = {
   },
   EF86: {
     name: 'EF86', kind: 'pentode', description: 'Small-signal pentode',
+    capacitance: { gridPlateFarads: 0.05e-12, gridCathodeFarads: 3.8e-12, plateCathodeFarads: 5.3e-12, source: 'EF86 sheet, input and output capacitance (from memory, not confirmed); g1-plate 0.05 pF also given in a public pentode-preamp tutorial' },
     model: { mu: 34.9, ex: 1.35, kg1: 2648.1, kg2: 4627, kp: 222.06, kvb: 4.7 },
     gridCurrent: DZ_12AX7_GRID,
     modelSource: 'Koren-form pentode fit published in public code (not by Koren); matches the EF86 sheet at Va 250 / Vg2 140 / Vg1 -2 V',
