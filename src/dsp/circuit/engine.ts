@@ -6,6 +6,7 @@
 import { compileLinearNetwork, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
+import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
 
 /** A switch is an engine element (a netlist writes it as a resistor, or leaves it out when open). */
@@ -116,17 +117,16 @@ export class CircuitEngine {
   // rows, structural zeros dropped, with the constant-source (B+) part folded into *Const.
   // Measured (bench, pentode-triode 4x): about half of E, Pu and Pi are structural zeros.
   private readonly x: Float64Array;
-  private readonly pRows: Int32Array;
-  private readonly pCols: Int32Array;
-  private readonly pVals: Float64Array;
+  /** Dense m × (nc+1) map from [w; vin] to the root's open-circuit voltages. */
+  private readonly Pd: Float64Array;
   private readonly pConst: Float64Array;
-  private readonly cRows: Int32Array;
-  private readonly cCols: Int32Array;
-  private readonly cVals: Float64Array;
+  /** Dense nc × (nc+1+m) map from [w; vin; i] to the capacitor voltages. */
+  private readonly Cd: Float64Array;
   private readonly cConst: Float64Array;
-  private readonly oCols: Int32Array;
-  private readonly oVals: Float64Array;
-  private oCount = 0;
+  /** Dense (nc+1+m) map from [w; vin; i] to the output voltage. */
+  private readonly Od: Float64Array;
+  private readonly stage1: LinearStage1;
+  private readonly stage2: LinearStage2;
   private oConst = 0;
   private constDirty = true;
   private probeRows: Int32Array = new Int32Array(0);
@@ -185,16 +185,13 @@ export class CircuitEngine {
     this.p = new Float64Array(m);
     this.invCapR = new Float64Array(this.caps.length);
     this.x = new Float64Array(nx);
-    this.pRows = new Int32Array(m + 1);
-    this.pCols = new Int32Array(m * nx);
-    this.pVals = new Float64Array(m * nx);
+    this.Pd = new Float64Array(m * (this.caps.length + 1));
     this.pConst = new Float64Array(m);
-    this.cRows = new Int32Array(this.caps.length + 1);
-    this.cCols = new Int32Array(this.caps.length * nx);
-    this.cVals = new Float64Array(this.caps.length * nx);
+    this.Cd = new Float64Array(this.caps.length * nx);
     this.cConst = new Float64Array(this.caps.length);
-    this.oCols = new Int32Array(nx);
-    this.oVals = new Float64Array(nx);
+    this.Od = new Float64Array(nx);
+    this.stage1 = compileLinearStage1({ nc: this.caps.length, m });
+    this.stage2 = compileLinearStage2({ nc: this.caps.length, m });
     this.compile();
     this.root = new NewtonRoot(this.devices, this.tr.F);
     this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
@@ -246,41 +243,18 @@ export class CircuitEngine {
   private packMaps(): void {
     const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, nd = nc + 1;
     for (let j = 0; j < nc; j++) this.invCapR[j] = 1 / this.capR[j]!;
-    let n = 0;
-    for (let r = 0; r < m; r++) {
-      this.pRows[r] = n;
-      for (let c = 0; c < nd; c++) {
-        const val = tr.E[r * nu + c]!;
-        if (val !== 0) { this.pCols[n] = c; this.pVals[n++] = val; }
-      }
-    }
-    this.pRows[m] = n;
-    n = 0;
+    const nx = nd + m, Pd = this.Pd, Cd = this.Cd, Od = this.Od;
+    for (let r = 0; r < m; r++) for (let c = 0; c < nd; c++) Pd[r * nd + c] = tr.E[r * nu + c]!;
     for (let j = 0; j < nc; j++) {
-      this.cRows[j] = n;
-      for (let c = 0; c < nd; c++) {
-        const val = tr.Pu[j * nu + c]!;
-        if (val !== 0) { this.cCols[n] = c; this.cVals[n++] = val; }
-      }
-      for (let c = 0; c < m; c++) {
-        const val = tr.Pi[j * m + c]!;
-        if (val !== 0) { this.cCols[n] = nd + c; this.cVals[n++] = val; }
-      }
+      for (let c = 0; c < nd; c++) Cd[j * nx + c] = tr.Pu[j * nu + c]!;
+      for (let c = 0; c < m; c++) Cd[j * nx + nd + c] = tr.Pi[j * m + c]!;
     }
-    this.cRows[nc] = n;
-    n = 0;
+    Od.fill(0);
     const on = this.outputNode;
     if (on >= 0) {
-      for (let c = 0; c < nd; c++) {
-        const val = tr.Zu[on * nu + c]!;
-        if (val !== 0) { this.oCols[n] = c; this.oVals[n++] = val; }
-      }
-      for (let c = 0; c < m; c++) {
-        const val = tr.Zi[on * m + c]!;
-        if (val !== 0) { this.oCols[n] = nd + c; this.oVals[n++] = val; }
-      }
+      for (let c = 0; c < nd; c++) Od[c] = tr.Zu[on * nu + c]!;
+      for (let c = 0; c < m; c++) Od[nd + c] = tr.Zi[on * m + c]!;
     }
-    this.oCount = n;
     this.constDirty = true;
   }
 
@@ -441,33 +415,11 @@ export class CircuitEngine {
   /** One sample: input source EMF in volts, returns the output node voltage in volts. */
   processSample(vin: number): number {
     if (this.constDirty) this.updateConstants();
-    const m = this.tr.m, nc = this.caps.length, nd = nc + 1;
-    const u = this.u, x = this.x, p = this.p, capV = this.capV, capI = this.capI, capR = this.capR, capVPrev = this.capVPrev;
-    const wA = this.wA, wB = this.wB, wC = this.wC;
-    for (let j = 0; j < nc; j++) { const w = wA[j]! * capV[j]! + wB[j]! * capVPrev[j]! + wC[j]! * capR[j]! * capI[j]!; u[j] = w; x[j] = w; }
-    u[nc] = vin;
-    x[nc] = vin;
-    const pRows = this.pRows, pCols = this.pCols, pVals = this.pVals, pConst = this.pConst;
-    for (let r = 0; r < m; r++) {
-      let acc = pConst[r]!;
-      for (let z = pRows[r]!, end = pRows[r + 1]!; z < end; z++) acc += pVals[z]! * x[pCols[z]!]!;
-      p[r] = acc;
-    }
+    const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
+    this.stage1(vin, capV, capVPrev, capI, this.capR, this.wA, this.wB, this.wC, this.Pd, this.pConst, x, this.u, p);
     this.root.solve(p, TRANSIENT);
-    const i = this.root.i;
-    for (let c = 0; c < m; c++) x[nd + c] = i[c]!;
-    const cRows = this.cRows, cCols = this.cCols, cVals = this.cVals, cConst = this.cConst, invCapR = this.invCapR;
-    for (let j = 0; j < nc; j++) {
-      let vj = cConst[j]!;
-      for (let z = cRows[j]!, end = cRows[j + 1]!; z < end; z++) vj += cVals[z]! * x[cCols[z]!]!;
-      capI[j] = (vj - x[j]!) * invCapR[j]!;
-      capVPrev[j] = capV[j]!;
-      capV[j] = vj;
-    }
+    const out = this.stage2(this.root.i, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst);
     if (this.probeRows.length > 0) for (let k = 0; k < this.probeRows.length; k++) this.probeValues[k] = this.nodeVoltage(this.probeRows[k]!);
-    let out = this.oConst;
-    const oCols = this.oCols, oVals = this.oVals;
-    for (let z = 0, end = this.oCount; z < end; z++) out += oVals[z]! * x[oCols[z]!]!;
     return Number.isFinite(out) ? out : 0;
   }
 

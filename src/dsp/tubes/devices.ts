@@ -17,7 +17,8 @@ export type TubeFunctions = 'exact' | 'table';
 
 export class TriodeDevice implements RootDevice {
   readonly portCount = 2;
-  readonly maxStepVolts = [2, 50];
+  readonly maxStepVolts = [10, 50];
+  readonly kneePorts = [1];
   readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1]];
   readonly params: KorenTriodeParams;
   readonly grid: GridCurrentParams | undefined;
@@ -67,7 +68,8 @@ export class TriodeDevice implements RootDevice {
 
 export class PentodeDevice implements RootDevice {
   readonly portCount = 3;
-  readonly maxStepVolts = [2, 50, 50];
+  readonly maxStepVolts = [10, 50, 50];
+  readonly kneePorts = [1, 2];
   readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1], [1, 2], [2, 0], [2, 2]];
   readonly params: KorenPentodeParams;
   readonly grid: GridCurrentParams | undefined;

@@ -1,0 +1,75 @@
+// The per-sample linear part of CircuitEngine as generated straight-line code.
+//
+// Per sample the engine (a) forms each capacitor's history source w_j from its state, (b) maps
+// w and the input to the root's open-circuit port voltages p = pConst + P·[w; vin], and, after
+// the root is solved for its currents i, (c) updates every capacitor's voltage
+// v_j = cConst_j + C_j·[w; vin; i] and current, and (d) reads the output node the same way.
+// These maps are dense for a connected circuit (every capacitor sees every source), so they are
+// written out as one multiply-add per entry with constant indices into dense coefficient arrays:
+// measured on pentode-triode at 8x (13 capacitors, 5 root ports, 336 multiply-adds), the CSR
+// loops took 49 % of the profile. The coefficients are read from their arrays on every call,
+// so a component change (which rewrites them) needs no new code. The code holds only numbers
+// and indices computed here.
+
+/** Sizes of one engine's maps. */
+export interface LinearShape {
+  /** Capacitors. */
+  readonly nc: number;
+  /** Root ports. */
+  readonly m: number;
+}
+
+/**
+ * Stage 1: writes x[0..nc] = [w; vin], u[0..nc] likewise, and p. Arguments: vin, capV, capVPrev,
+ * capI, capR, wA, wB, wC (capacitor state and history coefficients), Pd (m × (nc+1) row-major),
+ * pConst, x, u, p.
+ */
+export type LinearStage1 = (vin: number, capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, capR: Float64Array,
+  wA: Float64Array, wB: Float64Array, wC: Float64Array, Pd: Float64Array, pConst: Float64Array, x: Float64Array, u: Float64Array, p: Float64Array) => void;
+
+/**
+ * Stage 2: copies i into x[nc+1..], updates capV, capVPrev, capI, and returns the output volts.
+ * Arguments: i, x, Cd (nc × (nc+1+m) row-major), cConst, invCapR, capV, capVPrev, capI, Od
+ * (nc+1+m), oConst.
+ */
+export type LinearStage2 = (i: Float64Array, x: Float64Array, Cd: Float64Array, cConst: Float64Array, invCapR: Float64Array,
+  capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, Od: Float64Array, oConst: number) => number;
+
+function checkShape(s: LinearShape): void {
+  if (!(Number.isInteger(s.nc) && s.nc >= 0 && s.nc <= 512 && Number.isInteger(s.m) && s.m >= 0 && s.m <= 64)) {
+    throw new Error(`linear kernel: unsupported size (${s.nc} capacitors, ${s.m} root ports)`);
+  }
+}
+
+export function compileLinearStage1(s: LinearShape): LinearStage1 {
+  checkShape(s);
+  const { nc, m } = s, nd = nc + 1, L: string[] = [];
+  for (let j = 0; j < nc; j++) {
+    L.push(`const x${j} = wA[${j}] * capV[${j}] + wB[${j}] * capVPrev[${j}] + wC[${j}] * capR[${j}] * capI[${j}];`);
+    L.push(`x[${j}] = x${j}; u[${j}] = x${j};`);
+  }
+  L.push(`const x${nc} = vin; x[${nc}] = vin; u[${nc}] = vin;`);
+  for (let r = 0; r < m; r++) {
+    const t = [`pConst[${r}]`];
+    for (let c = 0; c < nd; c++) t.push(`Pd[${r * nd + c}] * x${c}`);
+    L.push(`p[${r}] = ${t.join(' + ')};`);
+  }
+  return new Function('vin', 'capV', 'capVPrev', 'capI', 'capR', 'wA', 'wB', 'wC', 'Pd', 'pConst', 'x', 'u', 'p', L.join('\n')) as LinearStage1;
+}
+
+export function compileLinearStage2(s: LinearShape): LinearStage2 {
+  checkShape(s);
+  const { nc, m } = s, nd = nc + 1, nx = nd + m, L: string[] = [];
+  for (let c = 0; c < nd; c++) L.push(`const x${c} = x[${c}];`);
+  for (let c = 0; c < m; c++) L.push(`const x${nd + c} = i[${c}]; x[${nd + c}] = x${nd + c};`);
+  for (let j = 0; j < nc; j++) {
+    const t = [`cConst[${j}]`];
+    for (let c = 0; c < nx; c++) t.push(`Cd[${j * nx + c}] * x${c}`);
+    L.push(`{ const v = ${t.join(' + ')};`);
+    L.push(`  capI[${j}] = (v - x${j}) * invCapR[${j}]; capVPrev[${j}] = capV[${j}]; capV[${j}] = v; }`);
+  }
+  const o = ['oConst'];
+  for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
+  L.push(`return ${o.join(' + ')};`);
+  return new Function('i', 'x', 'Cd', 'cConst', 'invCapR', 'capV', 'capVPrev', 'capI', 'Od', 'oConst', L.join('\n')) as LinearStage2;
+}

@@ -1,0 +1,73 @@
+// One Newton step of the root equation g(v) = v - p - F i(v) = 0, generated as straight-line
+// code for one root's size m and Jacobian sparsity (NewtonRoot's generic loops cost ~0.5 us per
+// iteration at m = 5; this kernel keeps every operand in a local).
+//
+// The step solves J·δ = -g with J = I - F·D, D = d i / d v (sparse, pattern (nzRow, nzCol)),
+// by Gaussian elimination without row exchanges. That is safe only while each pivot is not
+// small against the entries below it, so the kernel checks |pivot| >= PIVOT_RATIO · max|below|
+// (threshold pivoting, Golub & Van Loan, "Matrix Computations", 4th ed., sec. 3.4, from memory)
+// and returns false otherwise: the caller then takes its partially pivoted LU for that
+// iteration. F is read from its array on every call, so a component change needs no new kernel.
+//
+// The code is generated once per circuit (when the engine is built) with `new Function`; it
+// only ever contains numbers and array indices computed here, never text from a design.
+
+/**
+ * Writes δ into r[0..m-1] and max |g| into r[m], and returns true; or returns false (r
+ * unspecified) when a pivot fails the test. Arguments: F (m·m row-major), p, v, i (length m),
+ * d (nnz values in pattern order), r (length m + 1).
+ */
+export type NewtonStepKernel = (F: Float64Array, p: Float64Array, v: Float64Array, i: Float64Array, d: Float64Array, r: Float64Array) => boolean;
+
+/** Smallest accepted |pivot| / max |entry below it| before falling back to row exchanges. */
+export const PIVOT_RATIO = 1e-3;
+
+export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Array): NewtonStepKernel {
+  if (!(Number.isInteger(m) && m >= 0 && m <= 32)) throw new Error(`compileNewtonStep: root size must be 0-32, got ${m}`);
+  if (nzRow.length !== nzCol.length) throw new Error('compileNewtonStep: pattern rows and columns differ in length');
+  if (m === 0) return (_F, _p, _v, _i, _d, r) => { r[0] = 0; return true; };
+  const L: string[] = [];
+  for (let c = 0; c < m; c++) L.push(`const i${c} = i[${c}];`);
+  for (let z = 0; z < nzRow.length; z++) L.push(`const d${z} = d[${z}];`);
+  // residual (negated): r = p - v + F i
+  for (let row = 0; row < m; row++) {
+    const terms = [`p[${row}] - v[${row}]`];
+    for (let c = 0; c < m; c++) terms.push(`F[${row * m + c}] * i${c}`);
+    L.push(`let r${row} = ${terms.join(' + ')};`);
+  }
+  L.push(`r[${m}] = ${Array.from({ length: m }, (_, k) => `r${k} * r${k}`).join(" + ")};`);
+  // J[row][c] = [row == c] - sum over pattern entries z in column c of F[row][nzRow[z]] · d_z
+  for (let row = 0; row < m; row++) {
+    for (let c = 0; c < m; c++) {
+      const terms: string[] = [];
+      for (let z = 0; z < nzRow.length; z++) if (nzCol[z] === c) terms.push(`F[${row * m + nzRow[z]!}] * d${z}`);
+      const diag = row === c ? '1' : '0';
+      L.push(`let a${row}_${c} = ${terms.length ? `${diag} - (${terms.join(' + ')})` : diag};`);
+    }
+  }
+  // forward elimination without exchanges, threshold-checked
+  for (let k = 0; k < m; k++) {
+    if (k < m - 1) {
+      const below: string[] = [];
+      for (let row = k + 1; row < m; row++) below.push(`Math.abs(a${row}_${k})`);
+      L.push(`if (!(Math.abs(a${k}_${k}) >= ${PIVOT_RATIO} * Math.max(${below.join(', ')}))) return false;`);
+    }
+    L.push(`if (!(Math.abs(a${k}_${k}) > 1e-300)) return false;`);
+    L.push(`const q${k} = 1 / a${k}_${k};`);
+    for (let row = k + 1; row < m; row++) {
+      L.push(`{ const f = a${row}_${k} * q${k};`);
+      for (let c = k + 1; c < m; c++) L.push(`  a${row}_${c} -= f * a${k}_${c};`);
+      L.push(`  r${row} -= f * r${k}; }`);
+    }
+  }
+  // back substitution
+  for (let k = m - 1; k >= 0; k--) {
+    const terms: string[] = [];
+    for (let c = k + 1; c < m; c++) terms.push(` - a${k}_${c} * r${c}`);
+    L.push(`r${k} = (r${k}${terms.join('')}) * q${k};`);
+  }
+  for (let k = 0; k < m; k++) L.push(`r[${k}] = r${k};`);
+  L.push('return true;');
+  // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see above)
+  return new Function('F', 'p', 'v', 'i', 'd', 'r', L.join('\n')) as NewtonStepKernel;
+}
