@@ -24,6 +24,13 @@ import { CautionDialog } from './Cautions.tsx';
 
 const IMPULSES = import.meta.glob('/impulses/*.wav', { query: '?url', import: 'default', eager: true }) as Record<string, string>;
 const QUALITIES: readonly OversamplingFactor[] = [1, 2, 4, 8];
+/** Measured alias levels (npx tsx bench/alias.bench.ts, pentode-triode, 1 V peak sines near 1 / 2.5 kHz). */
+const QUALITY_LABELS: Partial<Record<OversamplingFactor, string>> = {
+  1: 'draft (1×)',
+  2: '2× (aliases about −34 / −28 dB)',
+  4: '4× (aliases about −49 / −37 dB)',
+  8: '8× (aliases about −62 / −52 dB; heavy)',
+};
 
 interface OpState { report: OperatingReport | null; failure: string | null; findings: Finding[] }
 
@@ -274,7 +281,7 @@ export function App(): ReactElement {
             <label className="button">Load response…<input type="file" accept="audio/*,.wav" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void chooseCabinet(`file:${f.name}`, f); e.target.value = ''; }} /></label>
             <label className="inline-label">Quality
               <select value={quality} onChange={(e) => setQuality(Number(e.target.value) as OversamplingFactor)}>
-                {QUALITIES.map((q) => <option key={q} value={q}>{q === 1 ? 'draft (1×)' : `${q}× oversampled`}</option>)}
+                {QUALITIES.map((q) => <option key={q} value={q}>{QUALITY_LABELS[q] ?? `${q}× oversampled`}</option>)}
               </select>
             </label>
             <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''})</span>

@@ -119,6 +119,8 @@ function arc(a0: number, a1: number, r: number): string {
   return `M ${x0} ${y0} A ${r} ${r} 0 ${a1 - a0 > 180 ? 1 : 0} 1 ${x1} ${y1}`;
 }
 
+const pf = (farads: number): string => `${Number((farads * 1e12).toPrecision(3))} pF`;
+
 function TubeControls({ part, onChange }: { part: TubePart; onChange: (p: Part) => void }): ReactElement {
   const t = tubeType(part.type);
   const sameKind = Object.values(TUBE_LIBRARY).filter((x) => x.kind === t.kind);
@@ -136,7 +138,11 @@ function TubeControls({ part, onChange }: { part: TubePart; onChange: (p: Part) 
           <button key={k} type="button" aria-pressed={sampleName === k} onClick={() => onChange({ ...part, sample: TUBE_SAMPLES[k] })}>{k} ×{TUBE_SAMPLES[k]}</button>
         ))}
       </fieldset>
-      <p className="fine">Only {t.kind}s are offered here: the socket wiring is the design's. Ratings: {t.ratings.source}.</p>
+      <label className="inline-label" title={`Data sheet: grid-plate ${pf(t.capacitance.gridPlateFarads)}, grid-cathode ${pf(t.capacitance.gridCathodeFarads)}, plate-cathode ${pf(t.capacitance.plateCathodeFarads)}`}>
+        <input type="checkbox" checked={part.interelectrode !== false} onChange={(e) => onChange({ ...part, interelectrode: e.target.checked })} />
+        Interelectrode capacitance (Miller roll-off): {pf(t.capacitance.gridPlateFarads)} grid-plate
+      </label>
+      <p className="fine">Only {t.kind}s are offered here: the socket wiring is the design's. Ratings: {t.ratings.source}. Capacitances: {t.capacitance.source}.</p>
     </div>
   );
 }

@@ -17,7 +17,7 @@ export function sameStructure(a: Design, b: Design): boolean {
   return a.parts.every((p, i) => {
     const q = b.parts[i]!;
     if (p.id !== q.id || p.kind !== q.kind || JSON.stringify(p.nodes) !== JSON.stringify(q.nodes)) return false;
-    if (p.kind === 'tube' && q.kind === 'tube') return p.type === q.type;
+    if (p.kind === 'tube' && q.kind === 'tube') return p.type === q.type && (p.interelectrode !== false) === (q.interelectrode !== false);
     if (p.kind === 'switch' && q.kind === 'switch') return p.closed === q.closed;
     return true;
   });
