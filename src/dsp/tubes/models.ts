@@ -222,9 +222,25 @@ export function korenPentodeInto(p: KorenPentodeParams, vgk: number, vpk: number
   out[o + 3] = dIdE * (sp / p.kp - (sig * vgk) / vsk);
 }
 
+/** Below this cg·Vgk the grid law is evaluated by its series form (dempwolfZolzerGridInto). */
+const GRID_SERIES_BELOW = -10;
+
 /** Dempwolf-Zolzer grid current (see dempwolfZolzerGrid): out[o] = Ig, out[o+1] = dIg/dVgk. */
 export function dempwolfZolzerGridInto(p: GridCurrentParams, vgk: number, out: Float64Array, o: number): void {
   const z = p.cg * vgk;
+  if (z < GRID_SERIES_BELOW && p.cg > 0) {
+    // Below cut-in (the usual case: a grid biased negative), with e = exp(z) < 4.6e-5 the
+    // Taylor series ln(1+e) = e - e^2/2 + e^3/3 - e^4/4 and ln(ln(1+e)/e) = -e/2 + 5e^2/24 - e^3/8
+    // are exact to < 1e-17 relative, so the same equation costs exp, log, exp instead of
+    // exp, log1p, log, exp.
+    const e = Math.exp(z);
+    const sp = e * (1 + e * (-0.5 + e * (1 / 3 - e / 4)));
+    const lsp = z + e * (-0.5 + e * (5 / 24 - e / 8));
+    const pw = Math.exp((p.xi - 1) * (lsp - Math.log(p.cg)));
+    out[o] = p.gg * pw * (sp / p.cg) + p.ig0;
+    out[o + 1] = p.gg * p.xi * pw * (e / (1 + e));
+    return;
+  }
   let sp: number, sig: number;
   if (z > 35) { sp = z; sig = 1; } else {
     const e = Math.exp(-Math.abs(z));
