@@ -13,7 +13,7 @@
 // only ever contains numbers and array indices computed here, never text from a design.
 
 /**
- * Writes δ into r[0..m-1] and max |g| into r[m], and returns true; or returns false (r
+ * Writes δ into r[0..m-1] and the squared residual norm sum g_k^2 into r[m], and returns true; or returns false (r
  * unspecified) when a pivot fails the test. Arguments: F (m·m row-major), p, v, i (length m),
  * d (nnz values in pattern order), r (length m + 1).
  */

@@ -84,7 +84,7 @@ export class NewtonRoot {
   private readonly nzCol: Int32Array;
   private readonly jac: Float64Array;
   private readonly piv: Int32Array;
-  /** Newton step (0..m-1) and max |residual| (m). */
+  /** Newton step (0..m-1) and the squared residual norm (m). */
   private readonly r: Float64Array;
   /** The step last applied to v (the two-cycle guard compares the next step with it). */
   private readonly lastDelta: Float64Array;
