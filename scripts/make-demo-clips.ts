@@ -6,7 +6,8 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { DEMO_TARGET_PEAK_DBFS, fileCalibration, renderRiffVolts } from '../src/dsp/synth/riff.ts';
 import { DEMO_RIFFS } from '../src/dsp/synth/riffs.ts';
-import { PCM24_FULL_SCALE, encodeWavPcm24, quantisePcm24 } from '../src/dsp/synth/wav.ts';
+import { decodeWav, encodeWav } from '../src/dsp/io/wav.ts';
+import { PCM24_FULL_SCALE, quantisePcm24 } from '../src/dsp/synth/wav.ts';
 
 export const DEMO_SAMPLE_RATE_HZ = 48000;
 
@@ -17,11 +18,22 @@ let totalBytes = 0;
 for (const riff of DEMO_RIFFS) {
   const volts = renderRiffVolts(riff, DEMO_SAMPLE_RATE_HZ);
   const { voltsAtFullScale, gain } = fileCalibration(volts, DEMO_TARGET_PEAK_DBFS);
+  // Codes for the peak report; encodeWav quantises the same products volts * gain (Float64Array,
+  // so nothing is rounded on the way) by the same rule, so the report describes the file.
   const q = quantisePcm24(volts, gain);
   let peakCode = 0;
   for (const v of q) peakCode = Math.max(peakCode, Math.abs(v));
   const peakDbfs = 20 * Math.log10(peakCode / PCM24_FULL_SCALE);
-  const bytes = encodeWavPcm24(q, DEMO_SAMPLE_RATE_HZ);
+  const scaled = Float64Array.from(volts, (v) => v * gain);
+  const bytes = encodeWav([scaled], DEMO_SAMPLE_RATE_HZ, { bitDepth: 24 });
+  // Guard: the written codes must be the reported ones (24-bit code / 2^23 is exact in float32).
+  const written = decodeWav(bytes).channels[0] ?? new Float32Array(0);
+  if (written.length !== q.length) throw new Error(`${riff.name}: wrote ${written.length} samples, expected ${q.length}`);
+  for (let n = 0; n < q.length; n++) {
+    if ((written[n] ?? Number.NaN) * PCM24_FULL_SCALE !== q[n]) {
+      throw new Error(`${riff.name}: sample ${n} written as ${(written[n] ?? Number.NaN) * PCM24_FULL_SCALE}, quantiser gave ${String(q[n])}`);
+    }
+  }
   const file = `${riff.name}.wav`;
   writeFileSync(join(outDir, file), bytes);
   totalBytes += bytes.length;
