@@ -3,7 +3,7 @@
 // b[n] = a[n-1]) and the sources (resistive voltage sources, b = EMF), with all resistors and
 // every tube port at one nonlinear root (see wdf/root-network.ts and wdf/newton-root.ts).
 // All nonlinear ports are solved together, so direct-coupled stages need no unit delay.
-import { compileLinearNetwork, type Branch, type RootMatrices } from '../wdf/root-network.ts';
+import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
@@ -85,21 +85,46 @@ interface TubeSlot {
   readonly offset: number;
 }
 
+/** Where an element's value lives: its kind and its index in the engine's value arrays. */
+interface ElementSlot {
+  readonly kind: EngineElement['kind'];
+  /** resistor, switch: conductance index; capacitor: capacitor index; dc-source: source index; tube: -1 */
+  readonly index: number;
+}
+
 export class CircuitEngine {
   readonly nodeNames: readonly string[];
   private sampleRateHz: number;
-  private elements: Map<string, EngineElement>;
   private readonly circuit: EngineCircuit;
   private readonly nodeIndex: Map<string, number>;
-  private readonly caps: { id: string; branch: Branch; farads: number; bdf2: boolean }[] = [];
-  private readonly sources: { id: string; branch: Branch; ohms: number; volts: number }[] = [];
+  /** Element id -> kind and value index (built once; value changes look up here, allocation-free). */
+  private readonly slots = new Map<string, ElementSlot>();
+  private readonly caps: { id: string; branch: Branch; bdf2: boolean }[] = [];
+  private readonly sources: { id: string; branch: Branch; ohms: number }[] = [];
+  private readonly sourceIndex = new Map<string, number>();
   private readonly tubes: TubeSlot[] = [];
+  private readonly tubeById = new Map<string, TubeSlot>();
+  // Element values, indexed like the branch lists (changed in place by setValues / setSwitch).
+  /** Resistors and switches (in element order): ohms (a switch: its contact resistance). */
+  private readonly condOhms: Float64Array;
+  /** Their conductances as stamped: 1/ohms, 0 for an open switch. */
+  private readonly condSiemens: Float64Array;
+  private readonly capFarads: Float64Array;
+  /** Source EMFs (index 0 is the input, set per sample). */
+  private readonly sourceVolts: Float64Array;
+  /** Transient wave-port resistances: capacitors (T/2C or 2T/3C), then the sources. */
+  private readonly trOhms: Float64Array;
+  private readonly dcOhms: Float64Array;
+  private readonly trCompiler: LinearNetworkCompiler;
+  private readonly dcCompiler: LinearNetworkCompiler;
   private readonly nlPorts: Branch[] = [];
   private readonly devices: RootDevice[] = [];
   private readonly inputLeaf: number;
   private readonly outputNode: number;
-  private tr!: RootMatrices;
-  private dc: RootMatrices | null = null;
+  /** Transient matrices: the same arrays for the engine's life, recompiled in place. */
+  private readonly tr: RootMatrices;
+  private readonly dc: RootMatrices;
+  private dcValid = false;
   private readonly root: NewtonRoot;
   private readonly dcRoot: NewtonRoot;
   // state and scratch (allocated once)
@@ -139,7 +164,8 @@ export class CircuitEngine {
     if (!(sampleRateHz > 0 && Number.isFinite(sampleRateHz))) throw new Error(`sample rate must be positive (got ${sampleRateHz})`);
     this.circuit = circuit;
     this.sampleRateHz = sampleRateHz;
-    this.elements = new Map(circuit.elements.map((e) => [e.id, e]));
+    // later elements with the same id replace earlier ones (in the first one's place)
+    const unique = new Map<string, EngineElement>(circuit.elements.map((e) => [e.id, e]));
     const names: string[] = [];
     this.nodeIndex = new Map();
     const idx = (name: string): number => {
@@ -148,14 +174,21 @@ export class CircuitEngine {
       if (i === undefined) { i = names.length; names.push(name); this.nodeIndex.set(name, i); }
       return i;
     };
+    const capFarads: number[] = [];
     for (const e of circuit.elements) {
-      if (e.kind === 'capacitor') this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, farads: e.farads, bdf2: 'integration' in e && e.integration === 'bdf2' });
+      if (e.kind === 'capacitor') {
+        this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, bdf2: 'integration' in e && e.integration === 'bdf2' });
+        capFarads.push(e.farads);
+      }
     }
     this.inputLeaf = this.caps.length;
-    this.sources.push({ id: '<input>', branch: { a: idx(circuit.input.node), b: -1 }, ohms: circuit.input.ohms, volts: 0 });
+    this.sources.push({ id: '<input>', branch: { a: idx(circuit.input.node), b: -1 }, ohms: circuit.input.ohms });
+    const sourceVolts: number[] = [0];
     for (const e of circuit.elements) {
-      if (e.kind === 'dc-source') this.sources.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, ohms: e.ohms, volts: e.volts });
-      else if (e.kind === 'resistor' || e.kind === 'switch') { idx(e.nodes[0]); idx(e.nodes[1]); }
+      if (e.kind === 'dc-source') {
+        this.sources.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, ohms: e.ohms });
+        sourceVolts.push(e.volts);
+      } else if (e.kind === 'resistor' || e.kind === 'switch') { idx(e.nodes[0]); idx(e.nodes[1]); }
       else if (e.kind === 'triode' || e.kind === 'pentode') {
         const k = idx(e.nodes.cathode);
         const offset = this.nlPorts.length;
@@ -165,13 +198,48 @@ export class CircuitEngine {
           this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
           device = new PentodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
         } else device = new TriodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
-        this.tubes.push({ el: e, device, offset });
+        const slot = { el: e, device, offset };
+        this.tubes.push(slot);
+        if (!this.tubeById.has(e.id)) this.tubeById.set(e.id, slot);
         this.devices.push(device);
       }
     }
     this.outputNode = idx(circuit.output.node);
     this.nodeNames = names;
+    this.capFarads = Float64Array.from(capFarads);
+    this.sourceVolts = Float64Array.from(sourceVolts);
+    this.sources.forEach((src, j) => { if (!this.sourceIndex.has(src.id)) this.sourceIndex.set(src.id, j); });
+    // conductances in element order: resistors, and switches (open: 0 S)
+    const condBranches: Branch[] = [], condOhms: number[] = [], condSiemens: number[] = [];
+    const node = (n: string) => this.nodeIndex.get(n) ?? -1;
+    for (const e of unique.values()) {
+      let index = -1;
+      if (e.kind === 'resistor' || e.kind === 'switch') {
+        index = condBranches.length;
+        condBranches.push({ a: node(e.nodes[0]), b: node(e.nodes[1]) });
+        const ohms = e.kind === 'resistor' ? e.ohms : e.contactOhms;
+        condOhms.push(ohms);
+        condSiemens.push(e.kind === 'switch' && !e.closed ? 0 : 1 / ohms);
+      } else if (e.kind === 'capacitor') index = this.caps.findIndex((c) => c.id === e.id);
+      else if (e.kind === 'dc-source') index = this.sources.findIndex((x) => x.id === e.id);
+      this.slots.set(e.id, { kind: e.kind, index });
+    }
+    this.condOhms = Float64Array.from(condOhms);
+    this.condSiemens = Float64Array.from(condSiemens);
     const nu = this.caps.length + this.sources.length;
+    const sourcePorts = this.sources.map((x) => x.branch);
+    const topology = (wavePorts: readonly Branch[], ohms: Float64Array) => ({
+      nodeCount: names.length, conductances: condBranches, wavePorts,
+      idealPorts: Array.from(ohms, (r) => r === 0), nonlinearPorts: this.nlPorts, gminSiemens: GMIN_SIEMENS,
+    });
+    this.dcOhms = Float64Array.from(this.sources, (x) => x.ohms);
+    this.trOhms = new Float64Array(nu);
+    this.trOhms.set(this.dcOhms, this.caps.length); // capacitor entries: set by compile()
+    this.trOhms.fill(1, 0, this.caps.length);
+    this.trCompiler = new LinearNetworkCompiler(topology([...this.caps.map((c) => c.branch), ...sourcePorts], this.trOhms));
+    this.dcCompiler = new LinearNetworkCompiler(topology(sourcePorts, this.dcOhms));
+    this.tr = this.trCompiler.createMatrices();
+    this.dc = this.dcCompiler.createMatrices();
     this.capV = new Float64Array(this.caps.length);
     this.capI = new Float64Array(this.caps.length);
     this.capR = new Float64Array(this.caps.length);
@@ -210,31 +278,33 @@ export class CircuitEngine {
     return this.sampleRateHz;
   }
 
+  /**
+   * The compiled transient matrices (for checks). Value changes recompile them in place, so the
+   * arrays are the same objects for the engine's life; do not modify them.
+   */
+  get linearMatrices(): RootMatrices {
+    return this.tr;
+  }
+
   /** Newton statistics of the transient root. */
   get solverStats(): { solves: number; iterations: number; failures: number } {
     return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures };
   }
 
-  private spec(transient: boolean) {
-    const conductances: (Branch & { siemens: number })[] = [];
-    const node = (n: string) => this.nodeIndex.get(n) ?? -1;
-    for (const e of this.elements.values()) {
-      if (e.kind === 'resistor') conductances.push({ a: node(e.nodes[0]), b: node(e.nodes[1]), siemens: 1 / e.ohms });
-      else if (e.kind === 'switch' && e.closed) conductances.push({ a: node(e.nodes[0]), b: node(e.nodes[1]), siemens: 1 / e.contactOhms });
-    }
-    const T = 1 / this.sampleRateHz;
-    const wavePorts = [
-      // port resistance T/(2C) (trapezoidal) or 2T/(3C) (BDF2)
-      ...(transient ? this.caps.map((c, j) => ({ ...c.branch, ohms: (this.capR[j] = (c.bdf2 ? (2 * T) / (3 * c.farads) : T / (2 * c.farads))) })) : []),
-      ...this.sources.map((s) => ({ ...s.branch, ohms: s.ohms })),
-    ];
-    return { nodeCount: this.nodeNames.length, conductances, wavePorts, nonlinearPorts: this.nlPorts, gminSiemens: GMIN_SIEMENS };
-  }
-
+  /** Recompile the transient matrices in place for the present values (allocation-free). */
   private compile(): void {
-    this.tr = compileLinearNetwork(this.spec(true));
+    const T = 1 / this.sampleRateHz, nc = this.caps.length;
+    for (let j = 0; j < nc; j++) {
+      const farads = this.capFarads[j]!;
+      // port resistance T/(2C) (trapezoidal) or 2T/(3C) (BDF2)
+      const ohms = this.caps[j]!.bdf2 ? (2 * T) / (3 * farads) : T / (2 * farads);
+      this.capR[j] = ohms;
+      this.trOhms[j] = ohms;
+    }
+    this.trCompiler.compile(this.condSiemens, this.trOhms, this.tr);
     this.packMaps();
-    this.dc = null;
+    this.dcValid = false;
+    // NewtonRoot copies F (transposed) into its own storage; this.tr.F is the same array throughout
     this.root?.setF(this.tr.F);
     this.op = null;
   }
@@ -261,7 +331,7 @@ export class CircuitEngine {
   /** Constant-source (dc-source) contributions, recomputed only when an EMF changes. */
   private updateConstants(): void {
     const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, ns = this.sources.length, u = this.u;
-    for (let s = 1; s < ns; s++) u[nc + s] = this.sources[s]!.volts;
+    for (let s = 1; s < ns; s++) u[nc + s] = this.sourceVolts[s]!;
     for (let r = 0; r < m; r++) {
       let acc = 0;
       for (let s = 1; s < ns; s++) acc += tr.E[r * nu + nc + s]! * u[nc + s]!;
@@ -279,42 +349,54 @@ export class CircuitEngine {
     this.constDirty = false;
   }
 
-  /** Change component values at run time (batched: one recompilation). Capacitor voltages and currents are kept. */
+  /**
+   * Change component values at run time (batched: one recompilation). Capacitor voltages and
+   * currents are kept. All updates are checked before any is applied. Allocates nothing (the
+   * audio thread calls this on every glide step).
+   */
   setValues(updates: readonly ValueUpdate[]): void {
-    for (const up of updates) {
-      const e = this.elements.get(up.id);
-      if (!e) throw new Error(`no element "${up.id}" in this circuit`);
+    let recompile = false;
+    for (let k = 0; k < updates.length; k++) {
+      const up = updates[k]!;
+      const slot = this.slots.get(up.id);
+      if (!slot) throw new Error(`no element "${up.id}" in this circuit`);
       if (!Number.isFinite(up.value)) throw new Error(`value for ${up.id} must be finite`);
-      if (e.kind === 'resistor') {
+      if (slot.kind === 'resistor') {
         if (!(up.value > 0)) throw new Error(`${up.id}: resistance must be positive`);
-        this.elements.set(up.id, { ...e, ohms: up.value });
-      } else if (e.kind === 'capacitor') {
+        recompile = true;
+      } else if (slot.kind === 'capacitor') {
         if (!(up.value > 0)) throw new Error(`${up.id}: capacitance must be positive`);
-        this.elements.set(up.id, { ...e, farads: up.value });
-        const c = this.caps.find((x) => x.id === up.id);
-        if (c) c.farads = up.value;
-      } else if (e.kind === 'dc-source') {
-        this.elements.set(up.id, { ...e, volts: up.value });
-        const s = this.sources.find((x) => x.id === up.id);
-        if (s) s.volts = up.value;
+        recompile = true;
+      } else if (slot.kind !== 'dc-source') throw new Error(`${up.id}: a ${slot.kind} has no single value to set`);
+    }
+    for (let k = 0; k < updates.length; k++) {
+      const up = updates[k]!;
+      const slot = this.slots.get(up.id)!;
+      if (slot.kind === 'resistor') {
+        this.condOhms[slot.index] = up.value;
+        this.condSiemens[slot.index] = 1 / up.value;
+      } else if (slot.kind === 'capacitor') {
+        if (slot.index >= 0) this.capFarads[slot.index] = up.value;
+      } else {
+        if (slot.index >= 0) this.sourceVolts[slot.index] = up.value;
         this.op = null;
         this.constDirty = true;
-        continue;
-      } else throw new Error(`${up.id}: a ${e.kind} has no single value to set`);
+      }
     }
-    if (updates.some((u) => this.elements.get(u.id)?.kind !== 'dc-source')) this.compile();
+    if (recompile) this.compile();
   }
 
+  /** Open or close a switch (one recompilation, state kept; allocates nothing). */
   setSwitch(id: string, closed: boolean): void {
-    const e = this.elements.get(id);
-    if (!e || e.kind !== 'switch') throw new Error(`no switch "${id}" in this circuit`);
-    this.elements.set(id, { ...e, closed });
+    const slot = this.slots.get(id);
+    if (!slot || slot.kind !== 'switch') throw new Error(`no switch "${id}" in this circuit`);
+    this.condSiemens[slot.index] = closed ? 1 / this.condOhms[slot.index]! : 0;
     this.compile();
   }
 
   /** Tube sample factor (plate and screen current scale: weak < 1 < strong). */
   setTubeSample(id: string, factor: number): void {
-    const t = this.tubes.find((x) => x.el.id === id);
+    const t = this.tubeById.get(id);
     if (!t) throw new Error(`no tube "${id}" in this circuit`);
     if (!(factor > 0 && factor < 10)) throw new Error(`${id}: sample factor must be between 0 and 10`);
     t.device.sample = factor;
@@ -323,9 +405,9 @@ export class CircuitEngine {
 
   /** Per-sample override of a dc-source EMF (supply ripple); cheap, no recompilation. */
   setSourceVolts(id: string, volts: number): void {
-    const j = this.sources.findIndex((s) => s.id === id);
-    if (j < 0) throw new Error(`no dc-source "${id}"`);
-    this.sources[j]!.volts = volts;
+    const j = this.sourceIndex.get(id);
+    if (j === undefined) throw new Error(`no dc-source "${id}"`);
+    this.sourceVolts[j] = volts;
     this.constDirty = true;
   }
 
@@ -337,12 +419,15 @@ export class CircuitEngine {
   /** DC operating point: capacitors open, input at 0 V, supplies stepped up from zero. */
   operatingPoint(): OperatingPoint {
     if (this.op) return this.op;
-    if (!this.dc) this.dc = compileLinearNetwork(this.spec(false));
+    if (!this.dcValid) {
+      this.dcCompiler.compile(this.condSiemens, this.dcOhms, this.dc);
+      this.dcValid = true;
+    }
     const dc = this.dc;
     this.dcRoot.setF(dc.F);
     const ns = this.sources.length;
     const uFull = new Float64Array(ns);
-    this.sources.forEach((s, j) => { uFull[j] = j === 0 ? 0 : s.volts; });
+    for (let j = 1; j < ns; j++) uFull[j] = this.sourceVolts[j]!;
     const m = this.nlPorts.length;
     const p = new Float64Array(m);
     const solveAt = (steps: number): number => {

@@ -16,8 +16,8 @@
 // render quanta), acceptable for an explicit load behind a fade.
 //
 // Allocation: nothing on the per-block path of this file (ramps, meters and update lists are
-// pre-allocated). CircuitEngine.setValues allocates while it recompiles its matrices, so part
-// glides allocate on the steps they take (at most one recompile per slot per step).
+// pre-allocated), and CircuitEngine.setValues recompiles its matrices in place (tests/
+// engine-alloc.test.ts counts the collections during a glide: none).
 import {
   designCircuit, partValueUpdates, potResistors, validateDesign, withPart, DesignError,
   type Design, type Part, type PotPart, type TubePart,

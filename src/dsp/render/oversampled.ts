@@ -1,5 +1,5 @@
 // A circuit engine run at factor x the base rate between an interpolator and a decimator.
-import { CircuitEngine, type EngineCircuit } from '../circuit/engine.ts';
+import { CircuitEngine, type EngineCircuit, type EngineOptions } from '../circuit/engine.ts';
 import type { Netlist } from '../circuit/netlist.ts';
 import { Oversampler, type OversamplingFactor, type OversamplingQuality } from '../oversampling/oversampler.ts';
 
@@ -19,10 +19,10 @@ export class OversampledCircuit {
   private readonly hiOut: Float64Array;
   private outDc = 0;
 
-  constructor(circuit: EngineCircuit | Netlist, baseRateHz: number, factor: OversamplingFactor, quality?: OversamplingQuality) {
+  constructor(circuit: EngineCircuit | Netlist, baseRateHz: number, factor: OversamplingFactor, quality?: OversamplingQuality, engineOptions?: EngineOptions) {
     this.factor = factor;
     this.baseRateHz = baseRateHz;
-    this.engine = new CircuitEngine(circuit, baseRateHz * factor);
+    this.engine = new CircuitEngine(circuit, baseRateHz * factor, engineOptions);
     const opts = quality ? { quality } : undefined;
     this.up = new Oversampler(factor, opts);
     this.down = new Oversampler(factor, opts);

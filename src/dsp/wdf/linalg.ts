@@ -48,18 +48,29 @@ export function luSolve(lu: Float64Array, piv: Int32Array, n: number, b: Float64
 
 /** Inverse of an n x n matrix (input not modified). */
 export function invert(m: Float64Array, n: number): Float64Array {
-  const a = Float64Array.from(m);
-  const piv = luFactor(a, n);
   const inv = new Float64Array(n * n);
-  const col = new Float64Array(n);
-  const tmp = new Float64Array(n);
+  invertInto(Float64Array.from(m), n, inv, new Int32Array(n), new Float64Array(n), new Float64Array(n));
+  return inv;
+}
+
+/**
+ * Inverse of the n x n matrix `a` into `inv` without allocation: `a` is overwritten by its LU
+ * factors, `piv` (length n), `col` and `tmp` (length n each) are workspaces. With `columns`,
+ * only the columns j with columns[j] !== 0 are written (the others are left as they are).
+ * The same operations as `invert`, so the results are identical. Throws SingularMatrixError.
+ */
+export function invertInto(
+  a: Float64Array, n: number, inv: Float64Array, piv: Int32Array, col: Float64Array, tmp: Float64Array,
+  columns?: Uint8Array,
+): void {
+  luFactor(a, n, piv);
   for (let j = 0; j < n; j++) {
+    if (columns !== undefined && columns[j] === 0) continue;
     col.fill(0);
     col[j] = 1;
     luSolve(a, piv, n, col, tmp);
     for (let i = 0; i < n; i++) inv[i * n + j] = col[i]!;
   }
-  return inv;
 }
 
 /** C = A (r x k) * B (k x c). */
