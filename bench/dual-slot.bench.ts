@@ -40,7 +40,8 @@ function run(factor: OversamplingFactor, seconds: number) {
 function wrapperHeapBytesPerBlock(): number {
   const probes = new Float64Array(3);
   const stub: SlotModel = {
-    processSample: (v) => v * 0.5, latencySamples: 3, outputDcVolts: 0, probeValues: probes,
+    processSample: (v) => v * 0.5,
+    processRange: (src, dst, off, len) => { for (let k = off; k < off + len; k++) dst[k] = src[k]! * 0.5; }, latencySamples: 3, outputDcVolts: 0, probeValues: probes,
     setValues: () => {}, setSwitch: () => {}, setTubeSample: () => {}, reset: () => {},
   };
   const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 30, post: () => {}, createModel: () => stub, initial: [

@@ -207,6 +207,7 @@ describe('robustness', () => {
       let n = 0;
       return {
         processSample: (v) => { n++; return poison >= 0 && n >= poison ? Number.NaN : inner.processSample(v); },
+        processRange(src, dst, off, len) { for (let k = off; k < off + len; k++) dst[k] = this.processSample(src[k]!); },
         get latencySamples() { return inner.latencySamples; },
         get outputDcVolts() { return inner.outputDcVolts; },
         get probeValues() { return poison >= 0 && n >= poison ? bad : inner.probeValues; },

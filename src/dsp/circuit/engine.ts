@@ -152,7 +152,10 @@ export class CircuitEngine {
   private readonly Od: Float64Array;
   private readonly stage1: LinearStage1;
   private readonly stage2: LinearStage2;
-  private oConst = 0;
+  /** [0]: the output's constant (dc-source) part, in an array for the generated stage 2. */
+  private readonly oConst = new Float64Array(1);
+  /** [0] input, [1] output of processSample (see stepFrom). */
+  private readonly io = new Float64Array(2);
   private constDirty = true;
   private probeRows: Int32Array = new Int32Array(0);
   /** Probe node voltages after the last processed sample, in the order given to setProbes. */
@@ -345,7 +348,7 @@ export class CircuitEngine {
     let acc = 0;
     const on = this.outputNode;
     if (on >= 0) for (let s = 1; s < ns; s++) acc += tr.Zu[on * nu + nc + s]! * u[nc + s]!;
-    this.oConst = acc;
+    this.oConst[0] = acc;
     this.constDirty = false;
   }
 
@@ -499,22 +502,38 @@ export class CircuitEngine {
 
   /** One sample: input source EMF in volts, returns the output node voltage in volts. */
   processSample(vin: number): number {
-    if (this.constDirty) this.updateConstants();
-    const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
-    this.stage1(vin, capV, capVPrev, capI, this.capR, this.wA, this.wB, this.wC, this.Pd, this.pConst, x, this.u, p);
-    this.root.solve(p, TRANSIENT);
-    const out = this.stage2(this.root.i, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst);
-    if (this.probeRows.length > 0) for (let k = 0; k < this.probeRows.length; k++) this.probeValues[k] = this.nodeVoltage(this.probeRows[k]!);
-    return Number.isFinite(out) ? out : 0;
+    const io = this.io;
+    io[0] = vin;
+    this.stepFrom(io, 0, io, 1);
+    return io[1]!;
   }
 
-  private nodeVoltage(n: number): number {
-    if (n < 0) return 0;
-    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, i = this.root.i;
-    let acc = 0;
-    for (let c = 0; c < nu; c++) acc += tr.Zu[n * nu + c]! * u[c]!;
-    for (let c = 0; c < m; c++) acc += tr.Zi[n * m + c]! * i[c]!;
-    return acc;
+  /**
+   * One sample from src[k] (input volts) to dst[j] (output volts; 0 if not finite). The audio
+   * path calls this rather than processSample: no double crosses a call, so nothing is boxed.
+   */
+  stepFrom(src: Float64Array, k: number, dst: Float64Array, j: number): void {
+    if (this.constDirty) this.updateConstants();
+    const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
+    this.stage1(src, k, capV, capVPrev, capI, this.capR, this.wA, this.wB, this.wC, this.Pd, this.pConst, x, this.u, p);
+    this.root.solve(p, TRANSIENT);
+    this.stage2(this.root.i, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
+    if (this.probeRows.length > 0) this.writeProbes();
+  }
+
+  /** probeValues from the present leaf waves and root currents (one pass, no number results). */
+  private writeProbes(): void {
+    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, i = this.root.i, rows = this.probeRows, out = this.probeValues;
+    const Zu = tr.Zu, Zi = tr.Zi;
+    for (let k = 0; k < rows.length; k++) {
+      const n = rows[k]!;
+      let acc = 0;
+      if (n >= 0) {
+        for (let c = 0; c < nu; c++) acc += Zu[n * nu + c]! * u[c]!;
+        for (let c = 0; c < m; c++) acc += Zi[n * m + c]! * i[c]!;
+      }
+      out[k] = acc;
+    }
   }
 
   /** Process a block of input volts into output volts (arrays may be the same). */

@@ -20,20 +20,24 @@ export interface LinearShape {
 }
 
 /**
- * Stage 1: writes x[0..nc] = [w; vin], u[0..nc] likewise, and p. Arguments: vin, capV, capVPrev,
+ * Stage 1: writes x[0..nc] = [w; vin], u[0..nc] likewise, and p, with vin = src[k]. Arguments:
+ * src, k (where the input sample is: no double crosses the call, see below), capV, capVPrev,
  * capI, capR, wA, wB, wC (capacitor state and history coefficients), Pd (m × (nc+1) row-major),
  * pConst, x, u, p.
  */
-export type LinearStage1 = (vin: number, capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, capR: Float64Array,
+export type LinearStage1 = (src: Float64Array, k: number, capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, capR: Float64Array,
   wA: Float64Array, wB: Float64Array, wC: Float64Array, Pd: Float64Array, pConst: Float64Array, x: Float64Array, u: Float64Array, p: Float64Array) => void;
 
 /**
- * Stage 2: copies i into x[nc+1..], updates capV, capVPrev, capI, and returns the output volts.
- * Arguments: i, x, Cd (nc × (nc+1+m) row-major), cConst, invCapR, capV, capVPrev, capI, Od
- * (nc+1+m), oConst.
+ * Stage 2: copies i into x[nc+1..], updates capV, capVPrev, capI, and writes the output volts
+ * into dst[j] (0 if not finite). Arguments: i, x, Cd (nc × (nc+1+m) row-major), cConst, invCapR,
+ * capV, capVPrev, capI, Od (nc+1+m), oConst (oConst[0] is the output's constant part), dst, j.
+ *
+ * Inputs and outputs go through arrays, not number arguments or a number result: V8 boxes a
+ * double that crosses a call it does not inline (16 bytes each), and these calls are not inlined.
  */
 export type LinearStage2 = (i: Float64Array, x: Float64Array, Cd: Float64Array, cConst: Float64Array, invCapR: Float64Array,
-  capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, Od: Float64Array, oConst: number) => number;
+  capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, Od: Float64Array, oConst: Float64Array, dst: Float64Array, j: number) => void;
 
 function checkShape(s: LinearShape): void {
   if (!(Number.isInteger(s.nc) && s.nc >= 0 && s.nc <= 512 && Number.isInteger(s.m) && s.m >= 0 && s.m <= 64)) {
@@ -48,13 +52,13 @@ export function compileLinearStage1(s: LinearShape): LinearStage1 {
     L.push(`const x${j} = wA[${j}] * capV[${j}] + wB[${j}] * capVPrev[${j}] + wC[${j}] * capR[${j}] * capI[${j}];`);
     L.push(`x[${j}] = x${j}; u[${j}] = x${j};`);
   }
-  L.push(`const x${nc} = vin; x[${nc}] = vin; u[${nc}] = vin;`);
+  L.push(`const x${nc} = src[k]; x[${nc}] = x${nc}; u[${nc}] = x${nc};`);
   for (let r = 0; r < m; r++) {
     const t = [`pConst[${r}]`];
     for (let c = 0; c < nd; c++) t.push(`Pd[${r * nd + c}] * x${c}`);
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
-  return new Function('vin', 'capV', 'capVPrev', 'capI', 'capR', 'wA', 'wB', 'wC', 'Pd', 'pConst', 'x', 'u', 'p', L.join('\n')) as LinearStage1;
+  return new Function('src', 'k', 'capV', 'capVPrev', 'capI', 'capR', 'wA', 'wB', 'wC', 'Pd', 'pConst', 'x', 'u', 'p', L.join('\n')) as LinearStage1;
 }
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
@@ -68,8 +72,9 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
     L.push(`{ const v = ${t.join(' + ')};`);
     L.push(`  capI[${j}] = (v - x${j}) * invCapR[${j}]; capVPrev[${j}] = capV[${j}]; capV[${j}] = v; }`);
   }
-  const o = ['oConst'];
+  const o = ['oConst[0]'];
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
-  L.push(`return ${o.join(' + ')};`);
-  return new Function('i', 'x', 'Cd', 'cConst', 'invCapR', 'capV', 'capVPrev', 'capI', 'Od', 'oConst', L.join('\n')) as LinearStage2;
+  L.push(`const out = ${o.join(' + ')};`);
+  L.push('dst[j] = out - out === 0 ? out : 0;');
+  return new Function('i', 'x', 'Cd', 'cConst', 'invCapR', 'capV', 'capVPrev', 'capI', 'Od', 'oConst', 'dst', 'j', L.join('\n')) as LinearStage2;
 }

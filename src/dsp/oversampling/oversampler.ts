@@ -73,6 +73,7 @@ export class Oversampler {
   readonly stageDesigns: readonly HalfbandDesign[];
   private readonly stages: readonly HalfbandStage[];
   private readonly scratch: Float64Array;
+  private readonly one: Float64Array;
 
   constructor(factor: OversamplingFactor, options?: OversamplerOptions) {
     if (!FACTORS.includes(factor)) {
@@ -87,6 +88,7 @@ export class Oversampler {
     this.stageDesigns = designStages(factor, quality);
     this.stages = this.stageDesigns.map(makeStage);
     this.scratch = new Float64Array(Math.max(1, factor));
+    this.one = new Float64Array(1);
     let latency = 0;
     this.stages.forEach((stage, s) => {
       latency += stage.roundTripDelayLowSamples / 2 ** s;
@@ -114,6 +116,44 @@ export class Oversampler {
       src = dst;
       n *= 2;
     }
+  }
+
+  /**
+   * upsample(src[k], out) with the input read from an array: on the audio path no double
+   * crosses a call (V8 boxes doubles passed to calls it does not inline).
+   */
+  upsampleFrom(src: Float64Array, k: number, out: Float64Array): void {
+    if (out.length < this.factor) throw new Error(`Oversampler.upsample: out has ${out.length} samples, needs ${this.factor}`);
+    const stages = this.stages;
+    const count = stages.length;
+    const one = this.one;
+    one[0] = sanitize(src[k]!);
+    if (count === 0) { out[0] = one[0]!; return; }
+    let from: Float64Array = (count - 1) % 2 === 0 ? out : this.scratch;
+    (stages[0] as HalfbandStage).upsampleBlock(one, 1, from);
+    let n = 2;
+    for (let s = 1; s < count; s++) {
+      const dst = from === out ? this.scratch : out;
+      (stages[s] as HalfbandStage).upsampleBlock(from, n, dst);
+      from = dst;
+      n *= 2;
+    }
+  }
+
+  /** downsample(block) written into dst[k] instead of returned. */
+  downsampleInto(block: Float64Array, dst: Float64Array, k: number): void {
+    if (block.length < this.factor) throw new Error(`Oversampler.downsample: block has ${block.length} samples, needs ${this.factor}`);
+    const stages = this.stages;
+    const count = stages.length;
+    const buf = this.scratch;
+    const F = this.factor;
+    for (let i = 0; i < F; i++) buf[i] = sanitize(block[i] as number);
+    let n = F / 2;
+    for (let s = count - 1; s >= 0; s--) {
+      (stages[s] as HalfbandStage).downsampleBlock(buf, n, buf);
+      n /= 2;
+    }
+    dst[k] = buf[0]!;
   }
 
   /** `factor` oversampled samples (earliest first) in; one base-rate sample out. */

@@ -53,6 +53,11 @@ const INPUT_LIMIT = 1e3; // input samples outside ±this (or NaN) are read as 0
 export interface SlotModel {
   /** One base-rate sample: input volts to output volts. */
   processSample(vin: number): number;
+  /**
+   * processSample over src[off … off+len-1] into dst at the same indices: the per-block path
+   * (arrays in and out, so no double is boxed per sample).
+   */
+  processRange(src: Float64Array, dst: Float64Array, off: number, len: number): void;
   readonly latencySamples: number;
   /** Output node voltage at the operating point (subtracted from the output). */
   readonly outputDcVolts: number;
@@ -77,6 +82,7 @@ export const circuitModel: ModelFactory = (design, baseRateHz, factor) => {
   let dc = dcOf();
   return {
     processSample: (v) => oc.processSample(v),
+    processRange: (src, dst, off, len) => oc.processRange(src, dst, off, len),
     get latencySamples() { return oc.latencySamples; },
     get outputDcVolts() { return dc; },
     get probeValues() { return oc.engine.probeValues; },
@@ -583,6 +589,11 @@ export class DualSlotEngine {
 
   private faultA = false;
   private faultB = false;
+  // per-segment scratch (a segment is at most SMOOTHING_STEP_SAMPLES long)
+  private readonly vinBuf = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly dryBuf = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly yBufA = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly yBufB = new Float64Array(SMOOTHING_STEP_SAMPLES);
 
   private segment(input: ArrayLike<number> | null, output: { [k: number]: number }, off: number, len: number): void {
     const A = this.slots[0], B = this.slots[1];
@@ -592,29 +603,38 @@ export class DualSlotEngine {
     const limit = this.limiterOn, lim = this.limiter;
     let pos = this.dryPos, inPeak = this.inPeak, outPeak = this.outPeak;
     let faultA = false, faultB = false;
-    for (let k = off, end = off + len; k < end; k++) {
-      let x = input ? input[k]! : 0;
+    const vinBuf = this.vinBuf, dryBuf = this.dryBuf, yA = this.yBufA, yB = this.yBufB;
+    // Pass 1: calibrated input volts and the delayed dry signal.
+    for (let q = 0; q < len; q++) {
+      let x = input ? input[off + q]! : 0;
       if (!(x > -INPUT_LIMIT && x < INPUT_LIMIT)) x = 0;
       const vin = x * this.inCal.next();
       const av = vin < 0 ? -vin : vin;
       if (av > inPeak) inPeak = av;
       ring[pos] = x;
-      const dry = ring[(pos - delay) & mask]!;
+      dryBuf[q] = ring[(pos - delay) & mask]!;
       pos = (pos + 1) & mask;
-      let yA = 0, yB = 0;
+      vinBuf[q] = vin;
+    }
+    // Pass 2: each slot's circuit over the segment (arrays in and out: nothing boxed per sample).
+    if (mA) mA.processRange(vinBuf, yA, 0, len);
+    if (mB) mB.processRange(vinBuf, yB, 0, len);
+    // Pass 3: levels, fades, monitor mix, limiter.
+    for (let q = 0; q < len; q++) {
+      let a = 0, b = 0;
       if (mA) {
-        yA = (mA.processSample(vin) - dcA) * A.outScale.next() * A.fade.next();
-        if (!(yA > -FINITE_LIMIT && yA < FINITE_LIMIT)) { faultA = true; yA = 0; }
+        a = (yA[q]! - dcA) * A.outScale.next() * A.fade.next();
+        if (!(a > -FINITE_LIMIT && a < FINITE_LIMIT)) { faultA = true; a = 0; }
       }
       if (mB) {
-        yB = (mB.processSample(vin) - dcB) * B.outScale.next() * B.fade.next();
-        if (!(yB > -FINITE_LIMIT && yB < FINITE_LIMIT)) { faultB = true; yB = 0; }
+        b = (yB[q]! - dcB) * B.outScale.next() * B.fade.next();
+        if (!(b > -FINITE_LIMIT && b < FINITE_LIMIT)) { faultB = true; b = 0; }
       }
-      let y = (this.gA.next() * yA + this.gB.next() * yB + this.gDry.next() * dry) * this.master.next() * this.mute.next() * this.globalFade.next();
+      let y = (this.gA.next() * a + this.gB.next() * b + this.gDry.next() * dryBuf[q]!) * this.master.next() * this.mute.next() * this.globalFade.next();
       if (limit) y = lim.process(y);
       const ay = y < 0 ? -y : y;
       if (ay > outPeak) outPeak = ay;
-      output[k] = y;
+      output[off + q] = y;
     }
     this.dryPos = pos;
     this.inPeak = inPeak;

@@ -18,6 +18,7 @@ export class OversampledCircuit {
   private readonly hi: Float64Array;
   private readonly hiOut: Float64Array;
   private outDc = 0;
+  private readonly io = new Float64Array(2);
 
   constructor(circuit: EngineCircuit | Netlist, baseRateHz: number, factor: OversamplingFactor, quality?: OversamplingQuality, engineOptions?: EngineOptions) {
     this.factor = factor;
@@ -51,11 +52,25 @@ export class OversampledCircuit {
 
   /** One base-rate sample of input volts to output volts. */
   processSample(vin: number): number {
-    const f = this.factor;
-    if (f === 1) return this.engine.processSample(vin);
-    this.up.upsample(vin, this.hi);
-    for (let k = 0; k < f; k++) this.hiOut[k] = this.engine.processSample(this.hi[k]!);
-    return this.down.downsample(this.hiOut);
+    const io = this.io;
+    io[0] = vin;
+    this.processAt(io, 0, io, 1);
+    return io[1]!;
+  }
+
+  /** src[k] (input volts) to dst[j] (output volts), arrays only: the audio path's entry (no boxing). */
+  processAt(src: Float64Array, k: number, dst: Float64Array, j: number): void {
+    const f = this.factor, e = this.engine;
+    if (f === 1) { e.stepFrom(src, k, dst, j); return; }
+    const hi = this.hi, hiOut = this.hiOut;
+    this.up.upsampleFrom(src, k, hi);
+    for (let q = 0; q < f; q++) e.stepFrom(hi, q, hiOut, q);
+    this.down.downsampleInto(hiOut, dst, j);
+  }
+
+  /** processAt over src[off … off+len-1] into dst at the same indices (dst may be src). */
+  processRange(src: Float64Array, dst: Float64Array, off: number, len: number): void {
+    for (let k = off, end = off + len; k < end; k++) this.processAt(src, k, dst, k);
   }
 
   processBlock(input: ArrayLike<number>, output: { [k: number]: number; length: number }, n = input.length): void {

@@ -26,6 +26,8 @@ export class TriodeDevice implements RootDevice {
   sample: number;
   readonly functions: TubeFunctions;
   private readonly w = new Float64Array(8);
+  /** Inputs of the fused laws (models.ts calling convention): Vgk, Vpk, sample factor. */
+  private readonly x = new Float64Array(3);
   private readonly tables: TriodeTables | null;
   private readonly gridTab: HermiteTable | null;
 
@@ -39,10 +41,11 @@ export class TriodeDevice implements RootDevice {
   }
 
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
-    const vgk = v[o]!, vpk = v[o + 1]!, w = this.w;
-    if (!this.tables || !this.tableTriode(vgk, vpk)) korenTriodeInto(this.params, vgk, vpk, this.sample, w, 0);
+    const w = this.w, x = this.x;
+    x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = this.sample;
+    if (!this.tables || !this.tableTriode(x[0]!, x[1]!)) korenTriodeInto(this.params, x, 0, w, 0);
     if (this.grid) {
-      if (!this.gridTab || !this.gridTab.lookup(vgk, w, 3)) dempwolfZolzerGridInto(this.grid, vgk, w, 3);
+      if (!this.gridTab || !this.gridTab.lookup(x[0]!, w, 3)) dempwolfZolzerGridInto(this.grid, x, 0, w, 3);
     } else { w[3] = 0; w[4] = 0; }
     i[o] = w[3]!;
     i[o + 1] = w[0]!;
@@ -76,6 +79,8 @@ export class PentodeDevice implements RootDevice {
   sample: number;
   readonly functions: TubeFunctions;
   private readonly w = new Float64Array(16);
+  /** Inputs of the fused laws (models.ts calling convention): Vgk, Vpk, Vsk, sample factor. */
+  private readonly x = new Float64Array(4);
   private readonly tables: PentodeTables | null;
   private readonly gridTab: HermiteTable | null;
 
@@ -89,10 +94,11 @@ export class PentodeDevice implements RootDevice {
   }
 
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
-    const vgk = v[o]!, vpk = v[o + 1]!, vsk = v[o + 2]!, w = this.w;
-    if (!this.tables || !this.tablePentode(vgk, vpk, vsk)) korenPentodeInto(this.params, vgk, vpk, vsk, this.sample, w, 0);
+    const w = this.w, x = this.x;
+    x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = v[o + 2]!; x[3] = this.sample;
+    if (!this.tables || !this.tablePentode(x[0]!, x[1]!, x[2]!)) korenPentodeInto(this.params, x, 0, w, 0);
     if (this.grid) {
-      if (!this.gridTab || !this.gridTab.lookup(vgk, w, 7)) dempwolfZolzerGridInto(this.grid, vgk, w, 7);
+      if (!this.gridTab || !this.gridTab.lookup(x[0]!, w, 7)) dempwolfZolzerGridInto(this.grid, x, 0, w, 7);
     } else { w[7] = 0; w[8] = 0; }
     i[o] = w[7]!;
     i[o + 1] = w[0]!;
