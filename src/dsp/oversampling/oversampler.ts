@@ -98,24 +98,8 @@ export class Oversampler {
 
   /** One base-rate sample in; `factor` oversampled samples written to out[0 … factor-1]. */
   upsample(x: number, out: Float64Array): void {
-    if (out.length < this.factor) throw new Error(`Oversampler.upsample: out has ${out.length} samples, needs ${this.factor}`);
-    const stages = this.stages;
-    const count = stages.length;
-    const input = sanitize(x);
-    if (count === 0) {
-      out[0] = input;
-      return;
-    }
-    // Ping-pong between scratch and out so that the last stage writes into out.
-    let src: Float64Array = (count - 1) % 2 === 0 ? out : this.scratch;
-    (stages[0] as HalfbandStage).upsample(input, src, 0);
-    let n = 2;
-    for (let s = 1; s < count; s++) {
-      const dst = src === out ? this.scratch : out;
-      (stages[s] as HalfbandStage).upsampleBlock(src, n, dst);
-      src = dst;
-      n *= 2;
-    }
+    this.one[0] = sanitize(x);
+    this.upsampleOne(out);
   }
 
   /**
@@ -123,14 +107,31 @@ export class Oversampler {
    * crosses a call (V8 boxes doubles passed to calls it does not inline).
    */
   upsampleFrom(src: Float64Array, k: number, out: Float64Array): void {
+    this.one[0] = sanitize(src[k]!);
+    this.upsampleOne(out);
+  }
+
+  /** `factor` oversampled samples (earliest first) in; one base-rate sample out. */
+  downsample(block: Float64Array): number {
+    this.downsampleOne(block);
+    return this.scratch[0]!;
+  }
+
+  /** downsample(block) written into dst[k] instead of returned. */
+  downsampleInto(block: Float64Array, dst: Float64Array, k: number): void {
+    this.downsampleOne(block);
+    dst[k] = this.scratch[0]!;
+  }
+
+  /** Interpolates the sample in one[0] into out[0 … factor-1]. */
+  private upsampleOne(out: Float64Array): void {
     if (out.length < this.factor) throw new Error(`Oversampler.upsample: out has ${out.length} samples, needs ${this.factor}`);
     const stages = this.stages;
     const count = stages.length;
-    const one = this.one;
-    one[0] = sanitize(src[k]!);
-    if (count === 0) { out[0] = one[0]!; return; }
+    if (count === 0) { out[0] = this.one[0]!; return; }
+    // Ping-pong between scratch and out so that the last stage writes into out.
     let from: Float64Array = (count - 1) % 2 === 0 ? out : this.scratch;
-    (stages[0] as HalfbandStage).upsampleBlock(one, 1, from);
+    (stages[0] as HalfbandStage).upsampleBlock(this.one, 1, from);
     let n = 2;
     for (let s = 1; s < count; s++) {
       const dst = from === out ? this.scratch : out;
@@ -140,38 +141,19 @@ export class Oversampler {
     }
   }
 
-  /** downsample(block) written into dst[k] instead of returned. */
-  downsampleInto(block: Float64Array, dst: Float64Array, k: number): void {
+  /** Decimates block[0 … factor-1] into scratch[0]. */
+  private downsampleOne(block: Float64Array): void {
     if (block.length < this.factor) throw new Error(`Oversampler.downsample: block has ${block.length} samples, needs ${this.factor}`);
     const stages = this.stages;
-    const count = stages.length;
-    const buf = this.scratch;
-    const F = this.factor;
-    for (let i = 0; i < F; i++) buf[i] = sanitize(block[i] as number);
-    let n = F / 2;
-    for (let s = count - 1; s >= 0; s--) {
-      (stages[s] as HalfbandStage).downsampleBlock(buf, n, buf);
-      n /= 2;
-    }
-    dst[k] = buf[0]!;
-  }
-
-  /** `factor` oversampled samples (earliest first) in; one base-rate sample out. */
-  downsample(block: Float64Array): number {
-    if (block.length < this.factor) throw new Error(`Oversampler.downsample: block has ${block.length} samples, needs ${this.factor}`);
-    const stages = this.stages;
-    const count = stages.length;
-    if (count === 0) return sanitize(block[0] as number);
     const buf = this.scratch;
     const F = this.factor;
     for (let i = 0; i < F; i++) buf[i] = sanitize(block[i] as number);
     let n = F / 2;
     // Each stage works in place: output i is written after inputs 2i and 2i+1 are read.
-    for (let s = count - 1; s >= 0; s--) {
+    for (let s = stages.length - 1; s >= 0; s--) {
       (stages[s] as HalfbandStage).downsampleBlock(buf, n, buf);
       n /= 2;
     }
-    return buf[0] as number;
   }
 
   /** Steady state for a constant input `value` (default 0): no transient when the signal
