@@ -452,3 +452,23 @@ describe('interelectrode capacitance: Miller roll-off against the handbook formu
     expect(Math.abs(db(midband) - db(midNoCaps))).toBeLessThan(0.05);
   });
 });
+
+describe('a lifted cathode (single-pentode, S1 open)', () => {
+  // Common practice (no source): with its cathode return open, a tube's cathode floats up until
+  // the tube cuts off, which is what a cathode-lift switch relies on to silence a stage.
+  const d = TEMPLATES['single-pentode']!;
+  const lifted: Design = { ...d, parts: d.parts.map((p) => (p.id === 'S1' && p.kind === 'switch' ? { ...p, closed: false } : p)) };
+  it('has a DC operating point with the tube cut off, and a reset after lifting works', () => {
+    const op = new CircuitEngine(designCircuit(lifted), 96000).operatingPoint();
+    const t = op.tubes['V1']!;
+    expect(t.vgk).toBeLessThan(-5); // far beyond the EF86's cut-off at this screen voltage
+    expect(Math.abs(t.plateAmps)).toBeLessThan(1e-6);
+    expect(op.nodes['k1']!).toBeGreaterThan(1);
+    expect(op.nodes['k1']!).toBeLessThan(d.supply.volts);
+    const e = new CircuitEngine(designCircuit(d), 96000);
+    for (let k = 0; k < 2000; k++) e.processSample(0.3 * Math.sin(k * 0.03));
+    e.setSwitch('S1', false);
+    expect(() => e.resetToOperatingPoint()).not.toThrow();
+    for (let k = 0; k < 2000; k++) expect(Number.isFinite(e.processSample(0.3 * Math.sin(k * 0.03)))).toBe(true);
+  });
+});

@@ -75,6 +75,15 @@ export interface EngineOptions {
 }
 
 const GMIN_SIEMENS = 1e-12;
+/**
+ * An open switch is its insulation and leakage, 100 M (order of magnitude of a contact's and a
+ * board's leakage; common practice, no source), not an open circuit. A cut-off tube still passes
+ * the grid law's constant term ig0 (80 nA for the 12AX7 fit) into its cathode, so a lifted
+ * cathode with no DC return but gmin would have to float to ig0 / gmin = 80 kV and the DC solve
+ * fails; with 100 M it settles at a few volts, cut off, as a real lifted cathode does.
+ * (The netlist-v1 form still leaves an open switch out, as the spec says.)
+ */
+const OPEN_SWITCH_SIEMENS = 1e-8;
 // quadraticAccept: one device evaluation per sample when the Newton step is small (see newton-root.ts).
 const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true } as const;
 const DC = { toleranceVolts: 1e-11, maxIterations: 200 } as const;
@@ -212,7 +221,7 @@ export class CircuitEngine {
     this.capFarads = Float64Array.from(capFarads);
     this.sourceVolts = Float64Array.from(sourceVolts);
     this.sources.forEach((src, j) => { if (!this.sourceIndex.has(src.id)) this.sourceIndex.set(src.id, j); });
-    // conductances in element order: resistors, and switches (open: 0 S)
+    // conductances in element order: resistors, and switches (open: OPEN_SWITCH_SIEMENS)
     const condBranches: Branch[] = [], condOhms: number[] = [], condSiemens: number[] = [];
     const node = (n: string) => this.nodeIndex.get(n) ?? -1;
     for (const e of unique.values()) {
@@ -222,7 +231,7 @@ export class CircuitEngine {
         condBranches.push({ a: node(e.nodes[0]), b: node(e.nodes[1]) });
         const ohms = e.kind === 'resistor' ? e.ohms : e.contactOhms;
         condOhms.push(ohms);
-        condSiemens.push(e.kind === 'switch' && !e.closed ? 0 : 1 / ohms);
+        condSiemens.push(e.kind === 'switch' && !e.closed ? OPEN_SWITCH_SIEMENS : 1 / ohms);
       } else if (e.kind === 'capacitor') index = this.caps.findIndex((c) => c.id === e.id);
       else if (e.kind === 'dc-source') index = this.sources.findIndex((x) => x.id === e.id);
       this.slots.set(e.id, { kind: e.kind, index });
@@ -393,7 +402,7 @@ export class CircuitEngine {
   setSwitch(id: string, closed: boolean): void {
     const slot = this.slots.get(id);
     if (!slot || slot.kind !== 'switch') throw new Error(`no switch "${id}" in this circuit`);
-    this.condSiemens[slot.index] = closed ? 1 / this.condOhms[slot.index]! : 0;
+    this.condSiemens[slot.index] = closed ? 1 / this.condOhms[slot.index]! : OPEN_SWITCH_SIEMENS;
     this.compile();
   }
 
