@@ -14,6 +14,7 @@ import { humForRender } from '../hum.ts';
 export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--raw] [--hum 50|60]';
 const BLOCK = 8192;
 export const DEFAULT_RENDER_OVERSAMPLE = 8;
+const PROGRESS_INTERVAL_MS = 5000;
 
 export async function runRender(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['raw', 'json'], ['design', 'netlist', 'input', 'output', 'oversample', 'input-volts', 'hum']);
@@ -47,8 +48,17 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const hum = withHum ? humForRender(loaded0, humText!, fs).hum : null;
   const humEngine = model instanceof CircuitEngine ? model : model.engine;
   let nonFinite = 0;
+  // progress on stderr every few seconds of a long render (128x runs at about 0.17x real time)
+  const started = Date.now();
+  let lastReport = started;
   try {
     for (let f = 0; f < h.frameCount; f += BLOCK) {
+      const now = Date.now();
+      if (now - lastReport >= PROGRESS_INTERVAL_MS) {
+        lastReport = now;
+        const done = f / h.frameCount, left = ((now - started) / 1000) * (1 / done - 1);
+        io.err(`rendering ${inPath}: ${(100 * done).toFixed(0)} % (${(f / fs).toFixed(1)} of ${(h.frameCount / fs).toFixed(1)} s, about ${left.toFixed(0)} s left)`);
+      }
       const n = Math.min(BLOCK, h.frameCount - f);
       await reader.read(f, n, chans);
       for (let k = 0; k < n; k++) {
