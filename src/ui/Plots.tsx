@@ -97,12 +97,16 @@ export function ScopePlot({ trace, position, duration, chosen }: { trace: () => 
       const span = Math.max(hi - lo, 0.05);
       const y0 = k * rowH;
       g.strokeStyle = colours[k % colours.length]!; g.lineWidth = 1; g.beginPath();
-      const step = Math.max(1, Math.floor(d.length / w));
+      // min-max columns, each joined to the last value of the column before (so a step or a fast
+      // swing draws as a line, not as separated dashes)
+      let prev = Number.NaN;
       for (let px = 0; px < w; px++) {
-        const i0 = Math.floor((px / w) * d.length);
+        const i0 = Math.floor((px / w) * d.length), i1 = Math.max(i0 + 1, Math.floor(((px + 1) / w) * d.length));
         let mn = Infinity, mx = -Infinity;
-        for (let i = i0; i < Math.min(d.length, i0 + step); i++) { mn = Math.min(mn, d[i]!); mx = Math.max(mx, d[i]!); }
+        for (let i = i0; i < Math.min(d.length, i1); i++) { mn = Math.min(mn, d[i]!); mx = Math.max(mx, d[i]!); }
         if (!Number.isFinite(mn)) continue;
+        if (Number.isFinite(prev)) { mn = Math.min(mn, prev); mx = Math.max(mx, prev); }
+        prev = d[Math.min(d.length, i1) - 1]!;
         const ya = y0 + 4 + ((hi - mx) / span) * (rowH - 16), yb = y0 + 4 + ((hi - mn) / span) * (rowH - 16);
         g.moveTo(px + 0.5, ya); g.lineTo(px + 0.5, Math.max(yb, ya + 1));
       }
