@@ -286,7 +286,7 @@ export function App(): ReactElement {
             </label>
             <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''})</span>
           </div>
-          <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} factor={quality} />
+          <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} />
           <div className="row live">
             {status?.live === 'off' || !status ? (
               <button type="button" onClick={() => setCaution('live')}>Live input…</button>

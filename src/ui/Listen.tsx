@@ -82,7 +82,18 @@ export function Meters({ port }: { port: AudioPort }): ReactElement {
 }
 
 /** Renders the loop region (or the whole clip) for A, B and dry in a worker and downloads the pack. */
-export function ClientPack({ clip, loop, designA, designB, voltsAtFullScale, factor }: { clip: SourceClip | null; loop: LoopRegion | null; designA: Design; designB: Design; voltsAtFullScale: number; factor: OversamplingFactor }): ReactElement {
+/**
+ * Oversampling offered for client clips (offline, in a worker). Aliases measured with
+ * npx tsx bench/alias.bench.ts (pentode-triode, 1 V peak sines near 1 / 2.5 kHz).
+ */
+const PACK_QUALITIES: readonly { factor: OversamplingFactor; label: string }[] = [
+  { factor: 8, label: '8× (quick; aliases about −62 / −52 dB)' },
+  { factor: 32, label: '32× (aliases about −97 / −83 dB)' },
+  { factor: 128, label: '128× (best; about 1/6 real time)' },
+];
+
+export function ClientPack({ clip, loop, designA, designB, voltsAtFullScale }: { clip: SourceClip | null; loop: LoopRegion | null; designA: Design; designB: Design; voltsAtFullScale: number }): ReactElement {
+  const [factor, setFactor] = useState<OversamplingFactor>(32);
   const [state, setState] = useState<{ kind: 'idle' } | { kind: 'busy'; fraction: number; stage: string } | { kind: 'done'; text: string } | { kind: 'failed'; text: string }>({ kind: 'idle' });
   const worker = useRef<Worker | null>(null);
   const nextId = useRef(0);
@@ -124,6 +135,11 @@ export function ClientPack({ clip, loop, designA, designB, voltsAtFullScale, fac
   return (
     <div className="row pack" role="group" aria-label="Client pack">
       <button type="button" onClick={start} disabled={busy} data-testid="render-pack" aria-describedby="pack-status">Render client pack</button>
+      <label className="inline-label">at
+        <select value={factor} disabled={busy} onChange={(e) => setFactor(Number(e.target.value) as OversamplingFactor)}>
+          {PACK_QUALITIES.map((q) => <option key={q.factor} value={q.factor}>{q.label}</option>)}
+        </select>
+      </label>
       {busy && <button type="button" onClick={cancel}>Cancel</button>}
       {busy && <progress max={1} value={state.fraction} aria-label="Client pack progress" data-testid="pack-progress" />}
       <span id="pack-status" className={`fine${state.kind === 'failed' ? ' warn' : ''}`} role={state.kind === 'failed' ? 'alert' : 'status'} data-testid="pack-status">

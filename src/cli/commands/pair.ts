@@ -22,10 +22,14 @@ import {
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { CliError, loadDesign, optNumber, optString, parseArgs } from '../args.ts';
 import { openWavFile, WavFileWriter, type WavFileReader } from '../wav-file.ts';
-import { DEFAULT_RENDER_OVERSAMPLE } from './render.ts';
+/**
+ * Clips for clients are rendered at 32x by default: aliases about -97 / -83 dB on the two-stage
+ * template (npx tsx bench/alias.bench.ts) at about 0.6x real time; render's own default is 8x.
+ */
+export const PAIR_DEFAULT_OVERSAMPLE: OversamplingFactor = 32;
 import type { CommandIO } from '../main.ts';
 
-export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
+export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
 const BLOCK = 8192;
 const MAX_WRITE_PASSES = 4;
 
@@ -120,7 +124,7 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
   const refs = (a.all.get('design') ?? []).filter((v): v is string => typeof v === 'string');
   if (dry && refs.length !== 1) throw new CliError(`--dry pairs the DI with one design: give exactly one --design (got ${refs.length})`);
   if (!dry && refs.length !== 2) throw new CliError(`give two designs (--design A --design B) or --dry and one --design (got ${refs.length} --design)`);
-  const factor = optNumber(a, 'oversample', DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128')) as OversamplingFactor;
+  const factor = optNumber(a, 'oversample', PAIR_DEFAULT_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128')) as OversamplingFactor;
   const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   const ceilingDbtp = optNumber(a, 'peak-ceiling', -1, (x) => (x <= 0 && x >= -60 ? null : 'must be between -60 and 0 dBTP'));
   const targetLufs = a.options.has('target-lufs') ? optNumber(a, 'target-lufs', 0, (x) => (x < 0 && x > -70 ? null : 'must be between -70 and 0 LUFS')) : undefined;
