@@ -2,7 +2,8 @@
 // Run: npx tsx bench/alias.bench.ts [--template pentode-triode] [--volts 1]
 import { designCircuit } from '../src/dsp/circuit/design.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
-import { OversampledCircuit, OVERSAMPLING_FACTORS } from '../src/dsp/render/oversampled.ts';
+import { BEST_OVERSAMPLING_FACTOR, OversampledCircuit, OVERSAMPLING_FACTORS } from '../src/dsp/render/oversampled.ts';
+import { DEFAULT_LIVE_FACTOR } from '../src/dsp/realtime/dual-slot-engine.ts';
 import { aliasFreeTestFrequency, measureAliasing } from '../src/dsp/analysis/aliasing.ts';
 
 const args = process.argv.slice(2);
@@ -13,7 +14,7 @@ const fs = 48000, n = 65536, settle = Math.round(0.5 * fs);
 const design = TEMPLATES[template];
 if (!design) throw new Error(`unknown template ${template}`);
 
-const rows = [];
+const rows: { inputHz: number; oversample: number; aliasDb: number; latencyMs: number; realTimeFactor: number }[] = [];
 for (const target of [1000, 2500]) {
   const f0 = aliasFreeTestFrequency(target, fs, n);
   for (const factor of OVERSAMPLING_FACTORS) {
@@ -30,4 +31,12 @@ for (const target of [1000, 2500]) {
     console.error(JSON.stringify(rows[rows.length - 1]));
   }
 }
-console.log(JSON.stringify({ command: `npx tsx bench/alias.bench.ts --template ${template} --volts ${volts}`, template, inputVoltsPeak: volts, baseRateHz: fs, band: [20, 15000], rows }, null, 2));
+// issue goals: aliases at least 50 dB down at the live default, 70 dB at the best quality, and
+// under 1 ms of added latency at the live default
+const worst = (factor: number) => Math.max(...rows.filter((r) => r.oversample === factor).map((r) => r.aliasDb));
+const live = rows.find((r) => r.oversample === DEFAULT_LIVE_FACTOR);
+const goals = {
+  liveDefault: { factor: DEFAULT_LIVE_FACTOR, worstAliasDb: worst(DEFAULT_LIVE_FACTOR), goalDb: -50, met: worst(DEFAULT_LIVE_FACTOR) <= -50, latencyMs: live?.latencyMs ?? null, latencyMet: (live?.latencyMs ?? Infinity) < 1 },
+  best: { factor: BEST_OVERSAMPLING_FACTOR, worstAliasDb: worst(BEST_OVERSAMPLING_FACTOR), goalDb: -70, met: worst(BEST_OVERSAMPLING_FACTOR) <= -70 },
+};
+console.log(JSON.stringify({ command: `npx tsx bench/alias.bench.ts --template ${template} --volts ${volts}`, template, inputVoltsPeak: volts, baseRateHz: fs, band: [20, 15000], rows, goals }, null, 2));

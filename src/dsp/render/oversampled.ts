@@ -4,6 +4,8 @@ import type { Netlist } from '../circuit/netlist.ts';
 import { Oversampler, type OversamplingFactor, type OversamplingQuality } from '../oversampling/oversampler.ts';
 
 export const OVERSAMPLING_FACTORS: readonly OversamplingFactor[] = [1, 2, 4, 8, 16, 32, 64, 128];
+/** The best quality, for final offline renders (`render --oversample 128`). */
+export const BEST_OVERSAMPLING_FACTOR: OversamplingFactor = 128;
 
 export function isOversamplingFactor(x: number): x is OversamplingFactor {
   return (OVERSAMPLING_FACTORS as readonly number[]).includes(x);
