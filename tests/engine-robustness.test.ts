@@ -9,6 +9,7 @@
 //     no failed solve and node voltages inside the supply rails (maximum principle);
 //  4. tube interelectrode capacitances against the handbook Miller formula.
 import { describe, expect, it } from 'vitest';
+import { makeRandom } from '../src/dsp/random.ts';
 import { compileNewtonStep, PIVOT_RATIO } from '../src/dsp/wdf/newton-kernel.ts';
 import { CircuitEngine, type CapacitorIntegration, type EngineCircuit } from '../src/dsp/circuit/engine.ts';
 import { DESIGN_SCHEMA, designCircuit, validateDesign, type Design } from '../src/dsp/circuit/design.ts';
@@ -17,17 +18,6 @@ import { sweep } from '../src/dsp/analysis/ac.ts';
 import { linearNetwork, type LinearNetwork } from '../src/dsp/analysis/linear.ts';
 import { tubeType } from '../src/dsp/tubes/library.ts';
 
-/** Mulberry32: a tiny seeded PRNG (public-domain generator), uniform in [0, 1). */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 // ---------------------------------------------------------------------------------------------
 // 1. Newton-step kernel
@@ -146,7 +136,7 @@ function relativeResidual(J: Float64Array, delta: Float64Array, g: Float64Array,
 
 describe('generated Newton step (compileNewtonStep) against the linear system J·δ = -g', () => {
   it('on random matrices and patterns: when it accepts, J·δ = -g (explicit product) and r[m] = Σ g²', () => {
-    const rand = prng(20261201);
+    const rand = makeRandom(20261201);
     let accepted = 0, declined = 0, worst = 0;
     const scales = [0.05, 0.3, 1, 3];
     for (let trial = 0; trial < 600; trial++) {

@@ -1,6 +1,7 @@
 // The AudioWorklet processor (worklets/circuit.worklet.ts) run in Node with shimmed worklet
 // globals, and its core (src/dsp/realtime/dual-slot-engine.ts).
 import { beforeAll, describe, expect, it } from 'vitest';
+import { makeRandom } from '../src/dsp/random.ts';
 import { installShim, makeProcessor } from './helpers/worklet-shim.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { designCircuit, withPart, type Design, type Part, type PotPart, type ResistorPart } from '../src/dsp/circuit/design.ts';
@@ -45,17 +46,6 @@ function maxAbs(y: ArrayLike<number>, from: number, to: number): number {
   let m = 0;
   for (let k = from; k < to; k++) m = Math.max(m, Math.abs(y[k]!));
   return m;
-}
-/** Deterministic PRNG (mulberry32). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
 }
 const part = <T extends Part>(d: Design, id: string): T => d.parts.find((p) => p.id === id) as T;
 const meters = (m: readonly FromProcessor[]): MeterReport[] => m.filter((x): x is MeterReport => x.type === 'meter');
@@ -158,7 +148,7 @@ describe('block processing', () => {
 
 describe('robustness', () => {
   it('never emits NaN/Inf or exceeds the ceiling under a seeded random message storm', () => {
-    const r = rng(20240607);
+    const r = makeRandom(20240607);
     const designs = [TT, PT, SP];
     const pick = <T,>(xs: readonly T[]): T => xs[Math.floor(r() * xs.length)]!;
     const p = makeProcessor({ initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT }, { type: 'set-live-input', live: true }] });

@@ -4,6 +4,7 @@ import { designCircuit, type Design, type Part } from '../circuit/design.ts';
 import { CircuitEngine, type OperatingPoint } from '../circuit/engine.ts';
 import { tubeType } from '../tubes/library.ts';
 import { gainAt } from './ac.ts';
+import { makeRandom } from '../random.ts';
 
 /** Tube sample strength range, x nominal plate current (tube tester's article, check-values.md, confirmed). */
 export const TUBE_SPREAD = { low: 0.66, high: 1.33 } as const;
@@ -33,14 +34,7 @@ export interface SpreadRun {
 export function runStream(seed: number, run: number): () => number {
   let h = (Math.imul((seed >>> 0) ^ 0x9e3779b9, 0x85ebca6b) ^ Math.imul(run + 1, 0xc2b2ae35)) >>> 0;
   h = Math.imul(h ^ (h >>> 16), 0x7feb352d) >>> 0;
-  let a = h;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  return makeRandom(h);
 }
 
 function tolOf(p: Part): number {

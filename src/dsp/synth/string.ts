@@ -5,6 +5,10 @@
 // The loop's total phase delay at f0 is set to exactly fs/f0 samples, so the pitch is exact.
 // The loss filter is the one-pole form used by Valimaki et al. (1996) (from memory).
 
+import { makeRandom } from '../random.ts';
+
+export { makeRandom };
+
 export interface StringLoopDesign {
   /** fs / f0: the loop's required total phase delay at f0, in samples. */
   readonly totalDelaySamples: number;
@@ -98,17 +102,6 @@ export function loopPhaseDelaySamples(design: StringLoopDesign, frequencyHz: num
   );
 }
 
-/** Small deterministic PRNG (mulberry32), uniform in [0, 1). */
-export function makeRandom(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** Pick contact time (s): a hard pick releases the string in tens of microseconds, flesh in about a millisecond (by ear). */
 export function pickContactSeconds(pickHardness: number, velocity: number): number {

@@ -1,0 +1,13 @@
+// Seeded pseudo-random numbers for reproducible synthesis, Monte Carlo runs and test inputs.
+
+/** Small deterministic PRNG (mulberry32, public-domain generator), uniform in [0, 1). */
+export function makeRandom(seed: number): () => number {
+  let s = seed >>> 0;
+  return () => {
+    s = (s + 0x6d2b79f5) >>> 0;
+    let t = s;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
