@@ -5,6 +5,7 @@
 // All nonlinear ports are solved together, so direct-coupled stages need no unit delay.
 import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
+import { RootAverager, type AveragingOptions } from '../wdf/averaged-root.ts';
 import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
@@ -72,9 +73,30 @@ export interface ValueUpdate {
 export interface EngineOptions {
   /** 'exact' (default): the netlist-v1 equations; 'table': tabulated tube laws (tubes/tables.ts). */
   readonly tubeFunctions?: TubeFunctions;
+  /**
+   * 'averaged' (default): the root's currents are their mean over each sample step, first-order
+   * antiderivative anti-aliasing by quadrature (wdf/averaged-root.ts); 'off': the end-point
+   * currents (the plain discretisation, for comparisons).
+   */
+  readonly antialiasing?: Antialiasing;
+  /** Quadrature tolerance and depth of 'averaged' (default DEFAULT_AVERAGING). */
+  readonly averaging?: AveragingOptions;
 }
 
+export type Antialiasing = 'averaged' | 'off';
+
 const GMIN_SIEMENS = 1e-12;
+/**
+ * With antialiasing 'averaged', capacitors below this are integrated by BDF2 whatever the
+ * netlist says. Such a capacitance (a stray or interelectrode one, or a small bright cap) on
+ * tens of kilohms is stiff: the trapezoidal rule leaves it an undamped mode near z = -1, and
+ * the averaged root's half-sample delay inside that loop makes it grow. Measured: the
+ * triode-triode template as a netlist (trapezoidal 1.6 pF) at rest, 1x, oscillated at Nyquist
+ * with 2 V at the output within 1500 samples; with BDF2 it stays within 1e-9 V. 100 pF on
+ * 1 M is still 100 us, five sample periods at 48 kHz, so larger capacitors keep the
+ * trapezoidal rule. (Common practice for the threshold; no source.)
+ */
+export const STIFF_BELOW_FARADS = 100e-12;
 /**
  * An open switch is its insulation and leakage, 100 M (order of magnitude of a contact's and a
  * board's leakage; common practice, no source), not an open circuit. A cut-off tube still passes
@@ -135,6 +157,10 @@ export class CircuitEngine {
   private readonly dc: RootMatrices;
   private dcValid = false;
   private readonly root: NewtonRoot;
+  /** Mean of the root's currents over each step (null when antialiasing is off). */
+  private readonly averager: RootAverager | null;
+  /** What the linear part integrates: the averager's mean, or the root's end-point currents. */
+  private readonly rootCurrents: Float64Array;
   private readonly dcRoot: NewtonRoot;
   // state and scratch (allocated once)
   private readonly capV: Float64Array;
@@ -187,9 +213,11 @@ export class CircuitEngine {
       return i;
     };
     const capFarads: number[] = [];
+    const averaged = (options.antialiasing ?? 'averaged') === 'averaged';
     for (const e of circuit.elements) {
       if (e.kind === 'capacitor') {
-        this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, bdf2: 'integration' in e && e.integration === 'bdf2' });
+        const bdf2 = ('integration' in e && e.integration === 'bdf2') || (averaged && e.farads < STIFF_BELOW_FARADS);
+        this.caps.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, bdf2 });
         capFarads.push(e.farads);
       }
     }
@@ -274,6 +302,8 @@ export class CircuitEngine {
     this.stage2 = compileLinearStage2({ nc: this.caps.length, m });
     this.compile();
     this.root = new NewtonRoot(this.devices, this.tr.F);
+    this.averager = (options.antialiasing ?? 'averaged') === 'averaged' ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
+    this.rootCurrents = this.averager ? this.averager.iMean : this.root.i;
     this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
     this.resetToOperatingPoint();
   }
@@ -290,6 +320,11 @@ export class CircuitEngine {
     return this.sampleRateHz;
   }
 
+  /** Delay of the root averaging, in (engine-rate) samples: 0.5 when 'averaged', else 0. */
+  get averagingDelaySamples(): number {
+    return this.averager ? 0.5 : 0;
+  }
+
   /**
    * The compiled transient matrices (for checks). Value changes recompile them in place, so the
    * arrays are the same objects for the engine's life; do not modify them.
@@ -299,8 +334,8 @@ export class CircuitEngine {
   }
 
   /** Newton statistics of the transient root. */
-  get solverStats(): { solves: number; iterations: number; failures: number } {
-    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures };
+  get solverStats(): { solves: number; iterations: number; failures: number; interiorSolves: number } {
+    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures, interiorSolves: this.averager?.counts[1] ?? 0 };
   }
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */
@@ -318,6 +353,7 @@ export class CircuitEngine {
     this.dcValid = false;
     // NewtonRoot copies F (transposed) into its own storage; this.tr.F is the same array throughout
     this.root?.setF(this.tr.F);
+    this.averager?.setF(this.tr.F);
     this.op = null;
   }
 
@@ -496,6 +532,7 @@ export class CircuitEngine {
       this.capI[j] = 0;
     });
     this.root.setState(this.dcRoot.v);
+    this.averager?.reset();
   }
 
   /** Choose node voltages to read after every sample (probeValues). */
@@ -525,8 +562,10 @@ export class CircuitEngine {
     if (this.constDirty) this.updateConstants();
     const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
     this.stage1(src, k, capV, capVPrev, capI, this.capR, this.wA, this.wB, this.wC, this.Pd, this.pConst, x, this.u, p);
-    this.root.solve(p, TRANSIENT);
-    this.stage2(this.root.i, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
+    const root = this.root;
+    root.solve(p, TRANSIENT);
+    if (this.averager) this.averager.step(p, root.v, root.i);
+    this.stage2(this.rootCurrents, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
     if (this.probeRows.length > 0) this.writeProbes();
   }
 

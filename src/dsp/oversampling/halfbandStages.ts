@@ -34,6 +34,24 @@ function runAllpassChain(coefs: Float64Array, state: Float64Array, x: number): n
   return input;
 }
 
+/**
+ * runAllpassChain on io[k] in place, for the block paths: no double crosses the call. When V8
+ * does not inline a call it boxes a double argument and result; whether it inlines depends on
+ * the caller's size, so the per-sample engine's growth made the oversampler allocate (measured:
+ * bundled DualSlotEngine, 2x, up to 37 bytes per sample).
+ */
+function allpassChainAt(coefs: Float64Array, state: Float64Array, io: Float64Array, k: number): void {
+  let input = io[k]!;
+  const n = coefs.length;
+  for (let i = 0; i < n; i++) {
+    const y = coefs[i]! * (input - state[i + 1]!) + state[i]!;
+    state[i] = input;
+    input = y;
+  }
+  state[n] = input;
+  io[k] = input;
+}
+
 /** DC group delay of (a + z⁻²)/(1 + a·z⁻²) at the high rate: 2·(1 - a)/(1 + a) (first-order
  * allpass group delay at ω = 0, standard result, e.g. Regalia, Mitra & Vaidyanathan,
  * "The digital all-pass filter: a versatile signal processing building block", Proc. IEEE 1988,
@@ -59,6 +77,8 @@ export class IirHalfbandStage implements HalfbandStage {
   private readonly up1: Float64Array;
   private readonly dn0: Float64Array;
   private readonly dn1: Float64Array;
+  /** Scratch for the decimator's two path inputs. */
+  private readonly pair = new Float64Array(2);
 
   constructor(design: EllipticHalfbandDesign) {
     this.design = design;
@@ -90,19 +110,28 @@ export class IirHalfbandStage implements HalfbandStage {
 
   upsampleBlock(src: Float64Array, count: number, dst: Float64Array): void {
     const { c0, c1, up0, up1 } = this;
+    // backwards, so that dst may be src (output 2i and 2i+1 are written after input i is read)
+    for (let i = count - 1; i >= 0; i--) {
+      const g = src[i]! + DENORMAL_GUARD;
+      dst[2 * i] = g;
+      dst[2 * i + 1] = g;
+    }
     for (let i = 0; i < count; i++) {
-      const g = (src[i] as number) + DENORMAL_GUARD;
-      dst[2 * i] = runAllpassChain(c0, up0, g) - DENORMAL_GUARD;
-      dst[2 * i + 1] = runAllpassChain(c1, up1, g) - DENORMAL_GUARD;
+      allpassChainAt(c0, up0, dst, 2 * i);
+      allpassChainAt(c1, up1, dst, 2 * i + 1);
+      dst[2 * i] = dst[2 * i]! - DENORMAL_GUARD;
+      dst[2 * i + 1] = dst[2 * i + 1]! - DENORMAL_GUARD;
     }
   }
 
   downsampleBlock(src: Float64Array, count: number, dst: Float64Array): void {
-    const { c0, c1, dn0, dn1 } = this;
+    const { c0, c1, dn0, dn1, pair } = this;
     for (let i = 0; i < count; i++) {
-      const x0 = (src[2 * i] as number) + DENORMAL_GUARD;
-      const x1 = (src[2 * i + 1] as number) + DENORMAL_GUARD;
-      dst[i] = 0.5 * (runAllpassChain(c0, dn0, x1) + runAllpassChain(c1, dn1, x0)) - DENORMAL_GUARD;
+      pair[0] = src[2 * i + 1]! + DENORMAL_GUARD;
+      pair[1] = src[2 * i]! + DENORMAL_GUARD;
+      allpassChainAt(c0, dn0, pair, 0);
+      allpassChainAt(c1, dn1, pair, 1);
+      dst[i] = 0.5 * (pair[0]! + pair[1]!) - DENORMAL_GUARD;
     }
   }
 

@@ -107,7 +107,8 @@ export class Oversampler {
    * crosses a call (V8 boxes doubles passed to calls it does not inline).
    */
   upsampleFrom(src: Float64Array, k: number, out: Float64Array): void {
-    this.one[0] = sanitize(src[k]!);
+    const x = src[k]!;
+    this.one[0] = x > INPUT_LIMIT ? INPUT_LIMIT : x < -INPUT_LIMIT ? -INPUT_LIMIT : x === x ? x : 0;
     this.upsampleOne(out);
   }
 
@@ -147,7 +148,11 @@ export class Oversampler {
     const stages = this.stages;
     const buf = this.scratch;
     const F = this.factor;
-    for (let i = 0; i < F; i++) buf[i] = sanitize(block[i] as number);
+    for (let i = 0; i < F; i++) {
+      // sanitize inline (a double returned from a call that is not inlined is boxed)
+      const x = block[i]!;
+      buf[i] = x > INPUT_LIMIT ? INPUT_LIMIT : x < -INPUT_LIMIT ? -INPUT_LIMIT : x === x ? x : 0;
+    }
     let n = F / 2;
     // Each stage works in place: output i is written after inputs 2i and 2i+1 are read.
     for (let s = stages.length - 1; s >= 0; s--) {

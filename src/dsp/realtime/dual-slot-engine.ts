@@ -32,7 +32,7 @@ import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './m
  * Default live factor. Chosen from bench/worklet.browser.bench.ts and bench/dual-slot.bench.ts
  * (both slots, Hearthstone pentode front, 48 kHz): see the numbers in those benches' output.
  */
-export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 2;
+export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;
 export const CROSSFADE_SECONDS = 0.005;
 /** Pot and tube-sample glide: fast enough to follow a knob. */
 export const SMOOTHING_SECONDS = 0.02;
@@ -115,6 +115,27 @@ class Ramp {
       this.value = this.left === 0 ? this.target : this.value + this.inc;
     }
     return this.value;
+  }
+  /**
+   * buf[0 … len-1] *= the next len values (what len calls of next() would return). The audio
+   * path uses this: one call per segment, no double returned per sample (V8 boxes a double
+   * returned from a call it does not inline, and its inlining depends on the caller's size).
+   */
+  scaleInto(buf: Float64Array, len: number): void {
+    let left = this.left;
+    if (left === 0) {
+      const v = this.value;
+      for (let q = 0; q < len; q++) buf[q] = buf[q]! * v;
+      return;
+    }
+    let v = this.value;
+    const inc = this.inc, target = this.target;
+    for (let q = 0; q < len; q++) {
+      if (left > 0) { left--; v = left === 0 ? target : v + inc; }
+      buf[q] = buf[q]! * v;
+    }
+    this.left = left;
+    this.value = v;
   }
 }
 
@@ -594,6 +615,9 @@ export class DualSlotEngine {
   private readonly dryBuf = new Float64Array(SMOOTHING_STEP_SAMPLES);
   private readonly yBufA = new Float64Array(SMOOTHING_STEP_SAMPLES);
   private readonly yBufB = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly gainA = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly gainB = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly gainOut = new Float64Array(SMOOTHING_STEP_SAMPLES);
 
   private segment(input: ArrayLike<number> | null, output: { [k: number]: number }, off: number, len: number): void {
     const A = this.slots[0], B = this.slots[1];
@@ -604,11 +628,21 @@ export class DualSlotEngine {
     let pos = this.dryPos, inPeak = this.inPeak, outPeak = this.outPeak;
     let faultA = false, faultB = false;
     const vinBuf = this.vinBuf, dryBuf = this.dryBuf, yA = this.yBufA, yB = this.yBufB;
+    const gainA = this.gainA, gainB = this.gainB, gainOut = this.gainOut;
+    // Gains for the whole segment first (Ramp.scaleInto: no number returned per sample).
+    vinBuf.fill(1, 0, len);
+    this.inCal.scaleInto(vinBuf, len);
+    gainA.fill(1, 0, len);
+    A.outScale.scaleInto(gainA, len); A.fade.scaleInto(gainA, len); this.gA.scaleInto(gainA, len);
+    gainB.fill(1, 0, len);
+    B.outScale.scaleInto(gainB, len); B.fade.scaleInto(gainB, len); this.gB.scaleInto(gainB, len);
+    gainOut.fill(1, 0, len);
+    this.master.scaleInto(gainOut, len); this.mute.scaleInto(gainOut, len); this.globalFade.scaleInto(gainOut, len);
     // Pass 1: calibrated input volts and the delayed dry signal.
     for (let q = 0; q < len; q++) {
       let x = input ? input[off + q]! : 0;
       if (!(x > -INPUT_LIMIT && x < INPUT_LIMIT)) x = 0;
-      const vin = x * this.inCal.next();
+      const vin = x * vinBuf[q]!;
       const av = vin < 0 ? -vin : vin;
       if (av > inPeak) inPeak = av;
       ring[pos] = x;
@@ -616,22 +650,26 @@ export class DualSlotEngine {
       pos = (pos + 1) & mask;
       vinBuf[q] = vin;
     }
+    this.gDry.scaleInto(dryBuf, len);
     // Pass 2: each slot's circuit over the segment (arrays in and out: nothing boxed per sample).
     if (mA) mA.processRange(vinBuf, yA, 0, len);
     if (mB) mB.processRange(vinBuf, yB, 0, len);
-    // Pass 3: levels, fades, monitor mix, limiter.
+    // Pass 3: levels, fades and monitor mix into yA, then the limiter over the segment.
     for (let q = 0; q < len; q++) {
       let a = 0, b = 0;
       if (mA) {
-        a = (yA[q]! - dcA) * A.outScale.next() * A.fade.next();
+        a = (yA[q]! - dcA) * gainA[q]!;
         if (!(a > -FINITE_LIMIT && a < FINITE_LIMIT)) { faultA = true; a = 0; }
       }
       if (mB) {
-        b = (yB[q]! - dcB) * B.outScale.next() * B.fade.next();
+        b = (yB[q]! - dcB) * gainB[q]!;
         if (!(b > -FINITE_LIMIT && b < FINITE_LIMIT)) { faultB = true; b = 0; }
       }
-      let y = (this.gA.next() * a + this.gB.next() * b + this.gDry.next() * dryBuf[q]!) * this.master.next() * this.mute.next() * this.globalFade.next();
-      if (limit) y = lim.process(y);
+      yA[q] = (a + b + dryBuf[q]!) * gainOut[q]!;
+    }
+    if (limit) lim.processInPlace(yA, len);
+    for (let q = 0; q < len; q++) {
+      const y = yA[q]!;
       const ay = y < 0 ? -y : y;
       if (ay > outPeak) outPeak = ay;
       output[off + q] = y;

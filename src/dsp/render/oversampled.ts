@@ -34,9 +34,12 @@ export class OversampledCircuit {
     this.reset();
   }
 
-  /** Round-trip latency of the rate conversion, in base-rate samples. */
+  /**
+   * Round-trip latency of the rate conversion plus the root averaging's half fast-rate sample
+   * (wdf/averaged-root.ts), in base-rate samples.
+   */
   get latencySamples(): number {
-    return this.up.latencyBaseSamples;
+    return this.up.latencyBaseSamples + this.engine.averagingDelaySamples / this.factor;
   }
 
   /** Back to the DC operating point with the filters at steady state. */

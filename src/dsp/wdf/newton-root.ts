@@ -98,13 +98,17 @@ export class NewtonRoot {
   private F: Float64Array;
   /** F transposed (row t = column t of F), for the column-wise Jacobian build. */
   private readonly FT: Float64Array;
-  private kQuadratic = QUADRATIC_FLOOR_PER_VOLT;
+  /**
+   * Running scalars in a typed array, not fields: [0] the curvature constant K of
+   * quadraticAccept, [1..3] the linear / quadratic / cubic predictor error means. As object
+   * fields their stores boxed a number each (V8 generalised the field to tagged once a second
+   * root, the averager's, shared the class): measured with the bundled DualSlotEngine, 19 bytes
+   * per sample against ~1.
+   */
+  private readonly scalars = Float64Array.of(QUADRATIC_FLOOR_PER_VOLT, 0, 0, 0);
   private readonly predL: Float64Array;
   private readonly predQ: Float64Array;
   private readonly predC: Float64Array;
-  private errL = 0;
-  private errQ = 0;
-  private errC = 0;
   /** Extrapolation order of the next start (1 linear, 2 quadratic, 3 cubic). */
   private order: 1 | 2 | 3 = 1;
 
@@ -165,6 +169,12 @@ export class NewtonRoot {
     this.evaluate();
   }
 
+  /** Start the next (non-extrapolating) solve from `v`; no evaluation, history untouched. */
+  setStart(v: Float64Array): void {
+    const own = this.v;
+    for (let k = 0; k < this.m; k++) own[k] = v[k]!;
+  }
+
   /** Evaluate all devices at `v` (fills `i` and the d i/d v values). */
   private evaluate(): void {
     const devices = this.devices, offsets = this.offsets, dOffsets = this.dOffsets;
@@ -197,14 +207,12 @@ export class NewtonRoot {
         vPrev[k] = a;
       }
     } else {
-      vPrev3.set(vPrev2);
-      vPrev2.set(vPrev);
-      vPrev.set(v);
+      for (let k = 0; k < m; k++) { vPrev3[k] = vPrev2[k]!; vPrev2[k] = vPrev[k]!; vPrev[k] = v[k]!; }
     }
     this.solves++;
     if (quadratic) {
-      const kq = this.kQuadratic * QUADRATIC_DECAY;
-      this.kQuadratic = kq > QUADRATIC_FLOOR_PER_VOLT ? kq : QUADRATIC_FLOOR_PER_VOLT;
+      const kq = this.scalars[0]! * QUADRATIC_DECAY;
+      this.scalars[0] = kq > QUADRATIC_FLOOR_PER_VOLT ? kq : QUADRATIC_FLOOR_PER_VOLT;
     }
     let lastStep = 0;
     let bestG = Infinity;
@@ -251,9 +259,9 @@ export class NewtonRoot {
       const step = maxDelta * scale;
       if (quadratic && it === 2 && scale === 1 && lastStep > 0) {
         const kObs = step / (lastStep * lastStep);
-        if (kObs > this.kQuadratic) this.kQuadratic = kObs;
+        if (kObs > this.scalars[0]!) this.scalars[0] = kObs;
       }
-      if (step < tol || (quadratic && it === 1 && scale === 1 && this.kQuadratic * step * step < tol)) {
+      if (step < tol || (quadratic && it === 1 && scale === 1 && this.scalars[0]! * step * step < tol)) {
         // first-order current update for the last (small) step
         for (let z = 0; z < nnz; z++) i[nzRow[z]!]! += d[z]! * r[nzCol[z]!]!;
         if (opts.extrapolate) this.scorePredictors();
@@ -298,7 +306,9 @@ export class NewtonRoot {
     if (eQ > cap) eQ = cap;
     if (eC > cap) eC = cap;
     const a = PREDICTOR_MEMORY;
-    const sL = (this.errL = a * this.errL + eL), sQ = (this.errQ = a * this.errQ + eQ), sC = (this.errC = a * this.errC + eC);
+    const sc = this.scalars;
+    const sL = a * sc[1]! + eL, sQ = a * sc[2]! + eQ, sC = a * sc[3]! + eC;
+    sc[1] = sL; sc[2] = sQ; sc[3] = sC;
     this.order = sC < sQ && sC < sL ? 3 : sQ < sL ? 2 : 1;
   }
 
