@@ -27,7 +27,7 @@ const AX7 = TUBE_LIBRARY['12AX7']!.model;
 const F = Float64Array.of(-100e3, 0, 0, -100e3);
 const TIGHT = { toleranceVolts: 1e-4, maxDepth: 8 };
 
-function solveAt(p: Float64Array, start: Float64Array): { v: Float64Array; i: Float64Array } {
+function solveAt(p: Float64Array, start: Float64Array): { v: Float64Array<ArrayBuffer>; i: Float64Array<ArrayBuffer> } {
   const root = new NewtonRoot([new TriodeDevice(AX7, DZ_12AX7_GRID)], F);
   root.setState(start);
   const n = root.solve(p, { toleranceVolts: 1e-12, maxIterations: 200 });
@@ -44,8 +44,8 @@ function bruteMean(p0: Float64Array, p1: Float64Array, start: Float64Array, poin
     const p = Float64Array.of(p0[0]! + t * (p1[0]! - p0[0]!), p0[1]! + t * (p1[1]! - p0[1]!));
     const s = solveAt(p, guess);
     guess = s.v;
-    mean[0] += s.i[0]! / points;
-    mean[1] += s.i[1]! / points;
+    mean[0] = mean[0]! + s.i[0]! / points;
+    mean[1] = mean[1]! + s.i[1]! / points;
   }
   return mean;
 }
@@ -73,7 +73,7 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
   it('a smooth step needs no interior solve and equals the end-corrected trapezoid', () => {
     const av = new RootAverager([new TriodeDevice(AX7, DZ_12AX7_GRID)], F);
     const ps = [Float64Array.of(-1.50, 250), Float64Array.of(-1.49, 250), Float64Array.of(-1.48, 250)];
-    let guess = Float64Array.of(-1.5, 200);
+    let guess: Float64Array<ArrayBuffer> = Float64Array.of(-1.5, 200);
     const sols = ps.map((p) => { const s = solveAt(p, guess); guess = s.v; return s; });
     sols.forEach((s, k) => av.step(ps[k]!, s.v, s.i));
     expect(av.counts[1]).toBe(0);

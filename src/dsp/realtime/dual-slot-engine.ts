@@ -29,8 +29,10 @@ import { Oversampler, type OversamplingFactor } from '../oversampling/oversample
 import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './messages.ts';
 
 /**
- * Default live factor. Chosen from bench/worklet.browser.bench.ts and bench/dual-slot.bench.ts
- * (both slots, Hearthstone pentode front, 48 kHz): see the numbers in those benches' output.
+ * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
+ * more than 50 dB down (pentode-triode, 1 V near 1 / 2.5 kHz: -70.5 / -63.0 dB; 2x gives -52.3 /
+ * -50.3, at the goal's edge). Its cost: both slots take about 51 % of Chromium's audio thread
+ * (bench/worklet.browser.bench.ts).
  */
 export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;
 export const CROSSFADE_SECONDS = 0.005;
