@@ -35,10 +35,9 @@ function runAllpassChain(coefs: Float64Array, state: Float64Array, x: number): n
 }
 
 /**
- * runAllpassChain on io[k] in place, for the block paths: no double crosses the call. When V8
- * does not inline a call it boxes a double argument and result; whether it inlines depends on
- * the caller's size, so the per-sample engine's growth made the oversampler allocate (measured:
- * bundled DualSlotEngine, 2x, up to 37 bytes per sample).
+ * runAllpassChain on io[k] in place, for the block paths: no double crosses the call (V8 boxes
+ * a double passed to or returned from a call it does not inline, and whether it inlines depends
+ * on the caller's size).
  */
 function allpassChainAt(coefs: Float64Array, state: Float64Array, io: Float64Array, k: number): void {
   let input = io[k]!;

@@ -230,10 +230,8 @@ export class DualSlotEngine {
   // meters
   private readonly meterInterval: number;
   private sinceMeter = 0;
-  private inPeak = 0;
-  private outPeak = 0;
-  private busyMs = 0;
-  private budgetMs = 0;
+  /** Meter accumulators [input peak volts, output peak, busy ms, budget ms] (stores never box). */
+  private readonly meterAcc = new Float64Array(4);
   private readonly report: Mutable<MeterReport> & { plateVolts: number[] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
     limiterReductionDb: 0, limiterOn: true, traceSlot: null,
@@ -604,8 +602,9 @@ export class DualSlotEngine {
     }
     if (A.model) this.checkFault(A, this.faultA, output, n);
     if (B.model) this.checkFault(B, this.faultB, output, n);
-    this.busyMs += this.nowMs() - t0;
-    this.budgetMs += (n / this.sampleRateHz) * 1000;
+    const acc = this.meterAcc;
+    acc[2] = acc[2]! + (this.nowMs() - t0);
+    acc[3] = acc[3]! + (n / this.sampleRateHz) * 1000;
     this.sinceMeter += n;
     if (this.sinceMeter >= this.meterInterval) this.sendMeter();
   }
@@ -627,7 +626,8 @@ export class DualSlotEngine {
     const dcA = A.dc, dcB = B.dc;
     const ring = this.dryRing, mask = DRY_DELAY_CAPACITY - 1, delay = this.dryDelay;
     const limit = this.limiterOn, lim = this.limiter;
-    let pos = this.dryPos, inPeak = this.inPeak, outPeak = this.outPeak;
+    const meterAcc = this.meterAcc;
+    let pos = this.dryPos, inPeak = meterAcc[0]!, outPeak = meterAcc[1]!;
     let faultA = false, faultB = false;
     const vinBuf = this.vinBuf, dryBuf = this.dryBuf, yA = this.yBufA, yB = this.yBufB;
     const gainA = this.gainA, gainB = this.gainB, gainOut = this.gainOut;
@@ -677,8 +677,8 @@ export class DualSlotEngine {
       output[off + q] = y;
     }
     this.dryPos = pos;
-    this.inPeak = inPeak;
-    this.outPeak = outPeak;
+    meterAcc[0] = inPeak;
+    meterAcc[1] = outPeak;
     if (faultA) this.faultA = true;
     if (faultB) this.faultB = true;
   }
@@ -691,7 +691,7 @@ export class DualSlotEngine {
     for (let i = 0; i < pv.length; i++) if (!Number.isFinite(pv[i]!)) bad = true;
     if (!bad) { s.faultReported = false; return; }
     for (let k = 0; k < n; k++) output[k] = 0;
-    this.outPeak = 0;
+    this.meterAcc[1] = 0;
     const wasReported = s.faultReported;
     if (this.recover(s)) {
       s.fade.jump(0);
@@ -704,9 +704,10 @@ export class DualSlotEngine {
   private sendMeter(): void {
     const r = this.report;
     const traced = this.monitorTarget === 'B' || (this.monitorTarget === 'dry' && !this.slots[0].model) ? this.slots[1] : this.slots[0];
-    r.inputPeakVolts = this.inPeak;
-    r.outputPeakDbfs = this.outPeak > 0 ? Math.max(SILENT_DBFS, 20 * Math.log10(this.outPeak)) : SILENT_DBFS;
-    r.loadFraction = this.budgetMs > 0 ? this.busyMs / this.budgetMs : 0;
+    const acc = this.meterAcc;
+    r.inputPeakVolts = acc[0]!;
+    r.outputPeakDbfs = acc[1]! > 0 ? Math.max(SILENT_DBFS, 20 * Math.log10(acc[1]!)) : SILENT_DBFS;
+    r.loadFraction = acc[3]! > 0 ? acc[2]! / acc[3]! : 0;
     r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
     r.limiterOn = this.limiterOn;
     const m = traced.model;
@@ -724,10 +725,7 @@ export class DualSlotEngine {
     }
     this.post(r);
     this.sinceMeter = Math.min(this.sinceMeter - this.meterInterval, this.meterInterval);
-    this.inPeak = 0;
-    this.outPeak = 0;
-    this.busyMs = 0;
-    this.budgetMs = 0;
+    this.meterAcc.fill(0);
     this.limiter.minGain = 1;
   }
 }

@@ -52,11 +52,7 @@ export class RootAverager {
   readonly m: number;
   /** The root's currents averaged over the last step (what the linear part integrates). */
   readonly iMean: Float64Array;
-  /**
-   * Diagnostics since construction: [0] steps averaged, [1] interior Newton solves. (A typed
-   * array: counters kept as object fields made V8 box a number per sample here, measured with
-   * the bundled DualSlotEngine, 27 bytes per sample against 1.)
-   */
+  /** Diagnostics since construction: [0] steps averaged, [1] interior Newton solves. */
   readonly counts = new Float64Array(2);
   private readonly opts: AveragingOptions;
   private readonly n: number;
@@ -123,8 +119,6 @@ export class RootAverager {
       return;
     }
     const end = n * m, iBefore = this.iBefore, tol = this.opts.toleranceVolts;
-    // element loops, not TypedArray.set: measured, p0.set(p) here cost ~25 bytes per sample
-    // (bundled DualSlotEngine, Node 20) against none for the loop
     for (let r = 0; r < m; r++) { nodeV[end + r] = v1[r]!; nodeI[end + r] = i1[r]!; }
     // smooth in time: corrected trapezoid, no node
     let e2 = 0;
