@@ -92,6 +92,26 @@ describe('render', () => {
     expect(r.err).toMatch(/unknown template "no-such-thing"/);
     r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', join(dir, 'x.wav'), '--oversample', '3');
     expect(r.err).toMatch(/--oversample: must be 1, 2, 4, 8, 16, 32, 64 or 128/);
+    r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', join(dir, 'x.wav'), '--antialias', 'maybe');
+    expect(r.err).toMatch(/--antialias must be on or off/);
+    r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', join(dir, 'x.wav'), '--raw', '--antialias', 'on');
+    expect(r.err).toMatch(/--raw renders the plain circuit/);
+  });
+
+  it('--antialias: the default averages the root at 4x, off renders the plain circuit, and they differ', async () => {
+    const inPath = join(dir, 'aa-in.wav');
+    writeFileSync(inPath, encodeWav([tone(48000, 0.05, 0.9)], 48000, { bitDepth: 24 }));
+    const outs: Float32Array[] = [];
+    for (const extra of [[], ['--antialias', 'on'], ['--antialias', 'off']]) {
+      const outPath = join(dir, `aa-${extra.join('-') || 'default'}.wav`);
+      const r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', outPath, '--oversample', '4', '--json', ...extra);
+      expect(r.code, r.err).toBe(0);
+      expect(JSON.parse(r.out).antialias).toBe(extra[1] !== 'off');
+      outs.push(decodeWav(readFileSync(outPath)).channels[0]!);
+    }
+    const diff = (a: Float32Array, b: Float32Array) => a.reduce((m, x, k) => Math.max(m, Math.abs(x - b[k]!)), 0);
+    expect(diff(outs[0]!, outs[1]!)).toBe(0);
+    expect(diff(outs[0]!, outs[2]!)).toBeGreaterThan(1e-4);
   });
 });
 

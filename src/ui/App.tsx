@@ -27,9 +27,9 @@ const QUALITIES: readonly OversamplingFactor[] = [1, 2, 4, 8];
 /** Measured alias levels (npx tsx bench/alias.bench.ts, pentode-triode, 1 V peak sines near 1 / 2.5 kHz). */
 const QUALITY_LABELS: Partial<Record<OversamplingFactor, string>> = {
   1: 'draft (1×)',
-  2: '2× (aliases about −52 / −50 dB)',
-  4: '4× (aliases about −70 / −63 dB)',
-  8: '8× (aliases about −71 / −77 dB; heavy)',
+  2: '2× (aliases about −55 / −48 dB)',
+  4: '4× (aliases about −73 / −64 dB)',
+  8: '8× (aliases about −72 / −77 dB; heavy)',
 };
 
 interface OpState { report: OperatingReport | null; failure: string | null; findings: Finding[] }

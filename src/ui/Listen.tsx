@@ -87,7 +87,7 @@ export function Meters({ port }: { port: AudioPort }): ReactElement {
  * npx tsx bench/alias.bench.ts (pentode-triode, 1 V peak sines near 1 / 2.5 kHz).
  */
 const PACK_QUALITIES: readonly { factor: OversamplingFactor; label: string }[] = [
-  { factor: 8, label: '8× (quick; aliases about −71 / −77 dB)' },
+  { factor: 8, label: '8× (quick; aliases about −72 / −77 dB)' },
   { factor: 32, label: '32× (aliases about −97 / −83 dB)' },
   { factor: 128, label: '128× (best; about 1/6 real time)' },
 ];

@@ -1,10 +1,10 @@
 // valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav
 //   [--oversample N] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60]
 import { resolve } from 'node:path';
-import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
+import { AVERAGED_UP_TO_FACTOR, OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
-import { CircuitEngine } from '../../dsp/circuit/engine.ts';
+import { CircuitEngine, type Antialiasing } from '../../dsp/circuit/engine.ts';
 import { CliError, loadCircuitArg, optNumber, optString, parseArgs } from '../args.ts';
 import { openWavFile, WavFileWriter } from '../wav-file.ts';
 import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
@@ -24,11 +24,11 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (resolve(inPath) === resolve(outPath)) throw new CliError('--output is the same file as --input: refusing to overwrite the source');
   const raw = a.options.has('raw');
   const aaRaw = a.options.get('antialias');
-  const aaOpt = typeof aaRaw === 'string' ? aaRaw : 'on';
-  if (aaOpt !== 'on' && aaOpt !== 'off') throw new CliError(`--antialias must be on or off (got "${aaOpt}")`);
-  if (raw && a.options.has('antialias')) throw new CliError('--raw renders the plain circuit (no averaging): drop --antialias');
-  // --raw: the plain discretisation of the netlist (what the netlist-v1 reference solves)
-  const antialiasing = raw || aaOpt === 'off' ? 'off' : 'averaged';
+  if (aaRaw !== undefined && aaRaw !== 'on' && aaRaw !== 'off') throw new CliError(`--antialias must be on or off (got "${String(aaRaw)}")`);
+  if (raw && aaRaw !== undefined) throw new CliError('--raw renders the plain circuit (no averaging): drop --antialias');
+  // --raw: the plain discretisation of the netlist (what the netlist-v1 reference solves);
+  // no flag: the root is averaged up to 16x (OversampledCircuit default), plain above
+  const antialiasing: Antialiasing | undefined = raw || aaRaw === 'off' ? 'off' : aaRaw === 'on' ? 'averaged' : undefined;
   const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128'));
   if (raw && a.options.has('oversample')) throw new CliError('--raw renders the plain circuit at the file\'s rate: drop --oversample');
   const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
@@ -43,7 +43,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (h.channelCount > 1) io.err(`note: ${inPath} has ${h.channelCount} channels; mixing to mono`);
   const fs = h.sampleRate;
   const factorT = factor as OversamplingFactor;
-  const model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, { antialiasing });
+  const model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
   const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(loaded.circuit, fs, inputVolts);
   const limiter = new PeakLimiter(fs, -1);
   const writer = await WavFileWriter.create(outPath, fs, 1, raw ? { bitDepth: 32, float: true } : { bitDepth: 24, float: false });
@@ -90,7 +90,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const engine = model instanceof CircuitEngine ? model : model.engine;
   const stats = engine.solverStats;
   const summary = {
-    output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: antialiasing === 'averaged', raw,
+    output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: raw ? false : antialiasing ? antialiasing === 'averaged' : factor <= AVERAGED_UP_TO_FACTOR, raw,
     inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
     newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,

@@ -30,8 +30,8 @@ import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './m
 
 /**
  * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
- * more than 50 dB down (pentode-triode, 1 V near 1 / 2.5 kHz: -70.5 / -63.0 dB; 2x gives -52.3 /
- * -50.3, at the goal's edge). Its cost: both slots take about 51 % of Chromium's audio thread
+ * more than 50 dB down (bench/alias.bench.ts, pentode-triode, 1 V near 1 / 2.5 kHz: -73.3 /
+ * -64.1 dB; 2x gives -54.9 / -48.3, short of the goal). Its cost: both slots take about 51 % of Chromium's audio thread
  * (bench/worklet.browser.bench.ts).
  */
 export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;

@@ -12,7 +12,7 @@ export function isOversamplingFactor(x: number): x is OversamplingFactor {
 }
 
 /** Highest factor at which OversampledCircuit averages the root by default. */
-export const AVERAGED_UP_TO_FACTOR = 8;
+export const AVERAGED_UP_TO_FACTOR = 16;
 
 export class OversampledCircuit {
   readonly engine: CircuitEngine;
@@ -28,9 +28,10 @@ export class OversampledCircuit {
   constructor(circuit: EngineCircuit | Netlist, baseRateHz: number, factor: OversamplingFactor, quality?: OversamplingQuality, engineOptions?: EngineOptions) {
     this.factor = factor;
     this.baseRateHz = baseRateHz;
-    // The averaged root (wdf/averaged-root.ts) up to 8x; above, plain oversampling already puts
-    // aliases 80 dB down and the quadrature's tolerance would be the limit (measured,
-    // pentode-triode 1 V near 1 kHz at 32x: -92.8 dB averaged against -97.4 plain).
+    // The averaged root (wdf/averaged-root.ts) up to 16x; above, plain oversampling already puts
+    // aliases 83 dB down and the quadrature's tolerance becomes the limit (measured,
+    // pentode-triode 1 V near 1 / 2.5 kHz: 16x averaged -79.4 / -75.7 dB against plain -80.4 /
+    // -65.0; 32x averaged -92.8 / -85.3 against plain -97.4 / -83.3).
     const antialiasing = engineOptions?.antialiasing ?? (factor <= AVERAGED_UP_TO_FACTOR ? 'averaged' : 'off');
     this.engine = new CircuitEngine(circuit, baseRateHz * factor, { ...engineOptions, antialiasing });
     const opts = quality ? { quality } : undefined;
