@@ -4,6 +4,7 @@ import type { Design, Part } from '../dsp/circuit/design.ts';
 import { TEMPLATES } from '../dsp/circuit/templates.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
@@ -28,7 +29,7 @@ const QUALITIES: readonly OversamplingFactor[] = [1, 2, 4, 8];
 const QUALITY_LABELS: Partial<Record<OversamplingFactor, string>> = {
   1: 'draft (1×)',
   2: '2× (aliases about −55 / −48 dB)',
-  4: '4× (aliases about −73 / −64 dB)',
+  4: '4× (default; aliases about −73 / −64 dB)',
   8: '8× (aliases about −72 / −77 dB; heavy)',
 };
 
@@ -60,7 +61,7 @@ export function App(): ReactElement {
   const [calibration, setCalibration] = useState(0.2);
   const [loop, setLoop] = useState<LoopRegion | null>(null);
   const [matched, setMatched] = useState(true);
-  const [quality, setQuality] = useState<OversamplingFactor>(2);
+  const [quality, setQuality] = useState<OversamplingFactor>(DEFAULT_LIVE_FACTOR);
   const [cabinet, setCabinet] = useState<string>('off');
   const [caution, setCaution] = useState<'first-run' | 'live' | null>(() => (localStorage.getItem(CAUTION_KEY) ? null : 'first-run'));
   const [scopeNodes, setScopeNodes] = useState<string[] | null>(null);
@@ -284,7 +285,7 @@ export function App(): ReactElement {
                 {QUALITIES.map((q) => <option key={q} value={q}>{QUALITY_LABELS[q] ?? `${q}× oversampled`}</option>)}
               </select>
             </label>
-            <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''})</span>
+            <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''}){load != null && load > 0.8 ? ' — near the limit: a lower quality avoids dropouts' : ''}</span>
           </div>
           <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} />
           <div className="row live">

@@ -11,10 +11,14 @@ type Win = { __valvewright: { port: { renderOffline(s: string, sec: number): Pro
 
 /** RMS of the difference of two renders of the same clip (zero when identical). */
 async function renderSlot(slot: 'A' | 'B'): Promise<number[]> {
-  return h.page.evaluate(async (s) => {
+  const out = await h.page.evaluate(async (s) => {
     const r = await (window as unknown as Win).__valvewright.port.renderOffline(s, 0.6);
     return r ? Array.from(r.subarray(4800, 28800)) : [];
   }, slot);
+  // a render that came back empty or not finite is a failure of its own, not a NaN comparison
+  expect(out.length, `render of ${slot}: ${out.length} samples`).toBeGreaterThan(1000);
+  expect(out.every((x) => Number.isFinite(x)), `render of ${slot} is finite`).toBe(true);
+  return out;
 }
 const rmsDiff = (a: number[], b: number[]) => Math.sqrt(a.reduce((acc, x, i) => acc + (x - (b[i] ?? 0)) ** 2, 0) / a.length);
 const rms = (a: number[]) => Math.sqrt(a.reduce((acc, x) => acc + x * x, 0) / a.length);
