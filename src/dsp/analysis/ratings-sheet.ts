@@ -100,7 +100,8 @@ function maxInputRun(circuit: EngineCircuit, peakVolts: number, hz: readonly num
   const tubes = circuit.elements.flatMap((el) => (el.kind === 'triode' || el.kind === 'pentode' ? [{ el, p: at(el.nodes.plate), g: at(el.nodes.grid), k: at(el.nodes.cathode), s: el.kind === 'pentode' ? at(el.nodes.screen) : -1 }] : []));
   const tw = tubes.map(() => ({ pw: 0, sw: 0, ik: 0, vpk: -Infinity, vsk: -Infinity, kmin: Infinity, kmax: -Infinity }));
   const ip = newSlopes(), is = newSlopes(), ig = newSlopes();
-  const pv = e.probeValues;
+  // probeValues is computed when read: read it after every sample
+  let pv = e.probeValues;
   const V = (i: number) => (i < 0 ? 0 : pv[i]!);
   let avgCount = 0;
   for (const f of hz) {
@@ -108,6 +109,7 @@ function maxInputRun(circuit: EngineCircuit, peakVolts: number, hz: readonly num
     const n = Math.round(seconds * fs);
     for (let j = 0; j < n; j++) {
       e.processSample(peakVolts * Math.sin((2 * Math.PI * f * j) / fs));
+      pv = e.probeValues;
       const avg = j >= n / 2;
       if (avg) avgCount++;
       for (let k = 0; k < names.length; k++) { const x = pv[k]!; if (x < lo[k]!) lo[k] = x; if (x > hi[k]!) hi[k] = x; }
