@@ -58,7 +58,8 @@ export function compileLinearStage1(s: LinearShape): LinearStage1 {
     for (let c = 0; c < nd; c++) t.push(`Pd[${r * nd + c}] * x${c}`);
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
-  return new Function('src', 'k', 'capV', 'capVPrev', 'capI', 'capR', 'wA', 'wB', 'wC', 'Pd', 'pConst', 'x', 'u', 'p', L.join('\n')) as LinearStage1;
+  // a named function (profiles show it by name rather than as anonymous)
+  return new Function(`return function linearStage1(src, k, capV, capVPrev, capI, capR, wA, wB, wC, Pd, pConst, x, u, p) {\n${L.join('\n')}\n};`)() as LinearStage1;
 }
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
@@ -76,5 +77,5 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
   L.push(`const out = ${o.join(' + ')};`);
   L.push('dst[j] = out - out === 0 ? out : 0;');
-  return new Function('i', 'x', 'Cd', 'cConst', 'invCapR', 'capV', 'capVPrev', 'capI', 'Od', 'oConst', 'dst', 'j', L.join('\n')) as LinearStage2;
+  return new Function(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`)() as LinearStage2;
 }

@@ -69,5 +69,5 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
   for (let k = 0; k < m; k++) L.push(`r[${k}] = r${k};`);
   L.push('return true;');
   // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see above)
-  return new Function('F', 'p', 'v', 'i', 'd', 'r', L.join('\n')) as NewtonStepKernel;
+  return new Function(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`)() as NewtonStepKernel;
 }
