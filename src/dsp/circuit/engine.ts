@@ -167,9 +167,6 @@ export class CircuitEngine {
   private readonly capI: Float64Array;
   private readonly capR: Float64Array;
   private readonly capVPrev: Float64Array;
-  private readonly wA: Float64Array;
-  private readonly wB: Float64Array;
-  private readonly wC: Float64Array;
   private readonly u: Float64Array;
   private readonly p: Float64Array;
   private readonly invCapR: Float64Array;
@@ -196,6 +193,8 @@ export class CircuitEngine {
   private probeBuf: Float64Array = new Float64Array(0);
   /** True when a sample has been processed since probeBuf was last computed. */
   private probesStale = false;
+  /** No sample processed since the last reset to the operating point. */
+  private atRest = true;
   private op: OperatingPoint | null = null;
 
   constructor(circuit: EngineCircuit | Netlist, sampleRateHz: number, options: EngineOptions = {}) {
@@ -285,10 +284,7 @@ export class CircuitEngine {
     this.capI = new Float64Array(this.caps.length);
     this.capR = new Float64Array(this.caps.length);
     this.capVPrev = new Float64Array(this.caps.length);
-    // history source w = wA v[n-1] + wB v[n-2] + wC R i[n-1]: trapezoidal (1, 0, 1), BDF2 (4/3, -1/3, 0)
-    this.wA = Float64Array.from(this.caps, (c) => (c.bdf2 ? 4 / 3 : 1));
-    this.wB = Float64Array.from(this.caps, (c) => (c.bdf2 ? -1 / 3 : 0));
-    this.wC = Float64Array.from(this.caps, (c) => (c.bdf2 ? 0 : 1));
+    // history source (the generated stage 1): trapezoidal w = v[n-1] + R i[n-1], BDF2 w = 4/3 v[n-1] - 1/3 v[n-2]
     this.u = new Float64Array(nu);
     const m = this.nlPorts.length, nx = this.caps.length + 1 + m;
     this.p = new Float64Array(m);
@@ -299,8 +295,9 @@ export class CircuitEngine {
     this.Cd = new Float64Array(this.caps.length * nx);
     this.cConst = new Float64Array(this.caps.length);
     this.Od = new Float64Array(nx);
-    this.stage1 = compileLinearStage1({ nc: this.caps.length, m });
-    this.stage2 = compileLinearStage2({ nc: this.caps.length, m });
+    const bdf2 = this.caps.map((c) => c.bdf2);
+    this.stage1 = compileLinearStage1({ nc: this.caps.length, m, bdf2 });
+    this.stage2 = compileLinearStage2({ nc: this.caps.length, m, bdf2 });
     this.compile();
     this.root = new NewtonRoot(this.devices, this.tr.F);
     this.averager = (options.antialiasing ?? 'averaged') === 'averaged' ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
@@ -534,6 +531,17 @@ export class CircuitEngine {
     });
     this.root.setState(this.dcRoot.v);
     this.averager?.reset();
+    this.atRest = true;
+    this.probesAtOperatingPoint();
+  }
+
+  /** Probe values at rest (until the next sample): the operating point's node voltages. */
+  private probesAtOperatingPoint(): void {
+    const op = this.op;
+    if (!op) return;
+    const rows = this.probeRows;
+    for (let k = 0; k < rows.length; k++) { const n = rows[k]!; this.probeBuf[k] = n < 0 ? 0 : op.nodes[this.nodeNames[n]!]!; }
+    this.probesStale = false;
   }
 
   /** Choose node voltages to read after every sample (probeValues). */
@@ -545,7 +553,8 @@ export class CircuitEngine {
       return i;
     }));
     this.probeBuf = new Float64Array(nodeNames.length);
-    this.probesStale = true;
+    if (this.atRest) this.probesAtOperatingPoint();
+    else this.probesStale = true;
   }
 
   /** One sample: input source EMF in volts, returns the output node voltage in volts. */
@@ -563,12 +572,13 @@ export class CircuitEngine {
   stepFrom(src: Float64Array, k: number, dst: Float64Array, j: number): void {
     if (this.constDirty) this.updateConstants();
     const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
-    this.stage1(src, k, capV, capVPrev, capI, this.capR, this.wA, this.wB, this.wC, this.Pd, this.pConst, x, this.u, p);
+    this.stage1(src, k, capV, capVPrev, capI, this.capR, this.Pd, this.pConst, x, p);
     const root = this.root;
     root.solve(p, TRANSIENT);
     if (this.averager) this.averager.step(p, root.v, root.i);
     this.stage2(this.rootCurrents, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
     this.probesStale = true;
+    this.atRest = false;
   }
 
   /**
@@ -582,15 +592,19 @@ export class CircuitEngine {
     return this.probeBuf;
   }
 
-  /** probeValues from the present leaf waves and root currents (one pass, no number results). */
+  /**
+   * probeValues from the present leaf waves and root currents (one pass, no number results): the
+   * capacitor waves and the input are in x[0..nc] (stage 1), the other sources' EMFs in u.
+   */
   private writeProbes(): void {
-    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, i = this.root.i, rows = this.probeRows, out = this.probeBuf;
+    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, x = this.x, nd = this.caps.length + 1, i = this.root.i, rows = this.probeRows, out = this.probeBuf;
     const Zu = tr.Zu, Zi = tr.Zi;
     for (let k = 0; k < rows.length; k++) {
       const n = rows[k]!;
       let acc = 0;
       if (n >= 0) {
-        for (let c = 0; c < nu; c++) acc += Zu[n * nu + c]! * u[c]!;
+        for (let c = 0; c < nd; c++) acc += Zu[n * nu + c]! * x[c]!;
+        for (let c = nd; c < nu; c++) acc += Zu[n * nu + c]! * u[c]!;
         for (let c = 0; c < m; c++) acc += Zi[n * m + c]! * i[c]!;
       }
       out[k] = acc;

@@ -17,19 +17,25 @@ export interface LinearShape {
   readonly nc: number;
   /** Root ports. */
   readonly m: number;
+  /**
+   * Per capacitor: integrated by BDF2 (history w = 4/3 v[n-1] - 1/3 v[n-2]) rather than the
+   * trapezoidal rule (w = v[n-1] + R i[n-1]). Fixed for an engine's life, so each capacitor's
+   * history is written out for its own rule; default all trapezoidal.
+   */
+  readonly bdf2?: readonly boolean[];
 }
 
 /**
- * Stage 1: writes x[0..nc] = [w; vin], u[0..nc] likewise, and p, with vin = src[k]. Arguments:
- * src, k (where the input sample is: no double crosses the call, see below), capV, capVPrev,
- * capI, capR, wA, wB, wC (capacitor state and history coefficients), Pd (m × (nc+1) row-major),
- * pConst, x, u, p.
+ * Stage 1: writes x[0..nc] = [w; vin] and p, with vin = src[k]. Arguments: src, k (where the
+ * input sample is: no double crosses the call, see below), capV, capVPrev, capI, capR (capacitor
+ * state and port resistances), Pd (m × (nc+1) row-major), pConst, x, p.
  */
 export type LinearStage1 = (src: Float64Array, k: number, capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, capR: Float64Array,
-  wA: Float64Array, wB: Float64Array, wC: Float64Array, Pd: Float64Array, pConst: Float64Array, x: Float64Array, u: Float64Array, p: Float64Array) => void;
+  Pd: Float64Array, pConst: Float64Array, x: Float64Array, p: Float64Array) => void;
 
 /**
- * Stage 2: copies i into x[nc+1..], updates capV, capVPrev, capI, and writes the output volts
+ * Stage 2: copies i into x[nc+1..], updates capV and, per rule, capI (trapezoidal) or capVPrev
+ * (BDF2), and writes the output volts
  * into dst[j] (0 if not finite). Arguments: i, x, Cd (nc × (nc+1+m) row-major), cConst, invCapR,
  * capV, capVPrev, capI, Od (nc+1+m), oConst (oConst[0] is the output's constant part), dst, j.
  *
@@ -43,23 +49,27 @@ function checkShape(s: LinearShape): void {
   if (!(Number.isInteger(s.nc) && s.nc >= 0 && s.nc <= 512 && Number.isInteger(s.m) && s.m >= 0 && s.m <= 64)) {
     throw new Error(`linear kernel: unsupported size (${s.nc} capacitors, ${s.m} root ports)`);
   }
+  if (s.bdf2 && s.bdf2.length !== s.nc) throw new Error(`linear kernel: ${s.bdf2.length} integration flags for ${s.nc} capacitors`);
 }
 
 export function compileLinearStage1(s: LinearShape): LinearStage1 {
   checkShape(s);
   const { nc, m } = s, nd = nc + 1, L: string[] = [];
   for (let j = 0; j < nc; j++) {
-    L.push(`const x${j} = wA[${j}] * capV[${j}] + wB[${j}] * capVPrev[${j}] + wC[${j}] * capR[${j}] * capI[${j}];`);
-    L.push(`x[${j}] = x${j}; u[${j}] = x${j};`);
+    // BDF2 history 4/3 v[n-1] - 1/3 v[n-2]; trapezoidal (WDF capacitor, b[n] = a[n-1]) v + R i
+    L.push(s.bdf2?.[j]
+      ? `const x${j} = ${4 / 3} * capV[${j}] - ${1 / 3} * capVPrev[${j}];`
+      : `const x${j} = capV[${j}] + capR[${j}] * capI[${j}];`);
+    L.push(`x[${j}] = x${j};`);
   }
-  L.push(`const x${nc} = src[k]; x[${nc}] = x${nc}; u[${nc}] = x${nc};`);
+  L.push(`const x${nc} = src[k]; x[${nc}] = x${nc};`);
   for (let r = 0; r < m; r++) {
     const t = [`pConst[${r}]`];
     for (let c = 0; c < nd; c++) t.push(`Pd[${r * nd + c}] * x${c}`);
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
   // a named function (profiles show it by name rather than as anonymous)
-  return new Function(`return function linearStage1(src, k, capV, capVPrev, capI, capR, wA, wB, wC, Pd, pConst, x, u, p) {\n${L.join('\n')}\n};`)() as LinearStage1;
+  return new Function(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`)() as LinearStage1;
 }
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
@@ -71,7 +81,7 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
     const t = [`cConst[${j}]`];
     for (let c = 0; c < nx; c++) t.push(`Cd[${j * nx + c}] * x${c}`);
     L.push(`{ const v = ${t.join(' + ')};`);
-    L.push(`  capI[${j}] = (v - x${j}) * invCapR[${j}]; capVPrev[${j}] = capV[${j}]; capV[${j}] = v; }`);
+    L.push(s.bdf2?.[j] ? `  capVPrev[${j}] = capV[${j}]; capV[${j}] = v; }` : `  capI[${j}] = (v - x${j}) * invCapR[${j}]; capV[${j}] = v; }`);
   }
   const o = ['oConst[0]'];
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
