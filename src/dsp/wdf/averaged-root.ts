@@ -118,9 +118,8 @@ export class RootAverager {
       this.valid = true;
       return;
     }
-    const end = n * m, iBefore = this.iBefore, tol = this.opts.toleranceVolts;
-    for (let r = 0; r < m; r++) { nodeV[end + r] = v1[r]!; nodeI[end + r] = i1[r]!; }
-    // smooth in time: corrected trapezoid, no node
+    const iBefore = this.iBefore, p0 = this.p0, tol = this.opts.toleranceVolts;
+    // smooth in time: corrected trapezoid, no node (and the end goes straight to the start)
     let e2 = 0;
     for (let r = 0; r < m; r++) {
       const d2 = w[r]! * Math.abs(i1[r]! - 2 * nodeI[r]! + iBefore[r]!);
@@ -128,12 +127,16 @@ export class RootAverager {
     }
     if (e2 < tol) {
       for (let r = 0; r < m; r++) {
-        const i0 = nodeI[r]!, ie = i1[r]!;
-        iMean[r] = 0.5 * (i0 + ie) - (ie - 2 * i0 + iBefore[r]!) / 12;
+        const i0 = nodeI[r]!, ie = i1[r]!, ib = iBefore[r]!;
+        iMean[r] = 0.5 * (i0 + ie) - (ie - 2 * i0 + ib) / 12;
+        iBefore[r] = i0; nodeI[r] = ie; nodeV[r] = v1[r]!; p0[r] = p[r]!;
       }
-    } else this.adaptiveSimpson(p);
+      return;
+    }
+    const end = n * m;
+    for (let r = 0; r < m; r++) { nodeV[end + r] = v1[r]!; nodeI[end + r] = i1[r]!; }
+    this.adaptiveSimpson(p);
     // the end becomes the next start
-    const p0 = this.p0;
     for (let r = 0; r < m; r++) { iBefore[r] = nodeI[r]!; nodeI[r] = nodeI[end + r]!; nodeV[r] = nodeV[end + r]!; p0[r] = p[r]!; }
   }
 
