@@ -1,7 +1,7 @@
 // Antiderivative anti-aliasing (ADAA) of the nonlinear root, first order, by adaptive quadrature.
 //
 // First-order ADAA (Parker, Zavalishin & Le Bivic, "Reducing the aliasing of nonlinear
-// waveshaping using continuous-time convolution", DAFx-16) replaces a memoryless nonlinearity's
+// waveshaping using continuous-time convolution", DAFx-16, cited from memory) replaces a memoryless nonlinearity's
 // sample y[n] = g(x[n]) by its mean over the straight line from x[n-1] to x[n],
 //   ybar[n] = integral_0^1 g(x[n-1] + tau (x[n] - x[n-1])) dtau,                          (ADAA-1)
 // the continuous-time output convolved with a one-sample rectangle before sampling: aliases that
@@ -17,7 +17,8 @@
 //
 // The tube laws have no closed-form antiderivative, and for a multi-port root ADAA-1 needs the
 // line integral of g along the segment of p, so the mean is taken by adaptive Simpson
-// quadrature (Lyness, "Notes on the adaptive Simpson quadrature routine", J. ACM 16, 1969):
+// quadrature (Lyness, "Notes on the adaptive Simpson quadrature routine", J. ACM 16, 1969, from
+// memory):
 // each node is a Newton solve of the root at an intermediate p, warm-started from the
 // interpolation of its neighbours. Where the currents are smooth in time (most samples when
 // oversampled) no node is needed: the trapezoid with an end correction from the previous
