@@ -65,7 +65,7 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
       const av = new RootAverager([new TriodeDevice(AX7, DZ_12AX7_GRID)], F, opts);
       av.step(p0, s0.v, s0.i); // the first step only records its end
       av.step(p1, s1.v, s1.i);
-      expect(av.counts[1]).toBeGreaterThan(0); // the knees forced interior solves
+      expect(av.interiorSolves[0]).toBeGreaterThan(0); // the knees forced interior solves
       for (let r = 0; r < 2; r++) expect(Math.abs(av.iMean[r]! - reference[r]!) * 100e3).toBeLessThan(voltsBound);
       // and it is not the end point's current (the plain discretisation)
       expect(Math.abs(av.iMean[1]! - s1.i[1]!)).toBeGreaterThan(1e-4);
@@ -78,7 +78,7 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
     let guess: Float64Array<ArrayBuffer> = Float64Array.of(-1.5, 200);
     const sols = ps.map((p) => { const s = solveAt(p, guess); guess = s.v; return s; });
     sols.forEach((s, k) => av.step(ps[k]!, s.v, s.i));
-    expect(av.counts[1]).toBe(0);
+    expect(av.interiorSolves[0]).toBe(0);
     const ref = bruteMean(ps[1]!, ps[2]!, sols[1]!.v, 200);
     expect(Math.abs(av.iMean[1]! - ref[1]!) / Math.abs(ref[1]!)).toBeLessThan(1e-6);
   });

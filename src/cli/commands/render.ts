@@ -1,7 +1,7 @@
 // valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav
 //   [--oversample N] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60]
 import { resolve } from 'node:path';
-import { AVERAGED_UP_TO_FACTOR, OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
+import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
 import { CircuitEngine, type Antialiasing } from '../../dsp/circuit/engine.ts';
@@ -90,7 +90,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const engine = model instanceof CircuitEngine ? model : model.engine;
   const stats = engine.solverStats;
   const summary = {
-    output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: raw ? false : antialiasing ? antialiasing === 'averaged' : factor <= AVERAGED_UP_TO_FACTOR, raw,
+    output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: engine.averagingDelaySamples > 0, raw,
     inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
     newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,

@@ -300,7 +300,7 @@ export class CircuitEngine {
     this.stage2 = compileLinearStage2({ nc: this.caps.length, m, bdf2 });
     this.compile();
     this.root = new NewtonRoot(this.devices, this.tr.F);
-    this.averager = (options.antialiasing ?? 'averaged') === 'averaged' ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
+    this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
     this.rootCurrents = this.averager ? this.averager.iMean : this.root.i;
     this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
     this.resetToOperatingPoint();
@@ -333,7 +333,7 @@ export class CircuitEngine {
 
   /** Newton statistics of the transient root. */
   get solverStats(): { solves: number; iterations: number; failures: number; interiorSolves: number } {
-    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures, interiorSolves: this.averager?.counts[1] ?? 0 };
+    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures, interiorSolves: this.averager?.interiorSolves[0] ?? 0 };
   }
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */

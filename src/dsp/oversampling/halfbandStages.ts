@@ -20,24 +20,11 @@ export interface HalfbandStage {
   reset(value: number): void;
 }
 
-/** Runs a chain of sections (a + z⁻¹)/(1 + a·z⁻¹) at the low rate. state[i] = last input of
- * section i, state[n] = last output of the chain (= last input of a section n). */
-function runAllpassChain(coefs: Float64Array, state: Float64Array, x: number): number {
-  let input = x;
-  const n = coefs.length;
-  for (let i = 0; i < n; i++) {
-    const y = (coefs[i] as number) * (input - (state[i + 1] as number)) + (state[i] as number);
-    state[i] = input;
-    input = y;
-  }
-  state[n] = input;
-  return input;
-}
-
 /**
- * runAllpassChain on io[k] in place, for the block paths: no double crosses the call (V8 boxes
- * a double passed to or returned from a call it does not inline, and whether it inlines depends
- * on the caller's size).
+ * Runs a chain of sections (a + z⁻¹)/(1 + a·z⁻¹) at the low rate on io[k], in place.
+ * state[i] = last input of section i, state[n] = last output of the chain (= last input of a
+ * section n). Arrays in and out: no double crosses the call (V8 boxes a double passed to or
+ * returned from a call it does not inline, and whether it inlines depends on the caller's size).
  */
 function allpassChainAt(coefs: Float64Array, state: Float64Array, io: Float64Array, k: number): void {
   let input = io[k]!;
@@ -98,13 +85,21 @@ export class IirHalfbandStage implements HalfbandStage {
 
   upsample(x: number, dst: Float64Array, offset: number): void {
     const g = x + DENORMAL_GUARD;
-    dst[offset] = runAllpassChain(this.c0, this.up0, g) - DENORMAL_GUARD;
-    dst[offset + 1] = runAllpassChain(this.c1, this.up1, g) - DENORMAL_GUARD;
+    dst[offset] = g;
+    dst[offset + 1] = g;
+    allpassChainAt(this.c0, this.up0, dst, offset);
+    allpassChainAt(this.c1, this.up1, dst, offset + 1);
+    dst[offset] = dst[offset]! - DENORMAL_GUARD;
+    dst[offset + 1] = dst[offset + 1]! - DENORMAL_GUARD;
   }
 
   downsample(x0: number, x1: number): number {
-    const y = 0.5 * (runAllpassChain(this.c0, this.dn0, x1 + DENORMAL_GUARD) + runAllpassChain(this.c1, this.dn1, x0 + DENORMAL_GUARD));
-    return y - DENORMAL_GUARD;
+    const pair = this.pair;
+    pair[0] = x1 + DENORMAL_GUARD;
+    pair[1] = x0 + DENORMAL_GUARD;
+    allpassChainAt(this.c0, this.dn0, pair, 0);
+    allpassChainAt(this.c1, this.dn1, pair, 1);
+    return 0.5 * (pair[0]! + pair[1]!) - DENORMAL_GUARD;
   }
 
   upsampleBlock(src: Float64Array, count: number, dst: Float64Array): void {

@@ -31,8 +31,8 @@ import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './m
 /**
  * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
  * more than 50 dB down (bench/alias.bench.ts, pentode-triode, 1 V near 1 / 2.5 kHz: -73.3 /
- * -64.1 dB; 2x gives -54.9 / -48.3, short of the goal). Its cost: both slots take about 51 % of Chromium's audio thread
- * (bench/worklet.browser.bench.ts).
+ * -64.1 dB; 2x gives -54.9 / -48.3, short of the goal). Its cost: both slots take about 40 % of
+ * Chromium's audio thread (bench/worklet.browser.bench.ts).
  */
 export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;
 export const CROSSFADE_SECONDS = 0.005;
@@ -111,17 +111,10 @@ class Ramp {
   }
   jump(v: number): void { this.value = v; this.target = v; this.left = 0; }
   get moving(): boolean { return this.left > 0; }
-  next(): number {
-    if (this.left > 0) {
-      this.left--;
-      this.value = this.left === 0 ? this.target : this.value + this.inc;
-    }
-    return this.value;
-  }
   /**
-   * buf[0 … len-1] *= the next len values (what len calls of next() would return). The audio
-   * path uses this: one call per segment, no double returned per sample (V8 boxes a double
-   * returned from a call it does not inline, and its inlining depends on the caller's size).
+   * Advance len samples, multiplying buf[0 … len-1] by the ramp's value at each. One call per
+   * segment, no double returned per sample (V8 boxes a double returned from a call it does not
+   * inline, and its inlining depends on the caller's size).
    */
   scaleInto(buf: Float64Array, len: number): void {
     let left = this.left;

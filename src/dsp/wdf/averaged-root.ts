@@ -53,8 +53,8 @@ export class RootAverager {
   readonly m: number;
   /** The root's currents averaged over the last step (what the linear part integrates). */
   readonly iMean: Float64Array;
-  /** Diagnostics since construction: [0] steps averaged, [1] interior Newton solves. */
-  readonly counts = new Float64Array(2);
+  /** Interior Newton solves since construction ([0]; diagnostics). */
+  readonly interiorSolves = new Float64Array(1);
   private readonly opts: AveragingOptions;
   private readonly n: number;
   private readonly scratch: NewtonRoot;
@@ -109,7 +109,6 @@ export class RootAverager {
    */
   step(p: Float64Array, v1: Float64Array, i1: Float64Array): void {
     const m = this.m, n = this.n, nodeV = this.nodeV, nodeI = this.nodeI, w = this.weight, iMean = this.iMean;
-    this.counts[0] = this.counts[0]! + 1;
     if (!this.valid) {
       iMean.set(i1);
       this.iBefore.set(i1);
@@ -158,7 +157,7 @@ export class RootAverager {
       }
       scratch.setStart(guess);
       scratch.solve(pMid, INTERIOR);
-      this.counts[1] = this.counts[1]! + 1;
+      this.interiorSolves[0] = this.interiorSolves[0]! + 1;
       const sv = scratch.v, si = scratch.i;
       for (let r = 0; r < m; r++) { nodeV[om + r] = sv[r]!; nodeI[om + r] = si[r]!; }
       // Simpson against trapezoid on [a, b]: the panel's mean, in volts at the ports
