@@ -10,7 +10,7 @@
 //  4. tube interelectrode capacitances against the handbook Miller formula.
 import { describe, expect, it } from 'vitest';
 import { makeRandom } from '../src/dsp/random.ts';
-import { compileNewtonStep, PIVOT_RATIO } from '../src/dsp/wdf/newton-kernel.ts';
+import { compileCurrentUpdate, compileNewtonStep, PIVOT_RATIO } from '../src/dsp/wdf/newton-kernel.ts';
 import { CircuitEngine, type CapacitorIntegration, type EngineCircuit } from '../src/dsp/circuit/engine.ts';
 import { DESIGN_SCHEMA, designCircuit, validateDesign, type Design } from '../src/dsp/circuit/design.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
@@ -133,6 +133,24 @@ function relativeResidual(J: Float64Array, delta: Float64Array, g: Float64Array,
   }
   return res / (jNorm * dNorm + gNorm);
 }
+
+describe('generated current update (compileCurrentUpdate): i + (d i / d v)·δ', () => {
+  it('on random patterns equals the dense product with the Jacobian block written out (first-order Taylor update)', () => {
+    const rand = makeRandom(20261202);
+    for (let trial = 0; trial < 200; trial++) {
+      const m = 1 + (trial % 10);
+      const pr = randomProblem(rand, m, 1, false);
+      // dense D from the pattern (duplicates add, as the sparse sum does)
+      const D = new Float64Array(m * m);
+      pr.nzRow.forEach((r, z) => { D[r * m + pr.nzCol[z]!]! += pr.d[z]!; });
+      const delta = Float64Array.from({ length: m + 1 }, () => 2 * rand() - 1);
+      const want = Float64Array.from(pr.i, (x, r) => { let s = x; for (let c = 0; c < m; c++) s += D[r * m + c]! * delta[c]!; return s; });
+      const got = Float64Array.from(pr.i);
+      compileCurrentUpdate(m, pr.nzRow, pr.nzCol)(got, pr.d, delta);
+      for (let r = 0; r < m; r++) expect(Math.abs(got[r]! - want[r]!)).toBeLessThanOrEqual(1e-12 * (Math.abs(want[r]!) + 1e-3));
+    }
+  });
+});
 
 describe('generated Newton step (compileNewtonStep) against the linear system J·δ = -g', () => {
   it('on random matrices and patterns: when it accepts, J·δ = -g (explicit product) and r[m] = Σ g²', () => {

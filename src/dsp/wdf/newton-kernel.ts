@@ -71,3 +71,20 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
   // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see above)
   return new Function(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`)() as NewtonStepKernel;
 }
+
+/** i += D·δ (D sparse in the pattern's order, δ = r[0..m-1]): the currents after an accepted step, to first order. */
+export type CurrentUpdateKernel = (i: Float64Array, d: Float64Array, r: Float64Array) => void;
+
+export function compileCurrentUpdate(m: number, nzRow: Int32Array, nzCol: Int32Array): CurrentUpdateKernel {
+  if (!(Number.isInteger(m) && m >= 0 && m <= 32)) throw new Error(`compileCurrentUpdate: root size must be 0-32, got ${m}`);
+  if (nzRow.length !== nzCol.length) throw new Error('compileCurrentUpdate: pattern rows and columns differ in length');
+  const L: string[] = [];
+  for (let row = 0; row < m; row++) {
+    // one local per row, added to in pattern order (the same rounding as the loop it replaces)
+    const terms: string[] = [];
+    for (let z = 0; z < nzRow.length; z++) if (nzRow[z] === row) terms.push(`s += d[${z}] * r[${nzCol[z]!}];`);
+    if (terms.length) L.push(`{ let s = i[${row}]; ${terms.join(' ')} i[${row}] = s; }`);
+  }
+  // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see compileNewtonStep)
+  return new Function(`return function currentUpdate(i, d, r) {\n${L.join('\n')}\n};`)() as CurrentUpdateKernel;
+}
