@@ -62,6 +62,7 @@ export function App(): ReactElement {
   const [loop, setLoop] = useState<LoopRegion | null>(null);
   const [matched, setMatched] = useState(true);
   const [quality, setQuality] = useState<OversamplingFactor>(DEFAULT_LIVE_FACTOR);
+  const [guarded, setGuarded] = useState(true);
   const [cabinet, setCabinet] = useState<string>('off');
   const [caution, setCaution] = useState<'first-run' | 'live' | null>(() => (localStorage.getItem(CAUTION_KEY) ? null : 'first-run'));
   const [scopeNodes, setScopeNodes] = useState<string[] | null>(null);
@@ -85,6 +86,15 @@ export function App(): ReactElement {
   useEffect(() => { port.setMonitor(monitor); }, [port, monitor]);
   useEffect(() => { port.setLoudnessMatch(matched); }, [port, matched]);
   useEffect(() => { port.setQuality(quality); }, [port, quality]);
+  useEffect(() => { port.setOverloadGuard(guarded); }, [port, guarded]);
+  // the port lowered the quality itself (sustained overload): follow it and say why
+  const lowered = status?.qualityNote ? status.qualityFactor : null;
+  useEffect(() => {
+    if (lowered === null || !status?.qualityNote) return;
+    setQuality(lowered);
+    say(status.qualityNote);
+    // eslint-disable-next-line react-hooks/exhaustive-deps -- once per step the port takes
+  }, [lowered]);
   useEffect(() => { port.setInputCalibration(calibration); }, [port, calibration]);
 
   // operating point of the slot on screen, recomputed shortly after edits
@@ -285,6 +295,7 @@ export function App(): ReactElement {
                 {QUALITIES.map((q) => <option key={q} value={q}>{QUALITY_LABELS[q] ?? `${q}× oversampled`}</option>)}
               </select>
             </label>
+            <label className="inline-label" title="Lower the live quality by itself when the audio thread stays near its limit (dropouts are clicks, which can be loud)"><input type="checkbox" checked={guarded} onChange={(e) => setGuarded(e.target.checked)} /> lower quality on overload</label>
             <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''}){load != null && load > 0.8 ? ' — near the limit: a lower quality avoids dropouts' : ''}</span>
           </div>
           <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} />

@@ -8,6 +8,7 @@ import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { createAudioEngine, type AudioEngine } from '../audio/index.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { offsetDb } from './model/meters.ts';
+import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
 
 const SLOTS: readonly Slot[] = ['A', 'B'];
 
@@ -38,7 +39,8 @@ export class EnginePort implements AudioPort {
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null };
+  private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private lastStatusMs = 0;
   private grid = new Float32Array(300);
@@ -67,6 +69,12 @@ export class EnginePort implements AudioPort {
           else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
           else if (m.type === 'meter') {
             const now = performance.now();
+            const step = this.guard.observe(m.loadFraction, now);
+            if (step) {
+              this.factor = step.to;
+              e.setQuality(step.to);
+              this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
+            }
             if (now - this.lastStatusMs > 500) { this.lastStatusMs = now; this.emit({ loadFraction: m.loadFraction, playing: e.playing }); }
           }
         });
@@ -129,7 +137,13 @@ export class EnginePort implements AudioPort {
   setMonitor(target: Monitor): void { this.monitor = target; this.engine?.setMonitor(target); }
   setLoudnessMatch(on: boolean): void { this.matched = on; this.releveling(); }
   setInputCalibration(v: number): void { if (this.calibration === v) return; this.calibration = v; this.engine?.setInputCalibration(v); this.releveling(); }
-  setQuality(f: OversamplingFactor): void { this.factor = f; this.engine?.setQuality(f); }
+  setQuality(f: OversamplingFactor): void {
+    this.factor = f;
+    this.guard.setFactor(f);
+    this.engine?.setQuality(f);
+    if (this.status.qualityFactor !== f || this.status.qualityNote !== null) this.emit({ qualityFactor: f, qualityNote: null });
+  }
+  setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.factor); }
 
   setSource(clip: SourceClip): void {
     this.clip = clip;

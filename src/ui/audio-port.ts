@@ -26,6 +26,10 @@ export interface AudioStatus {
   readonly offsetDb: number | null;
   readonly live: 'off' | 'muted' | 'on';
   readonly message: string | null;
+  /** The live quality the engine runs at (the overload guard may lower it). */
+  readonly qualityFactor: OversamplingFactor;
+  /** Why the port lowered the quality itself (overload), until the next choice; else null. */
+  readonly qualityNote: string | null;
 }
 
 export interface ScopeTrace {
@@ -43,6 +47,8 @@ export interface AudioPort {
   setLoudnessMatch(on: boolean): void;
   setInputCalibration(voltsAtFullScale: number): void;
   setQuality(factor: OversamplingFactor): void;
+  /** Let the port lower the live quality by itself when the processor stays near its limit (default on). */
+  setOverloadGuard(on: boolean): void;
   setSource(clip: SourceClip): void;
   setLoop(region: LoopRegion | null): void;
   /** Cabinet impulse response (mono) or null for none. */
