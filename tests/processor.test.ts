@@ -105,6 +105,32 @@ describe('processor messages', () => {
     expect(last.loadFraction).toBeGreaterThan(0);
   });
 
+  it('every report carries both slots\' traces, whatever is monitored: at rest each equals its own DC operating point', () => {
+    const p = makeProcessor({ initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT }, { type: 'monitor', target: 'B' }] });
+    p.run(new Float32Array(FS / 2)); // silence: both slots stay at their operating points
+    const last = meters(p.posted).at(-1)!;
+    // the DC operating point (a separate solve: capacitors open, supplies stepped up) per design
+    const nodes = (d: Design) => new OversampledCircuit(designCircuit(d), FS, DEFAULT_LIVE_FACTOR).engine.operatingPoint().nodes;
+    const expectTrace = (t: MeterReport['slotTraces'][0], d: Design) => {
+      expect(t).not.toBeNull();
+      const op = nodes(d);
+      const tubes = d.parts.filter((q) => q.kind === 'tube');
+      expect(Math.abs(t!.gridVolts - op[tubes[0]!.nodes.grid]!)).toBeLessThan(1e-6);
+      expect(t!.plateVolts).toHaveLength(tubes.length);
+      tubes.forEach((q, k) => expect(Math.abs(t!.plateVolts[k]! - op[q.nodes.plate]!)).toBeLessThan(1e-6));
+    };
+    expectTrace(last.slotTraces[0], TT);
+    expectTrace(last.slotTraces[1], PT);
+    // the monitored slot's fields are B's (the two first plates sit at different voltages)
+    expect(last.traceSlot).toBe('B');
+    expect(last.plateVolts).toEqual(last.slotTraces[1]!.plateVolts);
+    expect(Math.abs(last.slotTraces[0]!.plateVolts[0]! - last.slotTraces[1]!.plateVolts[0]!)).toBeGreaterThan(1);
+    // an empty slot has no trace
+    const q = makeProcessor({ initial: [{ type: 'load-design', slot: 'A', design: TT }] });
+    q.run(new Float32Array(FS / 10));
+    expect(meters(q.posted).at(-1)!.slotTraces[1]).toBeNull();
+  });
+
   it('refuses to drop the limiter while live input is on', () => {
     const p = makeProcessor({ initial: [{ type: 'set-live-input', live: true }] });
     p.send({ type: 'set-limiter', enabled: false });

@@ -93,7 +93,9 @@ export function ScopePlot({ trace, position, duration, chosen }: { trace: () => 
     rows.forEach((r, k) => {
       const d = r.d;
       let lo = Infinity, hi = -Infinity;
-      for (let i = 0; i < d.length; i++) { lo = Math.min(lo, d[i]!); hi = Math.max(hi, d[i]!); }
+      // NaN marks reports from while the slot was empty: gaps, not values
+      for (let i = 0; i < d.length; i++) { const x = d[i]!; if (x === x) { lo = Math.min(lo, x); hi = Math.max(hi, x); } }
+      if (!(hi >= lo)) return;
       const span = Math.max(hi - lo, 0.05);
       const y0 = k * rowH;
       g.strokeStyle = colours[k % colours.length]!; g.lineWidth = 1; g.beginPath();
@@ -103,8 +105,8 @@ export function ScopePlot({ trace, position, duration, chosen }: { trace: () => 
       for (let px = 0; px < w; px++) {
         const i0 = Math.floor((px / w) * d.length), i1 = Math.max(i0 + 1, Math.floor(((px + 1) / w) * d.length));
         let mn = Infinity, mx = -Infinity;
-        for (let i = i0; i < Math.min(d.length, i1); i++) { mn = Math.min(mn, d[i]!); mx = Math.max(mx, d[i]!); }
-        if (!Number.isFinite(mn)) continue;
+        for (let i = i0; i < Math.min(d.length, i1); i++) { const x = d[i]!; if (x === x) { mn = Math.min(mn, x); mx = Math.max(mx, x); } }
+        if (!Number.isFinite(mn)) { prev = Number.NaN; continue; }
         if (Number.isFinite(prev)) { mn = Math.min(mn, prev); mx = Math.max(mx, prev); }
         prev = d[Math.min(d.length, i1) - 1]!;
         const ya = y0 + 4 + ((hi - mx) / span) * (rowH - 16), yb = y0 + 4 + ((hi - mn) / span) * (rowH - 16);

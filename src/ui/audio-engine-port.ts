@@ -203,9 +203,9 @@ export class EnginePort implements AudioPort {
     const cap = e.scope.capacity;
     if (this.grid.length !== cap) this.grid = new Float32Array(cap);
     const traces: Float32Array[] = [];
-    const n = e.scope.read('grid', this.grid);
+    const n = e.scope.read('grid', this.grid, slot);
     traces.push(this.grid.slice(0, n));
-    tubes.forEach((_, i) => { const b = new Float32Array(cap); const m = e.scope.read(i, b); traces.push(b.slice(0, m)); });
+    tubes.forEach((_, i) => { const b = new Float32Array(cap); const m = e.scope.read(i, b, slot); traces.push(b.slice(0, m)); });
     return { names, traces, rateHz: 30, rolling: true };
   }
 

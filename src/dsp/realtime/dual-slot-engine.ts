@@ -26,7 +26,7 @@ import type { ValueUpdate } from '../circuit/engine.ts';
 import { OversampledCircuit, isOversamplingFactor } from '../render/oversampled.ts';
 import { PeakLimiter } from '../render/limiter.ts';
 import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
-import type { FromProcessor, MeterReport, Monitor, Slot, ToProcessor } from './messages.ts';
+import type { FromProcessor, MeterReport, Monitor, Slot, SlotTrace, ToProcessor } from './messages.ts';
 
 /**
  * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
@@ -164,6 +164,8 @@ class SlotState {
   faultReported = false;
   tubeIds: string[] = [];
   plateVolts: number[] = [];
+  /** This slot's entry of MeterReport.slotTraces (reused; its plateVolts is `plateVolts`). */
+  readonly trace: { gridVolts: number; plateVolts: number[] } = { gridVolts: 0, plateVolts: [] };
   constructor(readonly name: Slot) {}
 }
 
@@ -225,9 +227,9 @@ export class DualSlotEngine {
   private sinceMeter = 0;
   /** Meter accumulators [input peak volts, output peak, busy ms, budget ms] (stores never box). */
   private readonly meterAcc = new Float64Array(4);
-  private readonly report: Mutable<MeterReport> & { plateVolts: number[] } = {
+  private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
-    limiterReductionDb: 0, limiterOn: true, traceSlot: null,
+    limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
   };
   private readonly noPlates: number[] = [];
 
@@ -703,13 +705,19 @@ export class DualSlotEngine {
     r.loadFraction = acc[3]! > 0 ? acc[2]! / acc[3]! : 0;
     r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
     r.limiterOn = this.limiterOn;
-    const m = traced.model;
-    if (m) {
-      const pv = m.probeValues;
-      r.gridVolts = pv[0] ?? 0;
-      const pl = traced.plateVolts;
+    const traces = r.slotTraces;
+    for (let k = 0; k < 2; k++) {
+      const s = this.slots[k]!, m = s.model;
+      if (!m) { traces[k] = null; continue; }
+      const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
-      r.plateVolts = pl;
+      t.gridVolts = pv[0] ?? 0;
+      t.plateVolts = pl;
+      traces[k] = t;
+    }
+    if (traced.model) {
+      r.gridVolts = traced.trace.gridVolts;
+      r.plateVolts = traced.plateVolts;
       r.traceSlot = traced.name;
     } else {
       r.gridVolts = 0;

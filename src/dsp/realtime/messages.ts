@@ -50,6 +50,19 @@ export interface MeterReport {
   readonly limiterOn: boolean;
   /** Which slot the grid and plate values come from (null: that slot is empty). */
   readonly traceSlot: Slot | null;
+  /**
+   * Both slots' grid and plate voltages at report time, whatever is monitored ([0] slot A, [1]
+   * slot B; null where the slot is empty): a slot's scope stays that slot's while A/B/dry switch.
+   */
+  readonly slotTraces: readonly [SlotTrace | null, SlotTrace | null];
+}
+
+/** One slot's traced node voltages in a meter report. */
+export interface SlotTrace {
+  /** First stage control-grid voltage, volts. */
+  readonly gridVolts: number;
+  /** Plate voltages of the slot's tubes, in design order, volts. */
+  readonly plateVolts: readonly number[];
 }
 
 export type FromProcessor =
