@@ -69,12 +69,7 @@ export class EnginePort implements AudioPort {
           else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
           else if (m.type === 'meter') {
             const now = performance.now();
-            const step = this.guard.observe(m.loadFraction, now);
-            if (step) {
-              this.factor = step.to;
-              e.setQuality(step.to);
-              this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
-            }
+            this.observeLoad(m.loadFraction, now);
             if (now - this.lastStatusMs > 500) { this.lastStatusMs = now; this.emit({ loadFraction: m.loadFraction, playing: e.playing }); }
           }
         });
@@ -142,6 +137,17 @@ export class EnginePort implements AudioPort {
     this.guard.setFactor(f);
     this.engine?.setQuality(f);
     if (this.status.qualityFactor !== f || this.status.qualityNote !== null) this.emit({ qualityFactor: f, qualityNote: null });
+  }
+  /**
+   * One processor load report (the meter handler calls this for every report): the overload
+   * guard may step the live quality down, which the workspace follows through qualityNote.
+   */
+  observeLoad(loadFraction: number, nowMs: number): void {
+    const step = this.guard.observe(loadFraction, nowMs);
+    if (!step) return;
+    this.factor = step.to;
+    this.engine?.setQuality(step.to);
+    this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
   }
   setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.factor); }
 

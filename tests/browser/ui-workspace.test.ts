@@ -7,7 +7,7 @@ import { openWorkspace, startHarness, type Harness } from './ui-harness.ts';
 let h: Harness;
 const failedUrls: string[] = [];
 
-type Win = { __valvewright: { port: { renderOffline(s: string, sec: number): Promise<Float32Array | null>; positionSeconds(): number }; slots(): { A: unknown; B: unknown } } };
+type Win = { __valvewright: { port: { renderOffline(s: string, sec: number): Promise<Float32Array | null>; positionSeconds(): number; observeLoad(load: number, nowMs: number): void }; slots(): { A: unknown; B: unknown } } };
 
 /** RMS of the difference of two renders of the same clip (zero when identical). */
 async function renderSlot(slot: 'A' | 'B'): Promise<number[]> {
@@ -90,6 +90,37 @@ describe('audition workspace', () => {
     await h.page.keyboard.press('a');
     await expect.poll(() => h.page.getByRole('radio', { name: 'A' }).getAttribute('aria-checked')).toBe('true');
   }, 60_000);
+
+  it('a sustained processor overload lowers the live quality one step, says so, and the choice can be undone', async () => {
+    const quality = h.page.getByRole('combobox', { name: 'Quality' });
+    expect(await quality.inputValue()).toBe('4');
+    // 1.5 s of reports at 95 % load (the processor's report rate, 30 Hz), fed to the port's guard
+    await h.page.evaluate(() => {
+      const port = (window as unknown as Win).__valvewright.port;
+      for (let k = 0; k <= 45; k++) port.observeLoad(0.95, 1e6 + (k * 1000) / 30);
+    });
+    await expect.poll(() => quality.inputValue()).toBe('2');
+    const note = await h.page.getByTestId('message').textContent();
+    expect(note ?? '').toMatch(/95 %.*4×.*2×/);
+    // the user goes back up: the guard starts afresh (a short spike does nothing)
+    await quality.selectOption('4');
+    await h.page.evaluate(() => {
+      const port = (window as unknown as Win).__valvewright.port;
+      for (let k = 0; k < 10; k++) port.observeLoad(0.95, 2e6 + (k * 1000) / 30);
+    });
+    await h.page.waitForTimeout(200);
+    expect(await quality.inputValue()).toBe('4');
+    // with the guard off, a long overload changes nothing
+    await h.page.getByLabel('lower quality on overload').uncheck();
+    await h.page.evaluate(() => {
+      const port = (window as unknown as Win).__valvewright.port;
+      for (let k = 0; k <= 90; k++) port.observeLoad(0.99, 3e6 + (k * 1000) / 30);
+    });
+    await h.page.waitForTimeout(200);
+    expect(await quality.inputValue()).toBe('4');
+    await h.page.getByLabel('lower quality on overload').check();
+    await h.page.getByRole('button', { name: 'Dismiss message' }).click();
+  }, 30_000);
 
   it('a user audio file imports and plays', async () => {
     await h.page.getByTestId('audio-file').setInputFiles({ name: 'my-di.wav', mimeType: 'audio/wav', buffer: readFileSync('public/demo/slate-steps.wav') });
