@@ -15,7 +15,9 @@
  *   setSource(samples: Float32Array, sampleRateHz): SourceInfo
  *   play() · stop() · playing · positionSeconds() · setLoop({ startSeconds, endSeconds } | null)
  * Live input (starts muted; LIVE_INPUT_WARNING is the text to show first)
- *   startLive(deviceId?): Promise<void>  rejects with LiveInputError (one line) if denied or absent;
+ *   startLive({ deviceId?, channel? }): Promise<void>  rejects with LiveInputError (one line) if denied or absent;
+ *                                       channel: 1 or 2 of the interface, or 'mix' (both, averaged; default)
+ *   listInputs(): Promise<LiveInputDevice[]>  audio inputs (labels once access was granted)
  *       the rest of the graph keeps working. Echo cancellation, noise suppression, AGC off.
  *   setLiveMuted(muted)  acts at once (input gain ramps in 2 ms) · stopLive() · live: 'off'|'muted'|'on'
  *       While live input is on, the processor keeps its safety limiter on whatever setLimiter says.
@@ -50,6 +52,16 @@ export const LIVE_INPUT_WARNING =
 export class LiveInputError extends Error {
   override name = 'LiveInputError';
 }
+
+/** Which input to play through the circuit live. */
+export interface LiveInputOptions {
+  /** A device from listInputs() (default: the browser's default input). */
+  readonly deviceId?: string;
+  /** Channel 1 or 2 of the device on its own, or 'mix' (both averaged, the default). */
+  readonly channel?: LiveChannel;
+}
+export type LiveChannel = 1 | 2 | 'mix';
+export interface LiveInputDevice { readonly deviceId: string; readonly label: string }
 
 export interface AudioEngineOptions {
   readonly factor?: OversamplingFactor;
@@ -100,7 +112,11 @@ export interface AudioEngine {
   readonly playing: boolean;
   positionSeconds(): number;
   setLoop(region: LoopRegion | null): void;
-  startLive(deviceId?: string): Promise<void>;
+  startLive(options?: LiveInputOptions): Promise<void>;
+  /** The audio inputs the browser offers (labels only after access was granted once). */
+  listInputs(): Promise<LiveInputDevice[]>;
+  /** Channels of the running live input (0 when off). */
+  readonly liveChannels: number;
   setLiveMuted(muted: boolean): void;
   stopLive(): void;
   readonly live: 'off' | 'muted' | 'on';
@@ -253,6 +269,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   liveGain.connect(graph.input);
   let stream: MediaStream | null = null;
   let streamNode: MediaStreamAudioSourceNode | null = null;
+  let splitter: ChannelSplitterNode | null = null;
+  let liveChannels = 0;
   let liveMuted = true;
 
   let cabinetBuffer: AudioBuffer | null = null;
@@ -337,10 +355,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       loop = region;
       applyLoop();
     },
-    async startLive(deviceId) {
+    async startLive(options = {}) {
       if (stream) return;
       if (!navigator.mediaDevices?.getUserMedia) throw new LiveInputError('live input needs a secure page (https or localhost) with microphone support');
-      const audio: MediaTrackConstraints = { echoCancellation: false, noiseSuppression: false, autoGainControl: false, ...(deviceId ? { deviceId: { exact: deviceId } } : {}) };
+      const { deviceId, channel = 'mix' } = options;
+      if (channel !== 'mix' && channel !== 1 && channel !== 2) throw new LiveInputError(`input channel must be 1, 2 or mix (got ${String(channel)})`);
+      // two channels where the device has them (an interface's inputs 1 and 2), unprocessed
+      const audio: MediaTrackConstraints = {
+        echoCancellation: false, noiseSuppression: false, autoGainControl: false, channelCount: { ideal: 2 },
+        ...(deviceId ? { deviceId: { exact: deviceId } } : {}),
+      };
       try {
         stream = await navigator.mediaDevices.getUserMedia({ audio });
       } catch (e) {
@@ -350,9 +374,23 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
         if (name === 'NotReadableError') throw new LiveInputError('the audio input device is busy or failed to start');
         throw new LiveInputError(`live input failed: ${e instanceof Error ? e.message : String(e)}`);
       }
+      const channels = stream.getAudioTracks()[0]?.getSettings().channelCount ?? 1;
+      if (channel === 2 && channels < 2) {
+        for (const t of stream.getTracks()) t.stop();
+        stream = null;
+        throw new LiveInputError('this input has one channel: choose channel 1 (or mixed)');
+      }
       await raw.resume();
       streamNode = raw.createMediaStreamSource(stream);
-      Tone.connect(streamNode, liveGain);
+      liveChannels = channels;
+      if (channel === 'mix') Tone.connect(streamNode, liveGain);
+      else {
+        // one channel of the interface on its own (a guitar on input 2 would otherwise come in
+        // at half level, averaged with a silent input 1)
+        splitter = raw.createChannelSplitter(2);
+        streamNode.connect(splitter);
+        Tone.connect(splitter, liveGain, channel - 1, 0);
+      }
       liveMuted = true;
       liveGain.gain.value = 0;
       send({ type: 'set-live-input', live: true });
@@ -366,13 +404,22 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       if (!stream) return;
       liveGain.gain.value = 0;
       streamNode?.disconnect();
+      splitter?.disconnect();
       for (const t of stream.getTracks()) t.stop();
       stream = null;
       streamNode = null;
+      splitter = null;
+      liveChannels = 0;
       liveMuted = true;
       send({ type: 'set-live-input', live: false });
     },
     get live() { return !stream ? 'off' : liveMuted ? 'muted' : 'on'; },
+    get liveChannels() { return liveChannels; },
+    async listInputs() {
+      if (!navigator.mediaDevices?.enumerateDevices) return [];
+      const all = await navigator.mediaDevices.enumerateDevices();
+      return all.filter((d) => d.kind === 'audioinput').map((d, k) => ({ deviceId: d.deviceId, label: d.label || `audio input ${k + 1}` }));
+    },
     async loadCabinet(src) {
       let b: AudioBuffer | null = null;
       if (typeof src === 'string') {

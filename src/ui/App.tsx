@@ -8,6 +8,7 @@ import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
+import type { LiveInputDevice, LiveInputOptions } from '../audio/index.ts';
 import type { AudioStatus, LoopRegion, SourceClip } from './audio-port.ts';
 import { canRedo, canUndo, pushHistory, redo, startHistory, undo, type History } from './model/history.ts';
 import { applyTemplate, copySlot, differingParts, editPart, editSupplyVolts, findPart, initialSlots, withSlot, type Slots } from './model/workspace.ts';
@@ -63,6 +64,8 @@ export function App(): ReactElement {
   const [matched, setMatched] = useState(true);
   const [quality, setQuality] = useState<OversamplingFactor>(DEFAULT_LIVE_FACTOR);
   const [guarded, setGuarded] = useState(true);
+  const [liveChoice, setLiveChoice] = useState<LiveInputOptions>({ channel: 'mix' });
+  const [inputs, setInputs] = useState<LiveInputDevice[]>([]);
   const [cabinet, setCabinet] = useState<string>('off');
   const [caution, setCaution] = useState<'first-run' | 'live' | null>(() => (localStorage.getItem(CAUTION_KEY) ? null : 'first-run'));
   const [scopeNodes, setScopeNodes] = useState<string[] | null>(null);
@@ -186,8 +189,17 @@ export function App(): ReactElement {
       port.setCabinet(c.samples, c.sampleRateHz);
     } catch (err) { say(`cabinet response: ${(err as Error).message}`, true); setCabinet('off'); }
   };
-  const startLive = async () => {
-    try { await port.startLive(); } catch (err) { say(`live input: ${(err as Error).message}`, true); }
+  const startLive = async (options: LiveInputOptions = liveChoice): Promise<boolean> => {
+    try {
+      await port.startLive(options);
+      setInputs(await port.listInputs());
+      return true;
+    } catch (err) { say(`live input: ${(err as Error).message}`, true); return false; }
+  };
+  // a different input or channel restarts the live input, muted (as every start is)
+  const chooseLive = (next: LiveInputOptions) => {
+    setLiveChoice(next);
+    void startLive(next).then((ok) => { if (ok) say('Live input restarted on the new choice, muted: unmute (M) when the level is safe.'); });
   };
   const togglePlay = () => { if (status?.playing) port.stop(); else void port.play(); };
   const toggleMute = () => { if (status?.live === 'on') port.setMuted(true); else if (status?.live === 'muted') port.setMuted(false); };
@@ -307,6 +319,21 @@ export function App(): ReactElement {
                 <button type="button" className={status.live === 'on' ? 'danger' : ''} onClick={toggleMute} aria-keyshortcuts="M" data-testid="mute">{status.live === 'on' ? 'Mute (M)' : 'Unmute'}</button>
                 <button type="button" onClick={() => port.stopLive()}>Stop live input</button>
                 <span className="fine">{status.live === 'muted' ? 'live input muted' : 'live input on'}{status.message ? ` · ${status.message}` : ''}</span>
+                {inputs.length > 1 && (
+                  <label className="inline-label">Input
+                    <select value={liveChoice.deviceId ?? ''} onChange={(e) => chooseLive({ ...liveChoice, deviceId: e.target.value || undefined })}>
+                      <option value="">browser default</option>
+                      {inputs.map((d) => <option key={d.deviceId} value={d.deviceId}>{d.label}</option>)}
+                    </select>
+                  </label>
+                )}
+                <label className="inline-label" title="A two-input interface: pick the input the guitar is on (mixed averages both, so one guitar comes in at half level)">Channel
+                  <select value={String(liveChoice.channel ?? 'mix')} onChange={(e) => chooseLive({ ...liveChoice, channel: e.target.value === 'mix' ? 'mix' : (Number(e.target.value) as 1 | 2) })}>
+                    <option value="mix">both, mixed</option>
+                    <option value="1">input 1</option>
+                    <option value="2" disabled={status.liveChannels < 2}>input 2</option>
+                  </select>
+                </label>
               </>
             )}
           </div>

@@ -5,7 +5,7 @@ import { designCircuit, type Design, type Part } from '../dsp/circuit/design.ts'
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
-import { createAudioEngine, type AudioEngine } from '../audio/index.ts';
+import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions } from '../audio/index.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
@@ -39,7 +39,7 @@ export class EnginePort implements AudioPort {
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0 };
   private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private lastStatusMs = 0;
@@ -188,13 +188,19 @@ export class EnginePort implements AudioPort {
   stop(): void { this.engine?.stop(); this.emit({ playing: false }); }
   positionSeconds(): number { return this.engine?.playing ? this.engine.positionSeconds() : 0; }
 
-  async startLive(): Promise<void> {
+  async startLive(options?: LiveInputOptions): Promise<void> {
     const e = await this.ensure();
     if (e.context.state !== 'running') await e.context.resume();
-    await e.startLive();
-    this.emit({ live: e.live });
+    // a new device or channel: stop the running input first; the new one starts muted
+    if (e.live !== 'off') e.stopLive();
+    try {
+      await e.startLive(options);
+    } finally {
+      this.emit({ live: e.live, liveChannels: e.liveChannels });
+    }
   }
-  stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off' }); }
+  listInputs(): Promise<LiveInputDevice[]> { return this.engine ? this.engine.listInputs() : Promise.resolve([]); }
+  stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off', liveChannels: 0 }); }
   setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live }); }
 
   levels(): { inputVolts: number; outputDbfs: number } { return this.engine?.levels() ?? { inputVolts: 0, outputDbfs: -120 }; }

@@ -3,6 +3,7 @@
 import type { Design } from '../dsp/circuit/design.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import type { LiveInputDevice, LiveInputOptions } from '../audio/index.ts';
 
 export interface SourceClip {
   readonly name: string;
@@ -30,6 +31,8 @@ export interface AudioStatus {
   readonly qualityFactor: OversamplingFactor;
   /** Why the port lowered the quality itself (overload), until the next choice; else null. */
   readonly qualityNote: string | null;
+  /** Channels of the live input while it runs (2 for a two-input interface), else 0. */
+  readonly liveChannels: number;
 }
 
 export interface ScopeTrace {
@@ -57,7 +60,10 @@ export interface AudioPort {
   play(): Promise<void>;
   stop(): void;
   positionSeconds(): number;
-  startLive(): Promise<void>;
+  /** Start live input (always muted first); a running input is restarted with the new choice. */
+  startLive(options?: LiveInputOptions): Promise<void>;
+  /** The audio inputs on offer (labels once access was granted). */
+  listInputs(): Promise<LiveInputDevice[]>;
   stopLive(): void;
   setMuted(muted: boolean): void;
   /** Peak levels since the last call: circuit input volts and output dBFS. */

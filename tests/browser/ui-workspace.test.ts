@@ -160,6 +160,12 @@ describe('audition workspace', () => {
     await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Mute (M)');
     await h.page.keyboard.press('m');
     await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Unmute');
+    // choosing an input channel restarts the input, muted again, and says so
+    await h.page.getByTestId('mute').click();
+    await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Mute (M)');
+    await h.page.getByRole('combobox', { name: 'Channel' }).selectOption('1');
+    await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Unmute');
+    expect(await h.page.getByTestId('message').textContent()).toMatch(/restarted.*muted/);
   }, 60_000);
 
   it('is usable on a narrow laptop screen', async () => {

@@ -17,13 +17,16 @@ const TT = TEMPLATES['triode-triode']!;
 const PT = TEMPLATES['pentode-triode']!;
 
 /** 16-bit PCM mono WAV (RIFF/WAVE, format 1), written by hand. */
-function wav16(samples: Float32Array, rateHz: number): Buffer {
-  const b = Buffer.alloc(44 + samples.length * 2);
-  b.write('RIFF', 0); b.writeUInt32LE(36 + samples.length * 2, 4); b.write('WAVE', 8);
-  b.write('fmt ', 12); b.writeUInt32LE(16, 16); b.writeUInt16LE(1, 20); b.writeUInt16LE(1, 22);
-  b.writeUInt32LE(rateHz, 24); b.writeUInt32LE(rateHz * 2, 28); b.writeUInt16LE(2, 32); b.writeUInt16LE(16, 34);
-  b.write('data', 36); b.writeUInt32LE(samples.length * 2, 40);
-  samples.forEach((v, k) => b.writeInt16LE(Math.round(Math.max(-1, Math.min(1, v)) * 32767), 44 + 2 * k));
+/** 16-bit PCM WAV of one or more channels (interleaved). */
+function wav16(samples: Float32Array | readonly Float32Array[], rateHz: number): Buffer {
+  const chans = samples instanceof Float32Array ? [samples] : samples;
+  const nc = chans.length, n = chans[0]!.length, bytes = n * nc * 2;
+  const b = Buffer.alloc(44 + bytes);
+  b.write('RIFF', 0); b.writeUInt32LE(36 + bytes, 4); b.write('WAVE', 8);
+  b.write('fmt ', 12); b.writeUInt32LE(16, 16); b.writeUInt16LE(1, 20); b.writeUInt16LE(nc, 22);
+  b.writeUInt32LE(rateHz, 24); b.writeUInt32LE(rateHz * 2 * nc, 28); b.writeUInt16LE(2 * nc, 32); b.writeUInt16LE(16, 34);
+  b.write('data', 36); b.writeUInt32LE(bytes, 40);
+  for (let k = 0; k < n; k++) for (let c = 0; c < nc; c++) b.writeInt16LE(Math.round(Math.max(-1, Math.min(1, chans[c]![k]!)) * 32767), 44 + 2 * (k * nc + c));
   return b;
 }
 
@@ -93,6 +96,39 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       // harmonics of a steady sine; grid-leak bias is asymmetric, so the 2nd may lead)
       const h = Math.max(1, Math.round(r.peakHz / 440));
       expect(Math.abs(r.peakHz - h * 440)).toBeLessThan(3 * (r.sampleRateHz / 4096));
+    } finally {
+      await live.close();
+    }
+  });
+
+  it('(b3) an interface\'s input 1 or 2 on its own, or both mixed, from a two-channel capture', async () => {
+    // input 1: 440 Hz at half scale; input 2: 660 Hz at 0.2 of full scale (a guitar and something else)
+    const rate = 48000;
+    const left = Float32Array.from({ length: rate * 4 }, (_, k) => 0.5 * Math.sin((2 * Math.PI * 440 * k) / rate));
+    const right = Float32Array.from({ length: rate * 4 }, (_, k) => 0.2 * Math.sin((2 * Math.PI * 660 * k) / rate));
+    const file = join(tmp, 'capture-stereo.wav');
+    writeFileSync(file, wav16([left, right], rate));
+    const live = await openHarness(origin, ['--use-fake-ui-for-media-stream', '--use-fake-device-for-media-stream', `--use-file-for-fake-audio-capture=${file}`]);
+    try {
+      const run = (channel: 1 | 2 | 'mix') => live.page.evaluate(([d, c]) => (window as unknown as { vw: HarnessApi }).vw.liveRun(d, 1.0, { channel: c }), [TT, channel] as const);
+      const peak = (r: Awaited<ReturnType<typeof run>>) => Math.max(...r.reports.filter((m) => m.type === 'meter').map((m) => m.inputPeakVolts ?? 0));
+      const one = await run(1), two = await run(2), mix = await run('mix');
+      console.log(`capture channels ${one.channels}, inputs listed ${one.inputs}; input peaks: 1 ${peak(one).toFixed(3)} V, 2 ${peak(two).toFixed(3)} V, mixed ${peak(mix).toFixed(3)} V; errors: "${one.error}" "${two.error}" "${mix.error}"`);
+      expect(one.error).toBe('');
+      expect(one.inputs).toBeGreaterThan(0);
+      // 0.5 V at full scale (liveRun's calibration): input 1 alone peaks at 0.25 V
+      expect(peak(one)).toBeGreaterThan(0.23);
+      expect(peak(one)).toBeLessThan(0.27);
+      expect(Math.abs(one.peakHz - Math.max(1, Math.round(one.peakHz / 440)) * 440)).toBeLessThan(3 * (one.sampleRateHz / 4096));
+      expect(one.channels).toBe(2);
+      // input 2 alone peaks at 0.1 V and the circuit's output is made of 660 Hz harmonics
+      expect(two.error).toBe('');
+      expect(peak(two)).toBeGreaterThan(0.09);
+      expect(peak(two)).toBeLessThan(0.11);
+      expect(Math.abs(two.peakHz - Math.max(1, Math.round(two.peakHz / 660)) * 660)).toBeLessThan(3 * (two.sampleRateHz / 4096));
+      // mixed: the average of the two (Web Audio's stereo-to-mono down-mix, 0.5 (L + R)), peak up to 0.175 V
+      expect(peak(mix)).toBeGreaterThan(0.13);
+      expect(peak(mix)).toBeLessThan(0.18);
     } finally {
       await live.close();
     }
