@@ -7,7 +7,7 @@ import { decodeDesignHash, encodeDesignHash, fromBase64Url, toBase64Url } from '
 import { exportDesignText, importDesignText } from '../src/ui/model/design-file.ts';
 import { applyTemplate, copySlot, differingParts, editPart, initialSlots } from '../src/ui/model/workspace.ts';
 import { layoutDesign, partBox, railNodes, mainPath } from '../src/ui/model/layout.ts';
-import { dbfsFraction, formatVolts, logFreqFraction, offsetDb, stepPeakHold, toDbfs, voltsFraction } from '../src/ui/model/meters.ts';
+import { dbfsFraction, formatVolts, inputAtFullScale, logFreqFraction, offsetDb, stepPeakHold, toDbfs, voltsFraction } from '../src/ui/model/meters.ts';
 import { parseWorkspace, serializeWorkspace } from '../src/ui/model/storage.ts';
 import { operatingReport } from '../src/ui/model/operating.ts';
 import { sameStructure } from '../src/ui/audio-engine-port.ts';
@@ -137,6 +137,16 @@ describe('schematic layout', () => {
 });
 
 describe('meters', () => {
+  it('marks a circuit-input peak at the source\'s full scale (-0.1 dBFS and up) for the calibration in use', () => {
+    // -0.1 dBFS = 0.98855 of full scale (20 log10); at 0.5 V full scale the mark starts at 0.4943 V
+    expect(inputAtFullScale(0.4943, 0.5)).toBe(true);
+    expect(inputAtFullScale(0.4940, 0.5)).toBe(false);
+    expect(inputAtFullScale(0.6, 0.5)).toBe(true); // a float file above full scale
+    expect(inputAtFullScale(0.25, 0.5)).toBe(false);
+    expect(inputAtFullScale(Number.NaN, 0.5)).toBe(false);
+    expect(inputAtFullScale(1, 0)).toBe(false);
+  });
+
   it('dBFS: full scale is 0 dB, half amplitude is -6.02 dB (20 log10 0.5)', () => {
     expect(toDbfs(1)).toBe(0);
     expect(toDbfs(0.5)).toBeCloseTo(-6.0206, 3);

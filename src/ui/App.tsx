@@ -283,7 +283,7 @@ export function App(): ReactElement {
           <Waveform samples={clip?.samples ?? null} duration={dur} loop={loop} onLoop={(r) => { setLoop(r); port.setLoop(r); }} position={() => port.positionSeconds()} />
           <div className="row">
             <ValueField label="Input calibration (volts at full scale)" unit="volts" value={calibration} snap="off" onCommit={(v) => { setCalibration(v); return null; }} testId="calibration" />
-            <Meters port={port} />
+            <Meters port={port} voltsAtFullScale={calibration} />
           </div>
           <div className="row ab" role="group" aria-label="Compare">
             <div className="seg" role="radiogroup" aria-label="What you hear">

@@ -4,7 +4,7 @@ import type { AudioPort, LoopRegion, SourceClip } from './audio-port.ts';
 import type { Design } from '../dsp/circuit/design.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import type { PackReply, PackRequest } from './pack-protocol.ts';
-import { dbfsFraction, formatDbfs, formatVolts, voltsFraction } from './model/meters.ts';
+import { dbfsFraction, formatDbfs, formatVolts, inputAtFullScale, voltsFraction } from './model/meters.ts';
 
 export interface DemoClip { readonly name: string; readonly title: string; readonly file: string; readonly description: string; readonly voltsAtFullScale: number; readonly durationSeconds: number }
 
@@ -54,14 +54,20 @@ export function Waveform({ samples, duration, loop, onLoop, position }: { sample
   );
 }
 
-export function Meters({ port }: { port: AudioPort }): ReactElement {
+/** How long the full-scale mark stays lit after the last peak at full scale, ms. */
+const CLIP_HOLD_MS = 2000;
+
+export function Meters({ port, voltsAtFullScale }: { port: AudioPort; voltsAtFullScale: number }): ReactElement {
   const inBar = useRef<HTMLSpanElement | null>(null), outBar = useRef<HTMLSpanElement | null>(null);
   const inText = useRef<HTMLSpanElement | null>(null), outText = useRef<HTMLSpanElement | null>(null);
+  const clipMark = useRef<HTMLSpanElement | null>(null);
   useEffect(() => {
-    let raf = 0, last = 0, inHold = 0, outHold = -120;
+    let raf = 0, last = 0, inHold = 0, outHold = -120, clipAt = -Infinity;
     const tick = (t: number) => {
       const { inputVolts, outputDbfs } = port.levels();
       const dt = Math.min(0.1, (t - last) / 1000); last = t;
+      if (inputAtFullScale(inputVolts, voltsAtFullScale)) clipAt = t;
+      if (clipMark.current) clipMark.current.hidden = t - clipAt > CLIP_HOLD_MS;
       inHold = Math.max(inputVolts, inHold * Math.pow(0.1, dt)); // falls 20 dB per second
       outHold = Math.max(outputDbfs, outHold - 20 * dt);
       if (inBar.current) inBar.current.style.transform = `scaleX(${voltsFraction(inHold)})`;
@@ -72,10 +78,10 @@ export function Meters({ port }: { port: AudioPort }): ReactElement {
     };
     raf = requestAnimationFrame(tick);
     return () => cancelAnimationFrame(raf);
-  }, [port]);
+  }, [port, voltsAtFullScale]);
   return (
     <div className="meters">
-      <div className="meter"><span className="meter-label">Circuit input</span><span className="meter-track"><span ref={inBar} className="meter-fill" /></span><span ref={inText} className="meter-num" aria-live="off">—</span><span className="meter-scale">1 mV … 3 V</span></div>
+      <div className="meter"><span className="meter-label">Circuit input</span><span className="meter-track"><span ref={inBar} className="meter-fill" /></span><span ref={inText} className="meter-num" aria-live="off">—</span><span className="meter-scale">1 mV … 3 V <span ref={clipMark} className="clip-mark" data-testid="input-clip" hidden title="The source reached full scale: the interface (or the file) clips, and the circuit hears a flattened wave. Lower the interface gain, then set the calibration to match.">input at full scale</span></span></div>
       <div className="meter"><span className="meter-label">Output</span><span className="meter-track"><span ref={outBar} className="meter-fill out" /></span><span ref={outText} className="meter-num" aria-live="off">—</span><span className="meter-scale">−60 … 0 dBFS</span></div>
     </div>
   );

@@ -132,6 +132,22 @@ describe('audition workspace', () => {
     await h.page.getByTestId('play').click();
   }, 60_000);
 
+  it('a source at full scale lights the input mark (the interface or file is clipping); a quiet one does not', async () => {
+    await h.page.getByTestId('play').click().catch(() => {}); // stop the clip from the last test
+    expect(await h.page.getByTestId('input-clip').isHidden()).toBe(true);
+    // 2 s of a 110 Hz sine clipped flat at full scale, 16-bit PCM
+    const rate = 48000, n = 2 * rate, b = Buffer.alloc(44 + 2 * n);
+    b.write('RIFF', 0); b.writeUInt32LE(36 + 2 * n, 4); b.write('WAVE', 8); b.write('fmt ', 12); b.writeUInt32LE(16, 16);
+    b.writeUInt16LE(1, 20); b.writeUInt16LE(1, 22); b.writeUInt32LE(rate, 24); b.writeUInt32LE(2 * rate, 28); b.writeUInt16LE(2, 32); b.writeUInt16LE(16, 34);
+    b.write('data', 36); b.writeUInt32LE(2 * n, 40);
+    for (let k = 0; k < n; k++) b.writeInt16LE(Math.round(32767 * Math.max(-1, Math.min(1, 1.5 * Math.sin((2 * Math.PI * 110 * k) / rate)))), 44 + 2 * k);
+    await h.page.getByTestId('audio-file').setInputFiles({ name: 'hot-di.wav', mimeType: 'audio/wav', buffer: b });
+    await h.page.getByText(/hot-di\.wav · 2\.0 s/).waitFor();
+    await h.page.getByTestId('play').click();
+    await expect.poll(() => h.page.getByTestId('input-clip').isVisible(), { timeout: 10_000 }).toBe(true);
+    await h.page.getByTestId('play').click();
+  }, 30_000);
+
   it('an exported design re-imports identically; a bad file is refused and changes nothing', async () => {
     const download = h.page.waitForEvent('download');
     await h.page.getByRole('button', { name: 'Export JSON' }).click();

@@ -61,3 +61,16 @@ export function logFrequencies(n: number, lowHertz = 20, highHertz = 20000): num
   for (let k = 0; k < n; k++) out.push(lowHertz * Math.pow(highHertz / lowHertz, n === 1 ? 0 : k / (n - 1)));
   return out;
 }
+
+/**
+ * Peak at or above -0.1 dBFS of the source: the interface (or the file) is clipping, and the
+ * circuit is fed a flattened wave that adds fuzz the design did not make. (The -0.1 dBFS mark
+ * is common practice for clip indicators, no source.)
+ */
+export const CLIP_FRACTION_OF_FULL_SCALE = Math.pow(10, -0.1 / 20);
+
+/** True when a circuit-input peak (volts) is at the source's full scale for this calibration. */
+export function inputAtFullScale(peakVolts: number, voltsAtFullScale: number): boolean {
+  if (!(voltsAtFullScale > 0) || !Number.isFinite(peakVolts)) return false;
+  return peakVolts >= CLIP_FRACTION_OF_FULL_SCALE * voltsAtFullScale;
+}
