@@ -49,6 +49,9 @@ export { buildGraph, loadWorklet, type Graph } from './graph.ts';
 export const LIVE_INPUT_WARNING =
   'Use headphones: with speakers the guitar pickup and the microphone feed back, and a fuzz can howl loudly. Live input starts muted.';
 
+/** Seconds of silence (nothing playing, no live input, no message) before a context made here is suspended. */
+export const IDLE_SUSPEND_SECONDS = 5;
+
 export class LiveInputError extends Error {
   override name = 'LiveInputError';
 }
@@ -67,6 +70,8 @@ export interface AudioEngineOptions {
   readonly factor?: OversamplingFactor;
   /** A native AudioContext to use (default: a new one, latencyHint 'interactive'). */
   readonly context?: AudioContext;
+  /** Seconds of idleness before a context made here is suspended (default IDLE_SUSPEND_SECONDS; tests use less). */
+  readonly idleSuspendSeconds?: number;
   /** Meter reports kept by the scope (default 300, 10 s at 30 Hz). */
   readonly scopeCapacity?: number;
   readonly fftSize?: number;
@@ -113,6 +118,8 @@ export interface AudioEngine {
   positionSeconds(): number;
   setLoop(region: LoopRegion | null): void;
   startLive(options?: LiveInputOptions): Promise<void>;
+  /** The context is suspended for want of anything to do (see IDLE_SUSPEND_SECONDS); play, live input or any message resumes it. */
+  readonly idle: boolean;
   /** The audio inputs the browser offers (labels only after access was granted once). */
   listInputs(): Promise<LiveInputDevice[]>;
   /** Channels of the running live input (0 when off). */
@@ -240,11 +247,32 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     }
     for (const l of listeners) l(m);
   };
-  const send = (m: ToProcessor) => graph.send(m);
+  // Idle: a context made here is suspended IDLE_SUSPEND_SECONDS after the last sound or message
+  // (nothing playing, live input off), so an open workspace takes no audio-thread time while the
+  // user edits; the circuit's state is frozen, not reset. Every message wakes it first: the
+  // processor applies designs and values at block boundaries, and an edit then settles in the
+  // background (a DC shift heard at the next play would thump).
+  const managesIdle = !options.context;
+  let idleTimer: ReturnType<typeof setTimeout> | null = null;
+  let disposed = false;
+  const busy = (): boolean => player.state === 'started' || stream !== null;
+  const wake = (): void => {
+    if (!managesIdle || disposed) return;
+    if (idleTimer) clearTimeout(idleTimer);
+    idleTimer = setTimeout(() => {
+      idleTimer = null;
+      if (!busy() && !disposed && raw.state === 'running') void raw.suspend().catch(() => {});
+    }, (options.idleSuspendSeconds ?? IDLE_SUSPEND_SECONDS) * 1000);
+    if (raw.state === 'suspended' && everStarted) void raw.resume().catch(() => {});
+  };
+  /** Resumed once by a user gesture (play, live input): before that a resume would be refused. */
+  let everStarted = false;
+  const send = (m: ToProcessor) => { graph.send(m); wake(); };
 
   // File player.
   const player = new Tone.Player({ context: ctx, loop: false });
   player.connect(graph.input);
+  player.onstop = () => wake();
   let source: AudioBuffer | null = null;
   let loop: LoopRegion | null = null;
   let startedAt = 0;
@@ -331,12 +359,15 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     async play() {
       if (!source) throw new Error('no audio file loaded: load one before playing');
       await raw.resume();
+      everStarted = true;
+      wake();
       if (player.state === 'started') player.stop();
       const offset = loop ? loop.startSeconds : 0;
       player.start(undefined, offset);
       startedAt = ctx.currentTime - offset;
     },
-    stop() { if (player.state === 'started') player.stop(); },
+    stop() { if (player.state === 'started') player.stop(); wake(); },
+    get idle() { return managesIdle && raw.state === 'suspended'; },
     get playing() { return player.state === 'started'; },
     positionSeconds() {
       if (player.state !== 'started' || !source) return 0;
@@ -381,6 +412,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
         throw new LiveInputError('this input has one channel: choose channel 1 (or mixed)');
       }
       await raw.resume();
+      everStarted = true;
+      wake();
       streamNode = raw.createMediaStreamSource(stream);
       liveChannels = channels;
       if (channel === 'mix') Tone.connect(streamNode, liveGain);
@@ -460,6 +493,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     async dispose() {
       engine.stopLive();
+      disposed = true;
+      if (idleTimer) clearTimeout(idleTimer);
       player.dispose();
       liveGain.dispose();
       graph.dispose();

@@ -308,7 +308,7 @@ export function App(): ReactElement {
               </select>
             </label>
             <label className="inline-label" title="Lower the live quality by itself when the audio thread stays near its limit (dropouts are clicks, which can be loud)"><input type="checkbox" checked={guarded} onChange={(e) => setGuarded(e.target.checked)} /> lower quality on overload</label>
-            <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>processor load {load != null ? `${Math.round(load * 100)} %` : '—'} ({status?.engine ?? ''}){load != null && load > 0.8 ? ' — near the limit: a lower quality avoids dropouts' : ''}</span>
+            <span className={`fine${load != null && load > 0.8 ? ' warn' : ''}`}>{status?.idle ? 'processor idle (resumes on play, live input or an edit)' : <>processor load {load != null ? `${Math.round(load * 100)} %` : '—'}</>} ({status?.engine ?? ''}){load != null && load > 0.8 ? ' — near the limit: a lower quality avoids dropouts' : ''}</span>
           </div>
           <ClientPack clip={clip} loop={loop} designA={slots.A} designB={slots.B} voltsAtFullScale={calibration} />
           <div className="row live">

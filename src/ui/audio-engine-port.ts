@@ -39,7 +39,7 @@ export class EnginePort implements AudioPort {
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0 };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false };
   private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private lastStatusMs = 0;
@@ -64,6 +64,8 @@ export class EnginePort implements AudioPort {
       this.creating = createAudioEngine({ factor: this.factor, inputVoltsAtFullScale: this.calibration }).then(async (e) => {
         this.engine = e;
         e.setMonitor(this.monitor);
+        // the engine suspends its context when idle: show it (and the load as unknown) once a second
+        setInterval(() => { if (e.idle !== this.status.idle) this.emit(e.idle ? { idle: true, loadFraction: null } : { idle: false }); }, 1000);
         e.onReport((m) => {
           if (m.type === 'error') this.emit({ message: m.message });
           else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });

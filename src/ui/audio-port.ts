@@ -33,6 +33,8 @@ export interface AudioStatus {
   readonly qualityNote: string | null;
   /** Channels of the live input while it runs (2 for a two-input interface), else 0. */
   readonly liveChannels: number;
+  /** The audio thread is suspended for want of anything to do (resumes on play, live input or an edit). */
+  readonly idle: boolean;
 }
 
 export interface ScopeTrace {

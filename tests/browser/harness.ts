@@ -67,4 +67,33 @@ async function liveDenied(): Promise<{ error: string; name: string; stillPlays: 
   return { error, name, stillPlays };
 }
 
-Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, ready: true } });
+/**
+ * Idle suspension: play a short clip, wait past the idle time, then load a design and edit a part
+ * while suspended; every step's context state, and whether meter reports came after the wake.
+ */
+async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[] }> {
+  const audio = await createAudioEngine({ idleSuspendSeconds: 0.4 });
+  const states: string[] = [], idleFlags: boolean[] = [];
+  const note = () => { states.push(audio.context.state); idleFlags.push(audio.idle); };
+  const wait = (ms: number) => new Promise((r) => setTimeout(r, ms));
+  await audio.loadDesign('A', design);
+  audio.setSource(new Float32Array(4800).map((_, k) => 0.2 * Math.sin(k / 10)), 48000);
+  await audio.play();
+  note(); // running while it plays
+  await wait(1200);
+  note(); // 0.1 s clip ended, idle time passed: suspended
+  let reports = 0;
+  const off = audio.onReport((m) => { if (m.type === 'meter') reports++; });
+  // resolves only if the processor runs again (it answers 'loaded' from a block boundary)
+  const loadedWhileIdle = await Promise.race([audio.loadDesign('B', design).then(() => true), wait(3000).then(() => false)]);
+  note();
+  await wait(300);
+  const reportsAfterWake = reports;
+  await wait(900);
+  note(); // asleep again
+  off();
+  await audio.dispose();
+  return { states, loadedWhileIdle, reportsAfterWake, idleFlags };
+}
+
+Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, ready: true } });

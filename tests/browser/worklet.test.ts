@@ -134,6 +134,15 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     }
   });
 
+  it('(d) an idle engine suspends its context, and a message (a design load) wakes it and is applied', async () => {
+    const r = await api('idleRun', TT);
+    console.log(`idle: context states ${r.states.join(' -> ')}, meter reports within 0.3 s of the wake: ${r.reportsAfterWake}`);
+    expect(r.states).toEqual(['running', 'suspended', 'running', 'suspended']);
+    expect(r.idleFlags).toEqual([false, true, false, true]);
+    expect(r.loadedWhileIdle).toBe(true);
+    expect(r.reportsAfterWake).toBeGreaterThan(3); // ~30 Hz once running again
+  });
+
   it('(b2) a denied microphone gives one clear error and the player still works', async () => {
     const denied = await openHarness(origin, ['--deny-permission-prompts']);
     try {
