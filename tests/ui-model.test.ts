@@ -7,6 +7,7 @@ import { decodeDesignHash, encodeDesignHash, fromBase64Url, toBase64Url } from '
 import { exportDesignText, importDesignText } from '../src/ui/model/design-file.ts';
 import { applyTemplate, copySlot, differingParts, editPart, initialSlots } from '../src/ui/model/workspace.ts';
 import { layoutDesign, partBox, railNodes, mainPath } from '../src/ui/model/layout.ts';
+import { calibrationProblem, dbuToPeakVolts, parseDbu } from '../src/ui/model/calibration.ts';
 import { dbfsFraction, formatVolts, inputAtFullScale, logFreqFraction, offsetDb, stepPeakHold, toDbfs, voltsFraction } from '../src/ui/model/meters.ts';
 import { parseWorkspace, serializeWorkspace } from '../src/ui/model/storage.ts';
 import { operatingReport } from '../src/ui/model/operating.ts';
@@ -133,6 +134,34 @@ describe('schematic layout', () => {
     expect(x('V1')).toBeLessThan(x('V2'));
     expect(x('V2')).toBeLessThan(x('C5'));
     expect(x('C5')).toBeLessThan(x('VOL'));
+  });
+});
+
+describe('input calibration from an interface\'s maximum level in dBu', () => {
+  it('converts by the dBu definition: 0 dBu = 0.7746 V rms (1 mW into 600 ohms), peak = sqrt(2) x rms', () => {
+    // 0 dBu: sqrt(0.6) V rms = 0.774597 V, 1.095445 V peak; +4 dBu (the "professional line level",
+    // tabulated as 1.228 V rms): 1.227653 V rms, 1.736164 V peak; +20 dBu: 7.74597 V rms (10x),
+    // 10.954451 V peak
+    expect(dbuToPeakVolts(0)).toBeCloseTo(1.095445, 6);
+    expect(dbuToPeakVolts(4) / Math.SQRT2).toBeCloseTo(1.228, 3);
+    expect(dbuToPeakVolts(4)).toBeCloseTo(1.736164, 6);
+    expect(dbuToPeakVolts(20)).toBeCloseTo(10.954451, 6);
+    expect(dbuToPeakVolts(-6.0206)).toBeCloseTo(1.095445 / 2, 5);
+  });
+  it('reads "+9", "9 dBu", "-2.5dBu"; refuses words and levels outside -20 … +30 dBu with a reason', () => {
+    expect(parseDbu('+9')).toEqual({ ok: true, dbu: 9 });
+    expect(parseDbu(' 9 dBu ')).toEqual({ ok: true, dbu: 9 });
+    expect(parseDbu('-2.5dBu')).toEqual({ ok: true, dbu: -2.5 });
+    for (const bad of ['loud', '', '9 dBV', '+', '45', '-30']) {
+      const r = parseDbu(bad);
+      expect(r.ok, bad).toBe(false);
+      if (r.ok === false) expect(r.reason.length).toBeGreaterThan(10);
+    }
+  });
+  it('refuses a calibration that is zero, negative, not finite or beyond 50 V', () => {
+    expect(calibrationProblem(0.2)).toBeNull();
+    expect(calibrationProblem(dbuToPeakVolts(15))).toBeNull();
+    for (const bad of [0, -1, Number.NaN, Number.POSITIVE_INFINITY, 1e-4, 100]) expect(calibrationProblem(bad), String(bad)).toMatch(/between/);
   });
 });
 

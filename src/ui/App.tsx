@@ -8,6 +8,8 @@ import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
+import { calibrationProblem, dbuToPeakVolts, parseDbu } from './model/calibration.ts';
+import { formatVolts } from './model/meters.ts';
 import type { LiveInputDevice, LiveInputOptions } from '../audio/index.ts';
 import type { AudioStatus, LoopRegion, SourceClip } from './audio-port.ts';
 import { canRedo, canUndo, pushHistory, redo, startHistory, undo, type History } from './model/history.ts';
@@ -282,7 +284,10 @@ export function App(): ReactElement {
           </div>
           <Waveform samples={clip?.samples ?? null} duration={dur} loop={loop} onLoop={(r) => { setLoop(r); port.setLoop(r); }} position={() => port.positionSeconds()} />
           <div className="row">
-            <ValueField label="Input calibration (volts at full scale)" unit="volts" value={calibration} snap="off" onCommit={(v) => { setCalibration(v); return null; }} testId="calibration" />
+            <div className="calibration">
+              <ValueField label="Input calibration (volts at full scale)" unit="volts" value={calibration} snap="off" onCommit={(v) => { const bad = calibrationProblem(v); if (!bad) setCalibration(v); return bad; }} testId="calibration" />
+              <FullScaleFromDbu onSet={(v, dbu) => { setCalibration(v); say(`Calibration set from the interface's maximum input level, ${dbu >= 0 ? '+' : ''}${dbu} dBu: ${formatVolts(v)} peak at full scale.`); }} />
+            </div>
             <Meters port={port} voltsAtFullScale={calibration} />
           </div>
           <div className="row ab" role="group" aria-label="Compare">
@@ -355,6 +360,30 @@ export function App(): ReactElement {
       </main>
       <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo</footer>
       {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); setCaution(null); }} onCancel={caution === 'live' ? () => setCaution(null) : undefined} />}
+    </div>
+  );
+}
+
+/** Sets the calibration from an interface's maximum input level (spec sheets give it in dBu). */
+function FullScaleFromDbu({ onSet }: { onSet: (volts: number, dbu: number) => void }): ReactElement {
+  const [text, setText] = useState('');
+  const [error, setError] = useState<string | null>(null);
+  const apply = () => {
+    const r = parseDbu(text);
+    if (r.ok === false) { setError(r.reason); return; }
+    setError(null);
+    onSet(dbuToPeakVolts(r.dbu), r.dbu);
+  };
+  return (
+    <div className="field dbu">
+      <label htmlFor="dbu-input">or from the interface's max input level</label>
+      <div className="value-row">
+        <input id="dbu-input" data-testid="dbu" value={text} placeholder="+9" size={6} aria-invalid={error !== null} className={error ? 'invalid' : ''}
+          onChange={(e) => setText(e.target.value)} onKeyDown={(e) => { if (e.key === 'Enter') apply(); }} />
+        <span className="unit">dBu</span>
+        <button type="button" onClick={apply}>Use</button>
+      </div>
+      <div className={error ? 'msg error' : 'msg'} role={error ? 'alert' : undefined}>{error ?? 'as printed in its specifications'}</div>
     </div>
   );
 }
