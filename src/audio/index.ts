@@ -65,6 +65,7 @@ export interface LiveInputOptions {
 }
 export type LiveChannel = 1 | 2 | 'mix';
 export interface LiveInputDevice { readonly deviceId: string; readonly label: string }
+export interface LiveLatency { readonly inputSeconds: number; readonly processingSeconds: number; readonly outputSeconds: number; readonly totalSeconds: number }
 
 export interface AudioEngineOptions {
   readonly factor?: OversamplingFactor;
@@ -124,6 +125,12 @@ export interface AudioEngine {
   listInputs(): Promise<LiveInputDevice[]>;
   /** Channels of the running live input (0 when off). */
   readonly liveChannels: number;
+  /**
+   * Where the live path's delay comes from, seconds: the input device (as the browser reports it;
+   * 0 where it does not), the processor's oversampling filters (the slot heard, or the larger),
+   * and the context's output buffering (baseLatency + outputLatency). null while live input is off.
+   */
+  liveLatency(): LiveLatency | null;
   setLiveMuted(muted: boolean): void;
   stopLive(): void;
   readonly live: 'off' | 'muted' | 'on';
@@ -230,6 +237,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   const listeners = new Set<(m: FromProcessor) => void>();
   const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
   let latestMeter: MeterReport | null = null;
+  /** Oversampling filter latency of each slot's processor, base-rate samples (from 'loaded'). */
+  const processingLatencySamples: Partial<Record<Slot, number>> = {};
   let peakIn = 0, peakOutDb = -200;
   graph.circuit.port.onmessage = (e: MessageEvent<FromProcessor>) => {
     const m = e.data;
@@ -239,6 +248,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       peakIn = Math.max(peakIn, m.inputPeakVolts);
       peakOutDb = Math.max(peakOutDb, m.outputPeakDbfs);
     } else if (m.type === 'loaded') {
+      processingLatencySamples[m.slot] = m.latencySamples;
       const i = waiting.findIndex((w) => w.slot === m.slot);
       if (i >= 0) waiting.splice(i, 1)[0]!.resolve({ slot: m.slot, designName: m.designName, latencySamples: m.latencySamples, tubeIds: m.tubeIds });
     } else if (m.type === 'error') {
@@ -448,6 +458,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     get live() { return !stream ? 'off' : liveMuted ? 'muted' : 'on'; },
     get liveChannels() { return liveChannels; },
+    liveLatency() {
+      if (!stream) return null;
+      const settings = stream.getAudioTracks()[0]?.getSettings() as (MediaTrackSettings & { latency?: number }) | undefined;
+      const input = typeof settings?.latency === 'number' && settings.latency >= 0 ? settings.latency : 0;
+      const heard = state.monitor === 'dry' ? Math.max(processingLatencySamples.A ?? 0, processingLatencySamples.B ?? 0) : processingLatencySamples[state.monitor] ?? 0;
+      const ac = raw as AudioContext & { outputLatency?: number };
+      const output = (ac.baseLatency ?? 0) + (typeof ac.outputLatency === 'number' ? ac.outputLatency : 0);
+      const processing = heard / fs;
+      return { inputSeconds: input, processingSeconds: processing, outputSeconds: output, totalSeconds: input + processing + output };
+    },
     async listInputs() {
       if (!navigator.mediaDevices?.enumerateDevices) return [];
       const all = await navigator.mediaDevices.enumerateDevices();

@@ -324,6 +324,7 @@ export function App(): ReactElement {
                 <button type="button" className={status.live === 'on' ? 'danger' : ''} onClick={toggleMute} aria-keyshortcuts="M" data-testid="mute">{status.live === 'on' ? 'Mute (M)' : 'Unmute'}</button>
                 <button type="button" onClick={() => port.stopLive()}>Stop live input</button>
                 <span className="fine">{status.live === 'muted' ? 'live input muted' : 'live input on'}{status.message ? ` · ${status.message}` : ''}</span>
+                <LatencyNote port={port} />
                 {inputs.length > 1 && (
                   <label className="inline-label">Input
                     <select value={liveChoice.deviceId ?? ''} onChange={(e) => chooseLive({ ...liveChoice, deviceId: e.target.value || undefined })}>
@@ -385,5 +386,18 @@ function FullScaleFromDbu({ onSet }: { onSet: (volts: number, dbu: number) => vo
       </div>
       <div className={error ? 'msg error' : 'msg'} role={error ? 'alert' : undefined}>{error ?? 'as printed in its specifications'}</div>
     </div>
+  );
+}
+
+/** The live path's delay, refreshed once a second (the output part can change with the device). */
+function LatencyNote({ port }: { port: EnginePort }): ReactElement | null {
+  const [lat, setLat] = useState(() => port.liveLatency());
+  useEffect(() => { const t = setInterval(() => setLat(port.liveLatency()), 1000); return () => clearInterval(t); }, [port]);
+  if (!lat) return null;
+  const ms = (s: number) => (s * 1e3 < 1 ? (s * 1e3).toFixed(2) : (s * 1e3).toFixed(0));
+  return (
+    <span className={`fine${lat.totalSeconds > 0.02 ? ' warn' : ''}`} data-testid="latency" title="Input device + the circuit's oversampling filters + the browser's output buffering. Above about 10-20 ms playing feels late; a smaller buffer in the system's audio settings helps.">
+      delay about {ms(lat.totalSeconds)} ms (input {ms(lat.inputSeconds)}, circuit {ms(lat.processingSeconds)}, output {ms(lat.outputSeconds)})
+    </span>
   );
 }

@@ -5,7 +5,7 @@ import { designCircuit, type Design, type Part } from '../dsp/circuit/design.ts'
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
-import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions } from '../audio/index.ts';
+import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
@@ -201,6 +201,7 @@ export class EnginePort implements AudioPort {
       this.emit({ live: e.live, liveChannels: e.liveChannels });
     }
   }
+  liveLatency(): LiveLatency | null { return this.engine?.liveLatency() ?? null; }
   listInputs(): Promise<LiveInputDevice[]> { return this.engine ? this.engine.listInputs() : Promise.resolve([]); }
   stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off', liveChannels: 0 }); }
   setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live }); }

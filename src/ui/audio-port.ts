@@ -3,7 +3,7 @@
 import type { Design } from '../dsp/circuit/design.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
-import type { LiveInputDevice, LiveInputOptions } from '../audio/index.ts';
+import type { LiveInputDevice, LiveInputOptions, LiveLatency } from '../audio/index.ts';
 
 export interface SourceClip {
   readonly name: string;
@@ -66,6 +66,8 @@ export interface AudioPort {
   startLive(options?: LiveInputOptions): Promise<void>;
   /** The audio inputs on offer (labels once access was granted). */
   listInputs(): Promise<LiveInputDevice[]>;
+  /** The live path's delay by part while live input runs, else null. */
+  liveLatency(): LiveLatency | null;
   stopLive(): void;
   setMuted(muted: boolean): void;
   /** Peak levels since the last call: circuit input volts and output dBFS. */

@@ -2,7 +2,7 @@
 // bench/worklet.browser.bench.ts (driven by playwright-core).
 import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
 import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
-import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions } from '../../src/audio/index.ts';
+import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions, type LiveLatency } from '../../src/audio/index.ts';
 import type { Design } from '../../src/dsp/circuit/design.ts';
 
 /** The worklet alone in an OfflineAudioContext: input samples in, output channel out, and the render time. */
@@ -32,16 +32,17 @@ async function renderGraph(init: ProcessorInit, input: number[], rateHz: number,
 }
 
 /** Live input through the real-time graph for `seconds`; returns meter reports and the spectrum peak. */
-async function liveRun(design: Design, seconds: number, options: LiveInputOptions = {}): Promise<{ reports: FromProcessor[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string; channels: number; inputs: number; error: string }> {
+async function liveRun(design: Design, seconds: number, options: LiveInputOptions = {}): Promise<{ reports: FromProcessor[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string; channels: number; inputs: number; error: string; latency: LiveLatency | null }> {
   const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
   const reports: FromProcessor[] = [];
   audio.onReport((m) => reports.push(structuredClone(m)));
   await audio.loadDesign('A', design);
   try { await audio.startLive(options); } catch (e) {
     await audio.dispose();
-    return { reports, peakHz: 0, peakDb: -Infinity, sampleRateHz: 0, liveBefore: 'off', liveAfter: 'off', channels: 0, inputs: 0, error: (e as Error).message };
+    return { reports, peakHz: 0, peakDb: -Infinity, sampleRateHz: 0, liveBefore: 'off', liveAfter: 'off', channels: 0, inputs: 0, error: (e as Error).message, latency: null };
   }
   const channels = audio.liveChannels, inputs = (await audio.listInputs()).length;
+  const latency = audio.liveLatency();
   const liveBefore = audio.live;
   audio.setLiveMuted(false);
   await new Promise((r) => setTimeout(r, seconds * 1000));
@@ -52,7 +53,7 @@ async function liveRun(design: Design, seconds: number, options: LiveInputOption
   const liveAfter = audio.live;
   const sampleRateHz = audio.sampleRateHz;
   await audio.dispose();
-  return { reports, peakHz: best * s.binHertz, peakDb: spec[best] ?? -Infinity, sampleRateHz, liveBefore, liveAfter, channels, inputs, error: '' };
+  return { reports, peakHz: best * s.binHertz, peakDb: spec[best] ?? -Infinity, sampleRateHz, liveBefore, liveAfter, channels, inputs, error: '', latency };
 }
 
 /** Denied microphone: the error and whether the graph still works afterwards. */

@@ -197,6 +197,8 @@ describe('audition workspace', () => {
     await h.page.getByRole('button', { name: /enable input \(muted\)/ }).click();
     await h.page.getByTestId('mute').waitFor();
     expect(await h.page.getByTestId('mute').textContent()).toBe('Unmute');
+    // the live path's delay is shown by part (the fake device's figures; a real one differs)
+    expect(await h.page.getByTestId('latency').textContent()).toMatch(/delay about \d+ ms \(input [\d.]+, circuit 0\.\d\d, output [\d.]+\)/);
     await h.page.getByTestId('mute').click();
     await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Mute (M)');
     await h.page.keyboard.press('m');

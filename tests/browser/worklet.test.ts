@@ -8,6 +8,9 @@ import type { ViteDevServer } from 'vite';
 import { browserAvailable, openHarness, SKIP_REASON, startServer, type Browser, type HarnessApi } from './browser-env.ts';
 import { installShim, makeProcessor } from '../helpers/worklet-shim.ts';
 import { TEMPLATES } from '../../src/dsp/circuit/templates.ts';
+import { designCircuit } from '../../src/dsp/circuit/design.ts';
+import { OversampledCircuit } from '../../src/dsp/render/oversampled.ts';
+import { DEFAULT_LIVE_FACTOR } from '../../src/dsp/realtime/dual-slot-engine.ts';
 import type { ProcessorInit, ToProcessor } from '../../src/dsp/realtime/messages.ts';
 
 if (!browserAvailable) console.warn(SKIP_REASON);
@@ -82,6 +85,15 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       const r = await live.page.evaluate((d) => (window as unknown as { vw: HarnessApi }).vw.liveRun(d, 1.5), TT);
       expect(r.liveBefore).toBe('muted'); // live input starts muted
       expect(r.liveAfter).toBe('on');
+      // the live path's delay, by part: the processing share is the oversampling filters' latency
+      // at the live default (DEFAULT_LIVE_FACTOR; under 1 ms, bench/alias.bench.ts)
+      const lat = r.latency!;
+      console.log(`live latency: input ${(lat.inputSeconds * 1e3).toFixed(2)} ms, processing ${(lat.processingSeconds * 1e3).toFixed(3)} ms, output ${(lat.outputSeconds * 1e3).toFixed(2)} ms`);
+      const want = new OversampledCircuit(designCircuit(TT), r.sampleRateHz, DEFAULT_LIVE_FACTOR).latencySamples / r.sampleRateHz;
+      expect(Math.abs(lat.processingSeconds - want)).toBeLessThan(1e-9);
+      expect(lat.processingSeconds).toBeLessThan(1e-3);
+      for (const x of [lat.inputSeconds, lat.outputSeconds]) { expect(x).toBeGreaterThanOrEqual(0); expect(x).toBeLessThan(0.5); }
+      expect(lat.totalSeconds).toBeCloseTo(lat.inputSeconds + lat.processingSeconds + lat.outputSeconds, 12);
       const meters = r.reports.filter((m) => m.type === 'meter');
       expect(meters.length).toBeGreaterThan(20); // ~30 Hz for 1.5 s
       const inPeak = Math.max(...meters.map((m) => m.inputPeakVolts ?? 0));
