@@ -7,7 +7,7 @@ import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { designCircuit, withPart, type Design, type Part, type PotPart, type ResistorPart } from '../src/dsp/circuit/design.ts';
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
 import { Oversampler, type OversamplingFactor } from '../src/dsp/oversampling/oversampler.ts';
-import { circuitModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
+import { circuitModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, SAFETY_SUSTAIN_SECONDS, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, MeterReport, ToProcessor } from '../src/dsp/realtime/messages.ts';
 
 const FS = 48000;
@@ -329,6 +329,31 @@ describe('click-free editing', () => {
     expect(peak).toBeGreaterThan(CEILING * 0.99);
     const off = makeProcessor({ initial: [...init, { type: 'set-limiter', enabled: false }] }).run(x);
     expect(Math.max(...off.map(Math.abs))).toBeGreaterThan(1.5);
+  });
+
+  it('with live input, an output pinned in the limiter for 1 s is muted once and reported; not without live input, not at a sane level', () => {
+    // A 700 Hz sine driven +12 dB into the ceiling (as above) stands for runaway feedback.
+    const x = sine(700, 1, 2 * FS);
+    const loud: ToProcessor[] = [{ type: 'load-design', slot: 'A', design: PT }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 5 }, { type: 'set-output-level', db: 12 }];
+    const live = makeProcessor({ initial: [...loud, { type: 'set-live-input', live: true }] });
+    const y = live.run(x);
+    const muted = live.posted.filter((m) => m.type === 'safety-muted');
+    expect(muted).toHaveLength(1);
+    expect((muted[0] as { reason: string }).reason).toMatch(/limiter.*live input/);
+    // loud up to the sustain time, silent from a few ms after it (the 1 ms mute ramp, block granularity)
+    const at = SAFETY_SUSTAIN_SECONDS * FS;
+    expect(maxAbs(y, 0.5 * FS, at - 256)).toBeGreaterThan(0.5);
+    expect(maxAbs(y, at + 512, y.length)).toBe(0);
+    // the same without live input keeps playing (file playback has no automatic mute)
+    const file = makeProcessor({ initial: loud });
+    const yf = file.run(x);
+    expect(file.posted.some((m) => m.type === 'safety-muted')).toBe(false);
+    expect(maxAbs(yf, at + 512, yf.length)).toBeGreaterThan(0.5);
+    // live at a level that does not sit in the limiter: no mute
+    const sane = makeProcessor({ initial: [loud[0]!, loud[1]!, { type: 'set-output-level', db: -30 }, { type: 'set-live-input', live: true }] });
+    const ys = sane.run(x);
+    expect(sane.posted.some((m) => m.type === 'safety-muted')).toBe(false);
+    expect(maxAbs(ys, at + 512, ys.length)).toBeGreaterThan(0.005);
   });
 
   it('smooths a pot sweep: zipper noise measured against jumping and against a steady pot', () => {

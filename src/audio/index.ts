@@ -154,6 +154,8 @@ interface State {
   levelDb: number;
   limiter: boolean;
   monitor: Monitor;
+  /** The output mute chosen through setMuted (the processor's; the live input has its own). */
+  outputMuted: boolean;
 }
 
 function stateMessages(s: State): ToProcessor[] {
@@ -230,13 +232,20 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   const fs = raw.sampleRate;
   const state: State = {
     factor: options.factor ?? DEFAULT_LIVE_FACTOR, designs: {}, inputVolts: options.inputVoltsAtFullScale ?? 0.2,
-    outputScale: {}, levelDb: 0, limiter: true, monitor: 'A',
+    outputScale: {}, levelDb: 0, limiter: true, monitor: 'A', outputMuted: false,
   };
   const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: stateMessages(state) }, options.fftSize ?? 4096);
   const scope = new ScopeBuffer(options.scopeCapacity ?? 300);
   const listeners = new Set<(m: FromProcessor) => void>();
   const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
   let latestMeter: MeterReport | null = null;
+  /** The processor muted its output for safety and waits for the user (see 'safety-muted'). */
+  let safetyHeld = false;
+  const releaseSafety = (): void => {
+    if (!safetyHeld) return;
+    safetyHeld = false;
+    graph.send({ type: 'set-mute', muted: state.outputMuted });
+  };
   /** Oversampling filter latency of each slot's processor, base-rate samples (from 'loaded'). */
   const processingLatencySamples: Partial<Record<Slot, number>> = {};
   let peakIn = 0, peakOutDb = -200;
@@ -247,6 +256,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       scope.push(m);
       peakIn = Math.max(peakIn, m.inputPeakVolts);
       peakOutDb = Math.max(peakOutDb, m.outputPeakDbfs);
+    } else if (m.type === 'safety-muted') {
+      // the processor muted its output: mute the live input here too (breaking a feedback loop).
+      // The output stays muted (the circuit's tail at a level that pinned the limiter is loud)
+      // until the user unmutes the live input or stops it.
+      safetyHeld = true;
+      if (stream) {
+        liveMuted = true;
+        liveGain.gain.cancelScheduledValues(ctx.currentTime);
+        liveGain.gain.value = 0;
+      }
     } else if (m.type === 'loaded') {
       processingLatencySamples[m.slot] = m.latencySamples;
       const i = waiting.findIndex((w) => w.slot === m.slot);
@@ -351,6 +370,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
     setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
     setMuted(muted) {
+      state.outputMuted = muted;
       send({ type: 'set-mute', muted });
       graph.output.gain.cancelScheduledValues(ctx.currentTime);
       graph.output.gain.rampTo(muted ? 0 : 1, 0.002);
@@ -440,10 +460,12 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     setLiveMuted(muted) {
       liveMuted = muted;
+      if (!muted) releaseSafety();
       liveGain.gain.cancelScheduledValues(ctx.currentTime);
       liveGain.gain.rampTo(muted || !stream ? 0 : 1, 0.002);
     },
     stopLive() {
+      releaseSafety();
       if (!stream) return;
       liveGain.gain.value = 0;
       streamNode?.disconnect();

@@ -92,6 +92,9 @@ export function App(): ReactElement {
   useEffect(() => { port.setLoudnessMatch(matched); }, [port, matched]);
   useEffect(() => { port.setQuality(quality); }, [port, quality]);
   useEffect(() => { port.setOverloadGuard(guarded); }, [port, guarded]);
+  // the processor muted live input for safety: say so where it cannot be missed
+  const safetyNote = status?.safetyNote ?? null;
+  useEffect(() => { if (safetyNote) say(safetyNote, true); }, [safetyNote]);
   // the port lowered the quality itself (sustained overload): follow it and say why
   const lowered = status?.qualityNote ? status.qualityFactor : null;
   useEffect(() => {

@@ -39,7 +39,7 @@ export class EnginePort implements AudioPort {
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
   private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private lastStatusMs = 0;
@@ -69,6 +69,7 @@ export class EnginePort implements AudioPort {
         e.onReport((m) => {
           if (m.type === 'error') this.emit({ message: m.message });
           else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
+          else if (m.type === 'safety-muted') this.emit({ live: e.live, safetyNote: `Live input muted for safety: ${m.reason}. Use headphones or turn the speakers away, lower the output level, then unmute.` });
           else if (m.type === 'meter') {
             const now = performance.now();
             this.observeLoad(m.loadFraction, now);
@@ -204,7 +205,7 @@ export class EnginePort implements AudioPort {
   liveLatency(): LiveLatency | null { return this.engine?.liveLatency() ?? null; }
   listInputs(): Promise<LiveInputDevice[]> { return this.engine ? this.engine.listInputs() : Promise.resolve([]); }
   stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off', liveChannels: 0 }); }
-  setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live }); }
+  setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live, ...(muted ? {} : { safetyNote: null }) }); }
 
   levels(): { inputVolts: number; outputDbfs: number } { return this.engine?.levels() ?? { inputVolts: 0, outputDbfs: -120 }; }
   spectrum(into: Float32Array): { ok: boolean; binHertz: number } { return this.engine && this.engine.playing ? this.engine.spectrum(into) : { ok: false, binHertz: 0 }; }

@@ -35,6 +35,8 @@ export interface AudioStatus {
   readonly liveChannels: number;
   /** The audio thread is suspended for want of anything to do (resumes on play, live input or an edit). */
   readonly idle: boolean;
+  /** Why the processor muted live input for safety (until the user unmutes), else null. */
+  readonly safetyNote: string | null;
 }
 
 export interface ScopeTrace {

@@ -56,6 +56,27 @@ async function liveRun(design: Design, seconds: number, options: LiveInputOption
   return { reports, peakHz: best * s.binHertz, peakDb: spec[best] ?? -Infinity, sampleRateHz, liveBefore, liveAfter, channels, inputs, error: '', latency };
 }
 
+/**
+ * Live safety mute through the whole graph: the fake capture's tone turned up until the output
+ * sits in the limiter. Returns how often the processor reported it, the live state afterwards
+ * and the output peaks of the last reports (after the mute).
+ */
+async function liveSafety(design: Design): Promise<{ safetyMuted: number; liveAfter: string; lastPeaksDbfs: number[] }> {
+  const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
+  const reports: FromProcessor[] = [];
+  audio.onReport((m) => reports.push(structuredClone(m)));
+  await audio.loadDesign('A', design);
+  audio.setOutputScale('A', 1);
+  audio.setOutputLevel(24);
+  await audio.startLive();
+  audio.setLiveMuted(false);
+  await new Promise((r) => setTimeout(r, 2500));
+  const liveAfter = audio.live;
+  const meters = reports.filter((m): m is Extract<FromProcessor, { type: 'meter' }> => m.type === 'meter');
+  await audio.dispose();
+  return { safetyMuted: reports.filter((m) => m.type === 'safety-muted').length, liveAfter, lastPeaksDbfs: meters.slice(-10).map((m) => m.outputPeakDbfs) };
+}
+
 /** Denied microphone: the error and whether the graph still works afterwards. */
 async function liveDenied(): Promise<{ error: string; name: string; stillPlays: boolean }> {
   const audio = await createAudioEngine();
@@ -97,4 +118,4 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
   return { states, loadedWhileIdle, reportsAfterWake, idleFlags };
 }
 
-Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, ready: true } });
+Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, ready: true } });

@@ -108,6 +108,13 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       // harmonics of a steady sine; grid-leak bias is asymmetric, so the 2nd may lead)
       const h = Math.max(1, Math.round(r.peakHz / 440));
       expect(Math.abs(r.peakHz - h * 440)).toBeLessThan(3 * (r.sampleRateHz / 4096));
+      // the same tone turned up until the output sits in the limiter (as runaway feedback would):
+      // muted once after about a second, and the live input is left muted for the user to undo
+      const s = await live.page.evaluate((d) => (window as unknown as { vw: HarnessApi }).vw.liveSafety(d), TT);
+      console.log(`live safety: ${s.safetyMuted} mute(s), live ${s.liveAfter}, last output peaks ${s.lastPeaksDbfs.map((x) => x.toFixed(0)).join(' ')} dBFS`);
+      expect(s.safetyMuted).toBe(1);
+      expect(s.liveAfter).toBe('muted');
+      for (const p of s.lastPeaksDbfs) expect(p).toBeLessThan(-60);
     } finally {
       await live.close();
     }

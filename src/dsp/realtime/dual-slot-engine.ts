@@ -44,6 +44,15 @@ export const COMPONENT_SMOOTHING_SECONDS = 0.15;
 /** Glide step interval: zipper steps shrink with it, each step costs one engine recompile. */
 export const SMOOTHING_STEP_SAMPLES = 64;
 export const MUTE_SECONDS = 0.001;
+/**
+ * Live safety mute: with live input on, an output held at least SAFETY_LIMIT_DB into the safety
+ * limiter (its gain reduction at the end of every block) for SAFETY_SUSTAIN_SECONDS is muted.
+ * Acoustic feedback runs away into the limiter and stays there; so does a level turned up until
+ * everything is squashed at the ceiling, which is loud enough to hurt through headphones.
+ * (Thresholds: common practice, no source.)
+ */
+export const SAFETY_LIMIT_DB = 6;
+export const SAFETY_SUSTAIN_SECONDS = 1;
 export const METER_HZ = 30;
 export const LIMITER_CEILING_DBFS = -1;
 const DRY_DELAY_CAPACITY = 1024; // power of two, > any oversampler latency in base samples
@@ -597,11 +606,30 @@ export class DualSlotEngine {
     }
     if (A.model) this.checkFault(A, this.faultA, output, n);
     if (B.model) this.checkFault(B, this.faultB, output, n);
+    this.safetyCheck(n);
     const acc = this.meterAcc;
     acc[2] = acc[2]! + (this.nowMs() - t0);
     acc[3] = acc[3]! + (n / this.sampleRateHz) * 1000;
     this.sinceMeter += n;
     if (this.sinceMeter >= this.meterInterval) this.sendMeter();
+  }
+
+  /** Samples in a row (block ends) with the live output held SAFETY_LIMIT_DB into the limiter. */
+  private limitedSamples = 0;
+  private readonly safetyLimitGain = Math.pow(10, -SAFETY_LIMIT_DB / 20);
+  private readonly safetyMessage: FromProcessor = {
+    type: 'safety-muted',
+    reason: `the output stayed pinned at the safety limiter for ${SAFETY_SUSTAIN_SECONDS} s with live input on (feedback, or a level that hurts): output muted`,
+  };
+
+  /** Live input only: mute the output when it has been held in the limiter too long (see SAFETY_LIMIT_DB). */
+  private safetyCheck(n: number): void {
+    if (!this.live || !(this.limiter.gain < this.safetyLimitGain)) { this.limitedSamples = 0; return; }
+    this.limitedSamples += n;
+    if (this.limitedSamples < SAFETY_SUSTAIN_SECONDS * this.sampleRateHz) return;
+    this.limitedSamples = 0;
+    this.mute.to(0, this.muteSamples);
+    this.post(this.safetyMessage);
   }
 
   private faultA = false;

@@ -77,6 +77,13 @@ export type FromProcessor =
   | { readonly type: 'error'; readonly message: string }
   /** A NaN/Inf was caught: the slot was restored to its operating point and a silent block sent. */
   | { readonly type: 'recovered'; readonly slot: Slot; readonly reason: string }
+  /**
+   * With live input on, the output stayed pinned at the safety limiter (SAFETY_LIMIT_DB of
+   * reduction for SAFETY_SUSTAIN_SECONDS): the processor muted its output (likely acoustic
+   * feedback, or a level that hurts). The main thread then mutes the live input and lifts the
+   * output mute; the user unmutes as usual.
+   */
+  | { readonly type: 'safety-muted'; readonly reason: string }
   | MeterReport;
 
 /** Given to the processor at construction (AudioWorkletNodeOptions.processorOptions). */

@@ -17,6 +17,11 @@ export class PeakLimiter {
     this.state[1] = g;
   }
 
+  /** The gain applied to the last sample (1 = not limiting). */
+  get gain(): number {
+    return this.state[0]!;
+  }
+
   constructor(sampleRateHz: number, ceilingDbfs = -1, releaseSeconds = 0.08) {
     this.ceiling = Math.pow(10, ceilingDbfs / 20);
     this.releaseCoeff = Math.exp(-1 / (releaseSeconds * sampleRateHz));
