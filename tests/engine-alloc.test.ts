@@ -244,7 +244,7 @@ describe('the audio path allocates nothing per block', () => {
   // a child node with --expose-gc. Under the test runner's module transform every imported call
   // goes through an accessor and V8 boxes doubles it would not box in the bundle (8.7 bytes per
   // sample here against 0.6 bundled), so the runner's own heap is the wrong place to look.
-  it.each([0.7, 1.5])('DualSlotEngine.process, two slots at the live default, %d of full scale: no minor collection in 4000 blocks', async (level) => {
+  it.each([[0.7, false], [1.5, false], [1.5, true]] as const)('DualSlotEngine.process, two slots at the live default, %d of full scale, live input %s: no minor collection in 4000 blocks', async (level, live) => {
     // How: the child runs with a 1 MB semi-space (--max-semi-space-size=1), so every MB
     // allocated forces a minor collection, and a PerformanceObserver counts them over 4000
     // blocks (512 k samples) after warm-up: none means under 2 bytes per sample. heapUsed
@@ -267,7 +267,7 @@ describe('the audio path allocates nothing per block', () => {
         const e = new DualSlotEngine({ sampleRateHz: 48000, meterHz: 0, post: () => {}, initial: [
           { type: 'load-design', slot: 'A', design: TEMPLATES['pentode-triode']! },
           { type: 'load-design', slot: 'B', design: TEMPLATES['triode-triode']! },
-          { type: 'set-input-calibration', voltsAtFullScale: 0.5 }] });
+          { type: 'set-input-calibration', voltsAtFullScale: 0.5 }, { type: 'set-live-input', live: ${live} }] });
         const x = new Float32Array(128), y = new Float32Array(128);
         let t = 0, finite = true;
         const blocks = (nb: number) => { for (let b = 0; b < nb; b++) { for (let k = 0; k < 128; k++, t++) x[k] = ${level} * Math.sin((2 * Math.PI * 196 * t) / 48000); e.process(x, y, 128); for (let k = 0; k < 128; k++) if (!Number.isFinite(y[k]!)) finite = false; } };
