@@ -9,6 +9,7 @@ import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
 import { Oversampler, type OversamplingFactor } from '../src/dsp/oversampling/oversampler.ts';
 import { circuitModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, SAFETY_SUSTAIN_SECONDS, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, MeterReport, ToProcessor } from '../src/dsp/realtime/messages.ts';
+import { SAFETY_INIT } from '../src/audio/graph.ts';
 
 const FS = 48000;
 const TT = TEMPLATES['triode-triode']!;
@@ -354,6 +355,11 @@ describe('click-free editing', () => {
     const ys = sane.run(x);
     expect(sane.posted.some((m) => m.type === 'safety-muted')).toBe(false);
     expect(maxAbs(ys, at + 512, ys.length)).toBeGreaterThan(0.005);
+    // the graph's post-cabinet safety stage (live mode only to lock its limiter) never mutes
+    const stage = makeProcessor(SAFETY_INIT);
+    const yst = stage.run(Float32Array.from(x, (v) => 4 * v));
+    expect(stage.posted.some((m) => m.type === 'safety-muted')).toBe(false);
+    expect(maxAbs(yst, at + 512, yst.length)).toBeGreaterThan(0.5);
   });
 
   it('smooths a pot sweep: zipper noise measured against jumping and against a steady pot', () => {

@@ -24,6 +24,7 @@ class CircuitProcessor extends AudioWorkletProcessor {
       ...(init.factor !== undefined ? { factor: init.factor } : {}),
       ...(init.meterHz !== undefined ? { meterHz: init.meterHz } : {}),
       ...(init.initial !== undefined ? { initial: init.initial } : {}),
+      ...(init.safetyMute !== undefined ? { safetyMute: init.safetyMute } : {}),
       nowMs: clock,
       post,
     });

@@ -37,6 +37,7 @@ export async function loadWorklet(ctx: ToneContext): Promise<void> {
 export const SAFETY_INIT: ProcessorInit = {
   meterHz: 0,
   factor: 1,
+  safetyMute: false,
   initial: [{ type: 'monitor', target: 'dry' }, { type: 'set-live-input', live: true }],
 };
 

@@ -185,6 +185,8 @@ export interface DualSlotOptions {
   readonly meterHz?: number;
   /** Clock for the load measurement, milliseconds. */
   readonly nowMs?: () => number;
+  /** See ProcessorInit.safetyMute (default true). */
+  readonly safetyMute?: boolean;
   /** Receives reports. The meter report object is reused between calls: copy it to keep it. */
   readonly post?: (m: FromProcessor) => void;
   readonly createModel?: ModelFactory;
@@ -207,6 +209,7 @@ export class DualSlotEngine {
   private factorNow: OversamplingFactor;
   private readonly post: (m: FromProcessor) => void;
   private readonly nowMs: () => number;
+  private readonly safetyMute: boolean;
   private readonly createModel: ModelFactory;
   private readonly slots: readonly [SlotState, SlotState];
   private readonly xfadeSamples: number;
@@ -251,6 +254,7 @@ export class DualSlotEngine {
     this.factorNow = f;
     this.post = options.post ?? (() => {});
     this.nowMs = options.nowMs ?? (() => Date.now());
+    this.safetyMute = options.safetyMute ?? true;
     this.createModel = options.createModel ?? circuitModel;
     this.slots = [new SlotState('A'), new SlotState('B')];
     this.xfadeSamples = Math.round(CROSSFADE_SECONDS * fs);
@@ -624,7 +628,7 @@ export class DualSlotEngine {
 
   /** Live input only: mute the output when it has been held in the limiter too long (see SAFETY_LIMIT_DB). */
   private safetyCheck(n: number): void {
-    if (!this.live || !(this.limiter.gain < this.safetyLimitGain)) { this.limitedSamples = 0; return; }
+    if (!this.safetyMute || !this.live || !(this.limiter.gain < this.safetyLimitGain)) { this.limitedSamples = 0; return; }
     this.limitedSamples += n;
     if (this.limitedSamples < SAFETY_SUSTAIN_SECONDS * this.sampleRateHz) return;
     this.limitedSamples = 0;

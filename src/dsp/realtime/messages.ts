@@ -94,6 +94,12 @@ export interface ProcessorInit {
   readonly factor?: OversamplingFactor;
   /** Meter reports per second (default 30; 0 = none). */
   readonly meterHz?: number;
+  /**
+   * Mute on an output pinned in the limiter while live input is on (default true). Off for the
+   * graph's post-cabinet safety stage, which turns live mode on only to lock its limiter and has
+   * no listener for the report.
+   */
+  readonly safetyMute?: boolean;
 }
 
 export const PROCESSOR_NAME = 'valvewright-circuit';
