@@ -42,6 +42,9 @@ import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import type { FromProcessor, MeterReport, Monitor, ProcessorInit, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import { buildGraph, type Graph } from './graph.ts';
 import { ScopeBuffer } from './scope.ts';
+import takeWorkletUrl from '../../worklets/take.worklet.ts?worker&url';
+import { TAKE_PROCESSOR_NAME } from '../dsp/realtime/take-messages.ts';
+import { TakeRecorder, type Take } from './take.ts';
 
 export { ScopeBuffer } from './scope.ts';
 export { buildGraph, loadWorklet, type Graph } from './graph.ts';
@@ -119,6 +122,14 @@ export interface AudioEngine {
   positionSeconds(): number;
   setLoop(region: LoopRegion | null): void;
   startLive(options?: LiveInputOptions): Promise<void>;
+  /** Start recording the live input (the DI, before the circuit) as a take; live input must be on. */
+  startTake(): void;
+  /** Stop recording and get the take (empty if none was recording). */
+  stopTake(): Promise<Take>;
+  /** Seconds recorded in the running take, or null when none is recording. */
+  readonly takeSeconds: number | null;
+  /** Called with a take that stopped by itself (at MAX_TAKE_SECONDS, or because live input stopped). */
+  onTakeEnded(listener: (t: Take) => void): void;
   /** The context is suspended for want of anything to do (see IDLE_SUSPEND_SECONDS); play, live input or any message resumes it. */
   readonly idle: boolean;
   /** The audio inputs the browser offers (labels only after access was granted once). */
@@ -236,6 +247,17 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   };
   const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: stateMessages(state) }, options.fftSize ?? 4096);
   const scope = new ScopeBuffer(options.scopeCapacity ?? 300);
+  // the take recorder listens to the live input (a realtime context only)
+  let takeNode: AudioWorkletNode | null = null, recorder: TakeRecorder | null = null;
+  let takeEnded: ((t: Take) => void) | null = null;
+  if (raw instanceof AudioContext) {
+    // on the native context: Tone loads one worklet module per context (the circuit's), and
+    // this node only ever connects to native nodes (the stream source and its splitter)
+    await raw.audioWorklet.addModule(takeWorkletUrl);
+    takeNode = new AudioWorkletNode(raw, TAKE_PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 0, channelCount: 1, channelCountMode: 'explicit' });
+    recorder = new TakeRecorder(takeNode.port, fs);
+    recorder.onTruncated = (t) => takeEnded?.(t);
+  }
   const listeners = new Set<(m: FromProcessor) => void>();
   const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
   let latestMeter: MeterReport | null = null;
@@ -446,13 +468,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       wake();
       streamNode = raw.createMediaStreamSource(stream);
       liveChannels = channels;
-      if (channel === 'mix') Tone.connect(streamNode, liveGain);
-      else {
+      if (channel === 'mix') {
+        Tone.connect(streamNode, liveGain);
+        if (takeNode) streamNode.connect(takeNode);
+      } else {
         // one channel of the interface on its own (a guitar on input 2 would otherwise come in
         // at half level, averaged with a silent input 1)
         splitter = raw.createChannelSplitter(2);
         streamNode.connect(splitter);
         Tone.connect(splitter, liveGain, channel - 1, 0);
+        if (takeNode) splitter.connect(takeNode, channel - 1, 0);
       }
       liveMuted = true;
       liveGain.gain.value = 0;
@@ -467,6 +492,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     stopLive() {
       releaseSafety();
       if (!stream) return;
+      // a take in progress ends with the input: hand it over rather than lose it
+      if (recorder?.isRecording) void recorder.stop().then((t) => takeEnded?.(t));
       liveGain.gain.value = 0;
       streamNode?.disconnect();
       splitter?.disconnect();
@@ -480,6 +507,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     get live() { return !stream ? 'off' : liveMuted ? 'muted' : 'on'; },
     get liveChannels() { return liveChannels; },
+    startTake() {
+      if (!recorder) throw new Error('takes are recorded from live input on a realtime context');
+      if (!stream) throw new Error('start live input before recording a take');
+      recorder.start();
+    },
+    stopTake() {
+      return recorder ? recorder.stop() : Promise.resolve({ samples: new Float32Array(0), sampleRateHz: fs, droppedSamples: 0, truncated: false });
+    },
+    get takeSeconds() { return recorder?.isRecording ? recorder.seconds : null; },
+    onTakeEnded(listener) { takeEnded = listener; },
     liveLatency() {
       if (!stream) return null;
       const settings = stream.getAudioTracks()[0]?.getSettings() as (MediaTrackSettings & { latency?: number }) | undefined;

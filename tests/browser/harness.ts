@@ -77,6 +77,23 @@ async function liveSafety(design: Design): Promise<{ safetyMuted: number; liveAf
   return { safetyMuted: reports.filter((m) => m.type === 'safety-muted').length, liveAfter, lastPeaksDbfs: meters.slice(-10).map((m) => m.outputPeakDbfs) };
 }
 
+/** Record a take of the live input (the fake capture), then return it with its statistics. */
+async function takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ length: number; sampleRateHz: number; dropped: number; rms: number; peak: number; during: number | null; afterStop: number | null }> {
+  const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
+  await audio.startLive({ channel });
+  audio.startTake();
+  await new Promise((r) => setTimeout(r, seconds * 1000));
+  const during = audio.takeSeconds;
+  const t = await audio.stopTake();
+  const afterStop = audio.takeSeconds;
+  let ss = 0, peak = 0;
+  // skip the first 0.1 s (the capture device starting)
+  const from = Math.round(0.1 * t.sampleRateHz);
+  for (let k = from; k < t.samples.length; k++) { ss += t.samples[k]! ** 2; peak = Math.max(peak, Math.abs(t.samples[k]!)); }
+  await audio.dispose();
+  return { length: t.samples.length, sampleRateHz: t.sampleRateHz, dropped: t.droppedSamples, rms: Math.sqrt(ss / Math.max(1, t.samples.length - from)), peak, during, afterStop };
+}
+
 /** Denied microphone: the error and whether the graph still works afterwards. */
 async function liveDenied(): Promise<{ error: string; name: string; stillPlays: boolean }> {
   const audio = await createAudioEngine();
@@ -118,4 +135,4 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
   return { states, loadedWhileIdle, reportsAfterWake, idleFlags };
 }
 
-Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, ready: true } });
+Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });

@@ -148,6 +148,16 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       // mixed: the average of the two (Web Audio's stereo-to-mono down-mix, 0.5 (L + R)), peak up to 0.175 V
       expect(peak(mix)).toBeGreaterThan(0.13);
       expect(peak(mix)).toBeLessThan(0.18);
+      // a take of input 2 records the DI itself: 0.2 FS sine, rms 0.2/sqrt(2) = 0.1414, for as long as it ran
+      const take = await live.page.evaluate(() => (window as unknown as { vw: HarnessApi }).vw.takeRun(1.0, 2));
+      console.log(`take: ${take.length} samples at ${take.sampleRateHz} Hz, rms ${take.rms.toFixed(4)}, peak ${take.peak.toFixed(4)}, dropped ${take.dropped}, ${take.during?.toFixed(2)} s while recording`);
+      expect(take.dropped).toBe(0);
+      expect(take.length / take.sampleRateHz).toBeGreaterThan(0.9);
+      expect(take.length / take.sampleRateHz).toBeLessThan(1.3);
+      expect(Math.abs(take.rms - 0.2 / Math.SQRT2)).toBeLessThan(0.003);
+      expect(take.peak).toBeLessThan(0.2 + 1e-3);
+      expect(take.during).toBeGreaterThan(0.8);
+      expect(take.afterStop).toBeNull();
     } finally {
       await live.close();
     }
