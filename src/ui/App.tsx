@@ -146,6 +146,13 @@ export function App(): ReactElement {
     if (c.voltsAtFullScale) setCalibration(c.voltsAtFullScale);
     port.setSource(c);
   };
+  // a recorded take becomes the clip: the same playing through A, B and dry, and the client pack
+  const takeToClip = (c: SourceClip | null) => {
+    if (!c) { say('The take was empty: nothing was recorded.', true); return; }
+    void loadClip({ ...c, voltsAtFullScale: calibration }, c.name);
+    say(`Recorded ${c.name}, ${(c.samples.length / c.sampleRateHz).toFixed(1)} s of the input (before the circuit): it is now the clip, so A, B and dry play the same take.`);
+  };
+  useEffect(() => { port.onTakeEnded((c) => takeToClip(c)); });
   const chooseDemo = async (name: string) => {
     const d = clips.find((c) => c.name === name);
     if (!d) return;
@@ -328,6 +335,7 @@ export function App(): ReactElement {
                 <button type="button" onClick={() => port.stopLive()}>Stop live input</button>
                 <span className="fine">{status.live === 'muted' ? 'live input muted' : 'live input on'}{status.message ? ` · ${status.message}` : ''}</span>
                 <LatencyNote port={port} />
+                <TakeButton port={port} onTake={(c) => takeToClip(c)} />
                 {inputs.length > 1 && (
                   <label className="inline-label">Input
                     <select value={liveChoice.deviceId ?? ''} onChange={(e) => chooseLive({ ...liveChoice, deviceId: e.target.value || undefined })}>
@@ -402,5 +410,21 @@ function LatencyNote({ port }: { port: EnginePort }): ReactElement | null {
     <span className={`fine${lat.totalSeconds > 0.02 ? ' warn' : ''}`} data-testid="latency" title="Input device + the circuit's oversampling filters + the browser's output buffering. Above about 10-20 ms playing feels late; a smaller buffer in the system's audio settings helps.">
       delay about {ms(lat.totalSeconds)} ms (input {ms(lat.inputSeconds)}, circuit {ms(lat.processingSeconds)}, output {ms(lat.outputSeconds)})
     </span>
+  );
+}
+
+/** Record the live input as a take; stopping makes it the clip. */
+function TakeButton({ port, onTake }: { port: EnginePort; onTake: (c: SourceClip | null) => void }): ReactElement {
+  const [seconds, setSeconds] = useState<number | null>(() => port.takeSeconds());
+  useEffect(() => { const t = setInterval(() => setSeconds(port.takeSeconds()), 250); return () => clearInterval(t); }, [port]);
+  const toggle = () => {
+    if (seconds === null) { port.startTake(); setSeconds(0); return; }
+    setSeconds(null);
+    void port.stopTake().then(onTake);
+  };
+  return (
+    <button type="button" data-testid="take" className={seconds !== null ? 'danger' : ''} onClick={toggle} title="Records the input itself (the DI, before the circuit), so the take can be played through A, B and dry and rendered for a client">
+      {seconds === null ? 'Record take' : `Stop take (${seconds.toFixed(1)} s)`}
+    </button>
   );
 }

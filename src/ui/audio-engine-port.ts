@@ -6,6 +6,7 @@ import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
+import type { Take } from '../audio/take.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
@@ -203,6 +204,25 @@ export class EnginePort implements AudioPort {
     }
   }
   liveLatency(): LiveLatency | null { return this.engine?.liveLatency() ?? null; }
+  private takeCount = 0;
+  private takeListener: ((clip: SourceClip | null) => void) | null = null;
+  /** A take as a clip, named by its order and time of day. */
+  private takeClip(t: Take): SourceClip | null {
+    if (t.samples.length === 0) return null;
+    this.takeCount++;
+    const now = new Date();
+    const hhmm = `${String(now.getHours()).padStart(2, '0')}:${String(now.getMinutes()).padStart(2, '0')}`;
+    return { name: `live take ${this.takeCount} (${hhmm})`, samples: t.samples, sampleRateHz: t.sampleRateHz };
+  }
+  startTake(): void {
+    const e = this.engine;
+    if (!e) throw new Error('start live input before recording a take');
+    e.onTakeEnded((t) => this.takeListener?.(this.takeClip(t)));
+    e.startTake();
+  }
+  async stopTake(): Promise<SourceClip | null> { return this.engine ? this.takeClip(await this.engine.stopTake()) : null; }
+  takeSeconds(): number | null { return this.engine?.takeSeconds ?? null; }
+  onTakeEnded(listener: (clip: SourceClip | null) => void): void { this.takeListener = listener; }
   listInputs(): Promise<LiveInputDevice[]> { return this.engine ? this.engine.listInputs() : Promise.resolve([]); }
   stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off', liveChannels: 0 }); }
   setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live, ...(muted ? {} : { safetyNote: null }) }); }

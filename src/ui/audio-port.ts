@@ -70,6 +70,14 @@ export interface AudioPort {
   listInputs(): Promise<LiveInputDevice[]>;
   /** The live path's delay by part while live input runs, else null. */
   liveLatency(): LiveLatency | null;
+  /** Start recording the live input as a take (live input must be on). */
+  startTake(): void;
+  /** Stop recording; the take as a clip (null if nothing was recorded). */
+  stopTake(): Promise<SourceClip | null>;
+  /** Seconds in the running take, or null. */
+  takeSeconds(): number | null;
+  /** Called with a take that ended by itself (live input stopped, or the length limit). */
+  onTakeEnded(listener: (clip: SourceClip | null) => void): void;
   stopLive(): void;
   setMuted(muted: boolean): void;
   /** Peak levels since the last call: circuit input volts and output dBFS. */

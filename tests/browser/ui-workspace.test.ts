@@ -209,6 +209,13 @@ describe('audition workspace', () => {
     await h.page.getByRole('combobox', { name: 'Channel' }).selectOption('1');
     await expect.poll(() => h.page.getByTestId('mute').textContent()).toBe('Unmute');
     expect(await h.page.getByTestId('message').textContent()).toMatch(/restarted.*muted/);
+    // a take of the live input becomes the clip
+    await h.page.getByTestId('take').click();
+    await expect.poll(() => h.page.getByTestId('take').textContent()).toMatch(/Stop take \(0\.[5-9]|Stop take \(1\./);
+    await h.page.getByTestId('take').click();
+    await expect.poll(() => h.page.getByTestId('message').textContent()).toMatch(/Recorded live take 1 .*it is now the clip/);
+    await h.page.getByText(/live take 1 \(\d\d:\d\d\) · \d\.\d s/).waitFor();
+    expect(await h.page.getByTestId('take').textContent()).toBe('Record take');
   }, 60_000);
 
   it('is usable on a narrow laptop screen', async () => {
