@@ -132,6 +132,8 @@ export interface AudioEngine {
   onTakeEnded(listener: (t: Take) => void): void;
   /** The context is suspended for want of anything to do (see IDLE_SUSPEND_SECONDS); play, live input or any message resumes it. */
   readonly idle: boolean;
+  /** Called when `idle` changes (the context's own statechange event). */
+  onIdleChange(listener: (idle: boolean) => void): () => void;
   /** The audio inputs the browser offers (labels only after access was granted once). */
   listInputs(): Promise<LiveInputDevice[]>;
   /** Channels of the running live input (0 when off). */
@@ -283,11 +285,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       // The output stays muted (the circuit's tail at a level that pinned the limiter is loud)
       // until the user unmutes the live input or stops it.
       safetyHeld = true;
-      if (stream) {
-        liveMuted = true;
-        liveGain.gain.cancelScheduledValues(ctx.currentTime);
-        liveGain.gain.value = 0;
-      }
+      if (stream) engine.setLiveMuted(true);
     } else if (m.type === 'loaded') {
       processingLatencySamples[m.slot] = m.latencySamples;
       const i = waiting.findIndex((w) => w.slot === m.slot);
@@ -420,6 +418,11 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     stop() { if (player.state === 'started') player.stop(); wake(); },
     get idle() { return managesIdle && raw.state === 'suspended'; },
+    onIdleChange(listener) {
+      const h = () => listener(engine.idle);
+      raw.addEventListener('statechange', h);
+      return () => raw.removeEventListener('statechange', h);
+    },
     get playing() { return player.state === 'started'; },
     positionSeconds() {
       if (player.state !== 'started' || !source) return 0;

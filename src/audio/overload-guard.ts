@@ -10,6 +10,7 @@
 // (keep a core's audio work well under its budget), not from a source.
 // Pure logic over the reports (no Web Audio types), so it is tested in Node.
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
+import { LIVE_FACTORS } from '../dsp/realtime/dual-slot-engine.ts';
 
 export interface OverloadGuardOptions {
   /** Load fraction above which the processor counts as near its limit. */
@@ -22,8 +23,6 @@ export interface OverloadGuardOptions {
 
 export const DEFAULT_OVERLOAD_GUARD: OverloadGuardOptions = { highFraction: 0.85, sustainMs: 1000, holdMs: 2000 };
 
-/** Live factors the guard steps through, highest first (the UI's live choices). */
-const LADDER: readonly OversamplingFactor[] = [8, 4, 2, 1];
 
 export interface OverloadStep {
   readonly from: OversamplingFactor;
@@ -76,7 +75,7 @@ export class OverloadGuard {
     if (this.highSinceMs === null) this.highSinceMs = nowMs;
     this.stretchMin = Math.min(this.stretchMin, loadFraction);
     if (nowMs - this.highSinceMs < this.opts.sustainMs) return null;
-    const to = LADDER.find((f) => f < this.factor);
+    const to = LIVE_FACTORS.filter((f) => f < this.factor).at(-1); // the next live factor down (ascending list)
     if (to === undefined) return null; // already at the lowest: nothing left to shed
     const step: OverloadStep = { from: this.factor, to, loadFraction: this.stretchMin };
     this.factor = to;

@@ -4,7 +4,7 @@ import type { Design, Part } from '../dsp/circuit/design.ts';
 import { TEMPLATES } from '../dsp/circuit/templates.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
-import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
+import { DEFAULT_LIVE_FACTOR, LIVE_FACTORS } from '../dsp/realtime/dual-slot-engine.ts';
 import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
@@ -27,7 +27,7 @@ import { ClientPack, Meters, Waveform, type DemoClip } from './Listen.tsx';
 import { CautionDialog } from './Cautions.tsx';
 
 const IMPULSES = import.meta.glob('/impulses/*.wav', { query: '?url', import: 'default', eager: true }) as Record<string, string>;
-const QUALITIES: readonly OversamplingFactor[] = [1, 2, 4, 8];
+const QUALITIES = LIVE_FACTORS;
 /** Measured alias levels (npx tsx bench/alias.bench.ts, pentode-triode, 1 V peak sines near 1 / 2.5 kHz). */
 const QUALITY_LABELS: Partial<Record<OversamplingFactor, string>> = {
   1: 'draft (1×)',

@@ -65,8 +65,8 @@ export class EnginePort implements AudioPort {
       this.creating = createAudioEngine({ factor: this.factor, inputVoltsAtFullScale: this.calibration }).then(async (e) => {
         this.engine = e;
         e.setMonitor(this.monitor);
-        // the engine suspends its context when idle: show it (and the load as unknown) once a second
-        setInterval(() => { if (e.idle !== this.status.idle) this.emit(e.idle ? { idle: true, loadFraction: null } : { idle: false }); }, 1000);
+        // the engine suspends its context when idle: show it (and the load as unknown)
+        e.onIdleChange((idle) => { if (idle !== this.status.idle) this.emit(idle ? { idle: true, loadFraction: null } : { idle: false }); });
         e.onReport((m) => {
           if (m.type === 'error') this.emit({ message: m.message });
           else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });

@@ -55,7 +55,7 @@ export interface HarnessApi {
   renderGraph(init: unknown, input: number[], rateHz: number, ir: number[] | null): Promise<number[]>;
   takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ length: number; sampleRateHz: number; dropped: number; rms: number; peak: number; during: number | null; afterStop: number | null }>;
   liveSafety(design: unknown): Promise<{ safetyMuted: number; liveAfter: string; lastPeaksDbfs: number[] }>;
-  idleRun(design: unknown): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[] }>;
+  idleRun(design: unknown): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[]; changes: boolean[] }>;
   liveRun(design: unknown, seconds: number, options?: { deviceId?: string; channel?: 1 | 2 | 'mix' }): Promise<{ reports: { type: string; inputPeakVolts?: number; outputPeakDbfs?: number; gridVolts?: number }[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string; channels: number; inputs: number; error: string; latency: { inputSeconds: number; processingSeconds: number; outputSeconds: number; totalSeconds: number } | null }>;
   liveDenied(): Promise<{ error: string; name: string; stillPlays: boolean }>;
 }

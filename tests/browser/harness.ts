@@ -110,9 +110,10 @@ async function liveDenied(): Promise<{ error: string; name: string; stillPlays: 
  * Idle suspension: play a short clip, wait past the idle time, then load a design and edit a part
  * while suspended; every step's context state, and whether meter reports came after the wake.
  */
-async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[] }> {
+async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[]; changes: boolean[] }> {
   const audio = await createAudioEngine({ idleSuspendSeconds: 0.4 });
-  const states: string[] = [], idleFlags: boolean[] = [];
+  const states: string[] = [], idleFlags: boolean[] = [], changes: boolean[] = [];
+  audio.onIdleChange((idle) => changes.push(idle));
   const note = () => { states.push(audio.context.state); idleFlags.push(audio.idle); };
   const wait = (ms: number) => new Promise((r) => setTimeout(r, ms));
   await audio.loadDesign('A', design);
@@ -132,7 +133,7 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
   note(); // asleep again
   off();
   await audio.dispose();
-  return { states, loadedWhileIdle, reportsAfterWake, idleFlags };
+  return { states, loadedWhileIdle, reportsAfterWake, idleFlags, changes };
 }
 
 Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });

@@ -168,6 +168,9 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     console.log(`idle: context states ${r.states.join(' -> ')}, meter reports within 0.3 s of the wake: ${r.reportsAfterWake}`);
     expect(r.states).toEqual(['running', 'suspended', 'running', 'suspended']);
     expect(r.idleFlags).toEqual([false, true, false, true]);
+    // the change event the workspace listens to fires for each transition (after the first start)
+    const transitions = r.changes.filter((c, k) => k === 0 || c !== r.changes[k - 1]);
+    expect(transitions.slice(transitions.indexOf(true))).toEqual([true, false, true]);
     expect(r.loadedWhileIdle).toBe(true);
     expect(r.reportsAfterWake).toBeGreaterThan(3); // ~30 Hz once running again
   });

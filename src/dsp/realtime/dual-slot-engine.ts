@@ -35,6 +35,8 @@ import type { FromProcessor, MeterReport, Monitor, Slot, SlotTrace, ToProcessor 
  * Chromium's audio thread (bench/worklet.browser.bench.ts).
  */
 export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;
+/** The factors offered for live playing (the workspace's choices and the overload guard's steps). */
+export const LIVE_FACTORS: readonly OversamplingFactor[] = [1, 2, 4, 8];
 export const CROSSFADE_SECONDS = 0.005;
 /** Pot and tube-sample glide: fast enough to follow a knob. */
 export const SMOOTHING_SECONDS = 0.02;
