@@ -65,6 +65,12 @@ export interface Design {
   readonly supply: Supply;
   readonly parts: readonly Part[];
   readonly powerSupply?: PowerSupplySection;
+  /** Where the user nudged parts on the schematic: offsets from the automatic layout, by part id (drawing only). */
+  readonly sheet?: SheetPlacement;
+}
+
+export interface SheetPlacement {
+  readonly positions?: Readonly<Record<string, readonly [number, number]>>;
 }
 
 export const GROUND = '0';
@@ -169,6 +175,11 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   if (!nodes.has(d.output.node)) throw new DesignError(`output node "${d.output.node}" is not connected to any part`);
   if (d.powerSupply !== undefined && (typeof d.powerSupply !== 'object' || d.powerSupply === null || typeof d.powerSupply.secondary !== 'object')) {
     throw new DesignError('design "powerSupply" must be an object with "secondary", "rectifier", "mainsHertz" and "reservoirFarads"');
+  }
+  if (d.sheet !== undefined) {
+    const pos = typeof d.sheet === 'object' && d.sheet !== null ? d.sheet.positions : null;
+    const good = pos === undefined || (typeof pos === 'object' && pos !== null && Object.values(pos).every((v) => Array.isArray(v) && v.length === 2 && v.every((x) => typeof x === 'number' && Number.isFinite(x))));
+    if (!good) throw new DesignError('design "sheet" must be { "positions": { PART: [x, y] } } with finite numbers');
   }
   const design = doc as Design;
   if (options.wiring === false) return design;

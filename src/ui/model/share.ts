@@ -44,7 +44,7 @@ export async function decodeDesignHash(hash: string): Promise<HashResult> {
     else if (body.startsWith('j.')) bytes = fromBase64Url(body.slice(2));
     else return { ok: false, reason: 'shared link: unknown encoding (expected "z." or "j.")' };
     const doc: unknown = JSON.parse(new TextDecoder().decode(bytes));
-    return { ok: true, design: validateDesign(doc) };
+    return { ok: true, design: validateDesign(doc, { wiring: false }) };
   } catch (err) {
     return { ok: false, reason: `shared link: ${(err as Error).message}` };
   }

@@ -21,7 +21,8 @@ export function parseWorkspace(text: string | null): Saved | null {
   try {
     const doc = JSON.parse(text) as { version?: unknown; A?: unknown; B?: unknown; active?: unknown };
     if (doc.version !== 1) return null;
-    const A = validateDesign(doc.A), B = validateDesign(doc.B);
+    // a sheet still being built saves too: structure checked, wiring left to the wiring check
+    const A = validateDesign(doc.A, { wiring: false }), B = validateDesign(doc.B, { wiring: false });
     return { slots: { A, B }, active: doc.active === 'B' ? 'B' : 'A' };
   } catch {
     return null;

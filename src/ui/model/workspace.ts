@@ -20,10 +20,21 @@ export function withSlot(s: Slots, slot: Slot, design: Design): Slots {
   return slot === 'A' ? { ...s, A: design } : { ...s, B: design };
 }
 
-/** Replace one part after checking the whole design still validates; returns a reason otherwise. */
+/** Whole-design validation failure, or null. */
+function wiringProblem(d: Design): string | null {
+  try { validateDesign(d); return null; } catch (err) { return (err as Error).message; }
+}
+
+/**
+ * Replace one part after checking the design still validates; returns a reason otherwise. A sheet
+ * still being built (not yet playable) only needs to stay structurally sound; a value change never
+ * turns a playable design into one that cannot play.
+ */
 export function editPart(s: Slots, slot: Slot, part: Part): { ok: true; slots: Slots } | { ok: false; reason: string } {
+  const before = s[slot];
   try {
-    const next = validateDesign(withPart(s[slot], part));
+    const next = validateDesign(withPart(before, part), { wiring: false });
+    if (wiringProblem(before) === null) { const bad = wiringProblem(next); if (bad) return { ok: false, reason: bad }; }
     return { ok: true, slots: withSlot(s, slot, next) };
   } catch (err) {
     return { ok: false, reason: (err as Error).message };
@@ -33,7 +44,7 @@ export function editPart(s: Slots, slot: Slot, part: Part): { ok: true; slots: S
 export function editSupplyVolts(s: Slots, slot: Slot, volts: number): { ok: true; slots: Slots } | { ok: false; reason: string } {
   const d = s[slot];
   try {
-    const next = validateDesign({ ...d, supply: { ...d.supply, volts } });
+    const next = validateDesign({ ...d, supply: { ...d.supply, volts } }, { wiring: false });
     return { ok: true, slots: withSlot(s, slot, next) };
   } catch (err) {
     return { ok: false, reason: (err as Error).message };
