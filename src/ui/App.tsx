@@ -92,7 +92,7 @@ function Shell(): ReactElement {
       <TopBar />
       {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} <button type="button" className="link" onClick={() => dispatch({ type: 'dismiss' })} aria-label="Dismiss message">×</button></p>}
       <main className="grid">
-        <CircuitPanel />
+        <CircuitPanel findings={op.findings} />
         <BenchSide op={op} />
         <div className="lower">
           <div className="tabs" role="tablist" aria-label="Panels">

@@ -262,3 +262,15 @@ export function replacePart(d: Design, part: Part): EditResult {
   if (!d.parts.some((p) => p.id === part.id)) return { ok: false, reason: `there is no part "${part.id}"` };
   return checked(d, { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) });
 }
+
+/** Move the circuit's output (where the load and the listener connect) or its input to another node. */
+export function moveTerminalNode(d: Design, which: 'input' | 'output', node: string): EditResult {
+  const bad = nodeName(node);
+  if (bad) return { ok: false, reason: bad };
+  if (node === GROUND) return { ok: false, reason: `the ${which} cannot be on ground` };
+  if (which === 'output') {
+    if (!designNodes({ ...d, output: { ...d.output, node: d.input.node } }).includes(node)) return { ok: false, reason: `there is no node "${node}" for the output` };
+    return checked(d, { ...d, output: { ...d.output, node } });
+  }
+  return checked(d, { ...d, input: { ...d.input, node } });
+}

@@ -8,6 +8,7 @@ import { PartEditor } from '../PartEditor.tsx';
 import { OperatingPanel } from '../OperatingPanel.tsx';
 import { useDebounced } from '../store/hooks.ts';
 import { useWorkspace } from '../store/context.ts';
+import { WiringEditor } from './CircuitTools.tsx';
 
 export interface OpState { readonly report: OperatingReport | null; readonly failure: string | null; readonly findings: readonly Finding[] }
 
@@ -50,7 +51,14 @@ export function BenchSide({ op }: { op: OpState }): ReactElement {
   return (
     <div className="side">
       <PartEditor design={design} part={part} stress={op.report?.parts.find((p) => p.id === selected)} onChange={onPart} onSupplyVolts={onSupply} />
-      <OperatingPanel report={op.report} failure={op.failure} findings={op.findings} slot={active} />
+      {part && (
+        <section className="panel wiring-panel" aria-label={`Rewire ${part.id}`}>
+          <h2>Wiring <span className="sub">{part.id}</span></h2>
+          <WiringEditor part={part} />
+        </section>
+      )}
+      {/* the wiring findings are shown under the schematic, where they point at the parts */}
+      <OperatingPanel report={op.report} failure={op.failure} findings={[]} slot={active} />
     </div>
   );
 }
