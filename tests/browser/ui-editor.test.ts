@@ -152,6 +152,7 @@ describe('editing the circuit', () => {
   it('a nudged part keeps its position in the design and in the exported file', async () => {
     const p = await fresh();
     const page = p.page;
+    await page.locator('[data-part="R3"] rect.hit').scrollIntoViewIfNeeded();
     const box = await page.locator('[data-part="R3"] rect.hit').boundingBox();
     if (!box) throw new Error('R3 is not drawn');
     await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);

@@ -48,7 +48,7 @@ function WiringCheck({ findings }: { findings: readonly Finding[] }): ReactEleme
       {findings.map((f) => (
         <li key={f.code + f.message} className={f.severity}>
           {f.severity}: {f.message}{' '}
-          {f.parts.map((p) => <button key={p} type="button" className="link part-link" onClick={() => dispatch({ type: 'select', id: p })}>{p}</button>)}
+          {[...new Set(f.parts)].map((p) => <button key={p} type="button" className="link part-link" onClick={() => dispatch({ type: 'select', id: p })}>{p}</button>)}
         </li>
       ))}
     </ul>
