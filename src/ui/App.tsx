@@ -11,6 +11,7 @@ import { CircuitPanel } from './panels/CircuitPanel.tsx';
 import { BenchSide, useOperatingPoint } from './panels/BenchSide.tsx';
 import { ListenPanel } from './panels/ListenPanel.tsx';
 import { SeePanel } from './panels/SeePanel.tsx';
+import { AnalysesPanel } from './panels/AnalysesPanel.tsx';
 import { useStartLive } from './panels/LiveControls.tsx';
 import { WorkspaceContext, useWorkspace, type Workspace } from './store/context.ts';
 import { useKeys } from './store/keys.ts';
@@ -99,7 +100,7 @@ function Shell(): ReactElement {
             {(['listen', 'analyses', 'see'] as const).map((t) => <button key={t} type="button" role="tab" aria-selected={tab === t} aria-controls={`tab-${t}`} onClick={() => dispatch({ type: 'tab', tab: t })}>{TAB_NAMES[t]}</button>)}
           </div>
           <div id="tab-listen" role="tabpanel" hidden={tab !== 'listen'}><ListenPanel /></div>
-          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}>{tab === 'analyses' ? <p className="fine">Analyses</p> : null}</div>
+          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}>{tab === 'analyses' ? <AnalysesPanel /> : null}</div>
           <div id="tab-see" role="tabpanel" hidden={tab !== 'see'}><SeePanel /></div>
         </div>
       </main>

@@ -111,12 +111,12 @@ describe('editing the circuit', () => {
     await expect.poll(async () => (await slotA(page)).parts.some((q) => q.id === 'R9')).toBe(false);
     await expect.poll(() => playsSheet(page)).toBe(true);
     // undo: back to the rewired part, then the unwired one, then none (each edit one step)
-    await page.getByRole('button', { name: 'Undo' }).click();
+    await page.getByRole('button', { name: 'Undo', exact: true }).click();
     await expect.poll(async () => JSON.stringify((await slotA(page)).parts.find((q) => q.id === 'R9')?.nodes)).toBe('["p2","0"]');
     await expect.poll(() => playsSheet(page)).toBe(true);
-    await page.getByRole('button', { name: 'Undo' }).click();
+    await page.getByRole('button', { name: 'Undo', exact: true }).click();
     await expect.poll(async () => JSON.stringify((await slotA(page)).parts.find((q) => q.id === 'R9')?.nodes)).toBe('["p2","x9"]');
-    await page.getByRole('button', { name: 'Undo' }).click();
+    await page.getByRole('button', { name: 'Undo', exact: true }).click();
     await expect.poll(async () => JSON.stringify(await slotA(page))).toBe(JSON.stringify(before));
     expect(p.consoleErrors).toEqual([]);
   });

@@ -1,0 +1,144 @@
+// The analysis panels in the workspace (headless Chromium): a supply edit changes the estimated
+// and the modelled B+; the spread lists failing runs for a design built to fail; the parts list
+// and SPICE netlist download; a voicing fit applies as an undoable edit.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
+import type { Page } from 'playwright-core';
+import { openWorkspace, startUiHarness, type UiHarness, type Workspace } from './ui-harness.ts';
+import { TEMPLATES } from '../../src/dsp/circuit/templates.ts';
+
+let harness: UiHarness;
+let w: Workspace | null = null;
+
+type Win = { __valvewright: { port: { settled(): boolean; design(s: 'A' | 'B'): unknown }; slots(): { A: { supply: { volts: number }; parts: { id: string; farads?: number }[] } } } };
+
+async function fresh(): Promise<Workspace> {
+  await w?.close();
+  w = await harness.newWorkspace();
+  await openWorkspace(w);
+  await w.page.getByRole('tab', { name: 'Analyses' }).click();
+  return w;
+}
+const slotA = (p: Page) => p.evaluate(() => (window as unknown as Win).__valvewright.slots().A);
+const volts = (text: string | null) => Number(/([\d.]+) V/.exec(text ?? '')?.[1] ?? NaN);
+
+type C = [number, number];
+const add = (a: C, b: C): C => [a[0] + b[0], a[1] + b[1]];
+const mul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
+const inv = (a: C): C => { const d = a[0] * a[0] + a[1] * a[1]; return [a[0] / d, -a[1] / d]; };
+const par = (a: C, b: C): C => inv(add(inv(a), inv(b)));
+/** |V(out) / V(p2)| of the pentode-triode template's output network with C5 = c farads. */
+function gain(hz: number, c: number): number {
+  const w = 2 * Math.PI * hz;
+  const zc = (f: number): C => [0, -1 / (w * f)];
+  const lower: C = par([418958.7, 0], [1e6, 0]); // VOL_2 in parallel with the 1 M load
+  const vol: C = add([81041.3, 0], lower); // VOL_1 + that
+  const shunt = par(vol, add([125e3, 0], zc(10e-9))); // with TONE + C6
+  const zt = add(add(zc(c), [22e3, 0]), shunt); // C5 + R8 + the rest
+  const vTn = mul(shunt, inv(zt)); // divider to node tn
+  const vOut = mul(vTn, mul(lower, inv(vol))); // then the pot's divider to out
+  return Math.hypot(vOut[0], vOut[1]);
+}
+function handCorner(c: number): number {
+  const f = Array.from({ length: 601 }, (_, i) => 20 * 1000 ** (i / 600));
+  const peak = Math.max(...f.map((h) => gain(h, c)));
+  let lo = 20, hi = 20000;
+  for (let k = 0; k < 60; k++) { const m = Math.sqrt(lo * hi); if (gain(m, c) < peak / Math.SQRT2) lo = m; else hi = m; }
+  return Math.sqrt(lo * hi);
+}
+
+beforeAll(async () => { harness = await startUiHarness(); }, 120_000);
+afterAll(async () => { await w?.close(); await harness?.close(); });
+
+describe('analysis panels', () => {
+  it('a supply edit changes the estimated B+, and using the estimate changes the modelled B+', async () => {
+    const p = await fresh();
+    const page = p.page;
+    await page.getByRole('button', { name: 'Add a supply section' }).click();
+    const loaded = page.getByTestId('supply-loaded');
+    await loaded.waitFor();
+    const first = volts(await loaded.textContent());
+    // unloaded: the secondary's peak with its 7 % rise, less two silicon drops of 1 V (bridge; handbook rectifier formula, common practice)
+    const secondary = Math.round((300 + 2) / Math.SQRT2);
+    const unloaded = Number(/([\d.]+) V unloaded/.exec((await page.getByTestId('supply-report').textContent()) ?? '')?.[1]);
+    expect(unloaded / (Math.SQRT2 * secondary * 1.07 - 2)).toBeCloseTo(1, 2);
+    const field = page.getByTestId('supply-secondary');
+    await field.fill('250');
+    await field.press('Enter');
+    await expect.poll(async () => volts(await loaded.textContent())).toBeGreaterThan(first + 20);
+    const estimate = volts(await loaded.textContent());
+    await page.getByTestId('supply-apply').click();
+    await expect.poll(async () => (await slotA(page)).supply.volts).toBeGreaterThan(300);
+    await expect.poll(() => page.evaluate(() => { const v = (window as unknown as Win).__valvewright; return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A); })).toBe(true);
+    // the operating point follows the new B+ (node bp is the supply node of the template)
+    await expect.poll(async () => Math.abs(estimate - (await slotA(page)).supply.volts)).toBeLessThan(0.2 * estimate);
+    await page.getByRole('button', { name: 'Undo', exact: true }).click();
+    await expect.poll(async () => (await slotA(page)).supply.volts).toBe(300);
+    expect(p.consoleErrors).toEqual([]);
+  });
+
+  it('the spread lists failing runs for a design built to fail (a 12AX7 plate far over its 300 V rating)', async () => {
+    const p = await fresh();
+    const page = p.page;
+    // 900 V of B+ on the triode-triode template: the second plate sits near 700 V, over the
+    // 12AX7's 300 V maximum (data sheet; the library's rating) in every run
+    const hot = { ...TEMPLATES['triode-triode']!, name: 'Too hot', supply: { ...TEMPLATES['triode-triode']!.supply, volts: 900 } };
+    await page.getByTestId('import-design').setInputFiles({ name: 'hot.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(hot)) });
+    await page.getByText('Imported "Too hot"').waitFor();
+    await page.getByRole('tab', { name: 'Spread' }).click();
+    await page.getByTestId('spread-runs').fill('12');
+    await page.getByTestId('spread-seed').fill('7');
+    await page.getByTestId('spread-run').click();
+    await page.getByTestId('spread-report').waitFor({ timeout: 60_000 });
+    expect(Number(await page.getByTestId('spread-failed-count').textContent())).toBe(12);
+    await expect.poll(() => page.getByTestId('failing-runs').textContent()).toMatch(/run 0: .*V2 plate \d+ V over 300 V/);
+    await p.screenshot('analyses-spread-failing');
+    expect(p.consoleErrors).toEqual([]);
+  });
+
+  it('the parts list (CSV) and the SPICE netlist download', async () => {
+    const p = await fresh();
+    const page = p.page;
+    await page.getByRole('tab', { name: 'Parts list & SPICE' }).click();
+    let download = page.waitForEvent('download');
+    await page.getByTestId('parts-csv').click();
+    const csv = readFileSync(await (await download).path(), 'utf8');
+    const rows = csv.trim().split(/\r?\n/);
+    expect(rows[0]).toMatch(/^ref,kind,value/);
+    for (const id of ['R3', 'C4', 'V1', 'VOL']) expect(rows.some((r) => r.startsWith(`${id},`)), id).toBe(true);
+    download = page.waitForEvent('download');
+    await page.getByTestId('spice-export').click();
+    const cir = readFileSync(await (await download).path(), 'utf8');
+    // a SPICE deck: title line first, ".end" last (SPICE input format)
+    expect(cir.trim().split('\n').pop()?.trim().toLowerCase()).toBe('.end');
+    expect(cir).toMatch(/^RR3 b1 p1 470000$/m); // R3, 470 k from b1 to p1, with SPICE's R prefix
+  });
+
+  it('a voicing fit to a corner applies E12 values as one undoable edit', async () => {
+    const p = await fresh();
+    const page = p.page;
+    await page.getByRole('tab', { name: 'Voicing' }).click();
+    await page.getByRole('checkbox', { name: 'C5' }).check();
+    // a bass cut at 100 Hz from the output coupling capacitor (C5, 22 nF: about 10 Hz now)
+    await page.getByRole('combobox', { name: 'Response', exact: true }).selectOption('high-pass');
+    await page.getByLabel('Corner', { exact: true }).fill('100');
+    await page.getByLabel('Corner', { exact: true }).press('Enter');
+    await page.getByRole('button', { name: 'Fit' }).click();
+    await expect.poll(() => page.getByText(/corner \d+ Hz/).count()).toBe(1);
+    await page.getByRole('button', { name: 'Apply the fit (undoable)' }).click();
+    const c5 = async () => (await slotA(page)).parts.find((q) => q.id === 'C5')?.farads ?? 0;
+    await expect.poll(c5).toBeLessThan(22e-9);
+    // an E12 value (IEC 60063): mantissa in 1.0 1.2 1.5 1.8 2.2 2.7 3.3 3.9 4.7 5.6 6.8 8.2
+    const x = await c5();
+    // the fitted corner, computed here by hand: the plate (a stiff source in the fit) drives C5 into
+    // R8 22 k, then TONE (125 k at half rotation) + C6 10 nF and the volume pot (81 k over 419 k
+    // at 0.6 log) with the 1 M load on its wiper; -3 dB below the passband (complex impedance divider)
+    const corner = handCorner(x);
+    expect(corner).toBeGreaterThan(100 / 1.12); // within half an E12 step (about ±10 %)
+    expect(corner).toBeLessThan(100 * 1.12);
+    const mant = x / 10 ** Math.floor(Math.log10(x) + 1e-9);
+    expect([1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2].some((m) => Math.abs(m - mant) < 1e-6)).toBe(true);
+    await page.getByRole('button', { name: 'Undo', exact: true }).click();
+    await expect.poll(async () => Math.abs((await c5()) - 22e-9)).toBeLessThan(1e-15);
+  });
+});
