@@ -1,4 +1,5 @@
-// Table-based tube functions (an option; the exact equations in models.ts stay the default).
+// Table-based tube functions: the live path's tube laws (circuit/plan.ts LIVE_TUBE_FUNCTIONS);
+// offline renders, `render --raw` and the reference tests keep the exact equations of models.ts.
 // Each tube law is split into one-dimensional factors, each tabulated with its exact derivative
 // and read back by cubic Hermite interpolation (value and slope at every node are exact, the
 // interpolant is C1, so Newton sees a consistent derivative). Hermite error bound
@@ -13,7 +14,7 @@
 // + 1 nA; template outputs -150 dB from the exact engine). Measured cost per device evaluation:
 // pentode 233 → 76 ns, triode 217 → 63 ns.
 import type { GridCurrentParams, KorenPentodeParams, KorenTriodeParams } from './models.ts';
-import { softplus, logistic } from './models.ts';
+import { dempwolfZolzerGridInto, softplus, logistic } from './models.ts';
 
 /** Cubic Hermite table on a uniform grid; per interval the polynomial c0 + c1 t + c2 t² + c3 t³, t ∈ [0, 1]. */
 export class HermiteTable {
@@ -54,6 +55,27 @@ export class HermiteTable {
     out[o + 1] = ((3 * c3 * t + 2 * c2) * t + c1) * this.invH;
     return true;
   }
+}
+
+/**
+ * A one-dimensional law in the fused calling convention of models.ts: reads its input from
+ * x[xo] (and any fixed inputs after it), writes the current to out[o] and its slope to out[o+1].
+ */
+export type FusedLaw1D = (x: Float64Array, xo: number, out: Float64Array, o: number) => void;
+
+/**
+ * Tabulate any one-dimensional law (value and exact slope from the law itself at every node)
+ * over [x0, x1]: the generic path, so a new grid-current law is tabulated without code of its
+ * own. `key` names the law and its parameters (tables are cached by it).
+ */
+export function lawTable(key: string, law: FusedLaw1D, x0: number, x1: number, intervals: number): HermiteTable {
+  const hit = cache.get(key);
+  if (hit instanceof HermiteTable) return hit;
+  const xin = new Float64Array(4), out = new Float64Array(2);
+  const at = (v: number, k: 0 | 1): number => { xin[0] = v; law(xin, 0, out, 0); return out[k]!; };
+  const t = new HermiteTable((v) => at(v, 0), (v) => at(v, 1), x0, x1, intervals);
+  cache.set(key, t);
+  return t;
 }
 
 /** x^y and its derivative for x ≥ 0 (0 at 0 for y > 1). */
@@ -118,14 +140,19 @@ export function pentodeTables(p: KorenPentodeParams): PentodeTables {
   return t;
 }
 
-/** Grid-current table over -12 V … +6 V (Vgk). */
+/** Range of the grid-current tables, Vgk volts (outside: the exact law). */
+export const GRID_TABLE_FROM_VOLTS = -12;
+export const GRID_TABLE_TO_VOLTS = 6;
+const GRID_INTERVALS_PER_VOLT = 128;
+
+/** Any grid-current law (Vgk -> Ig, dIg/dVgk) tabulated over GRID_TABLE_FROM_VOLTS … GRID_TABLE_TO_VOLTS. */
+export function gridLawTable(key: string, law: FusedLaw1D): HermiteTable {
+  const span = GRID_TABLE_TO_VOLTS - GRID_TABLE_FROM_VOLTS;
+  return lawTable(`g:${key}`, law, GRID_TABLE_FROM_VOLTS, GRID_TABLE_TO_VOLTS, span * GRID_INTERVALS_PER_VOLT);
+}
+
+/** The netlist-v1 grid law (Dempwolf-Zolzer) through the generic path. */
 export function gridTable(p: GridCurrentParams): HermiteTable {
-  const key = `g:${p.gg},${p.cg},${p.xi},${p.ig0}`;
-  const hit = cache.get(key);
-  if (hit) return hit as HermiteTable;
-  const f = (v: number) => { const x = softplus(p.cg * v) / p.cg; return x > 0 ? p.gg * Math.exp(p.xi * Math.log(x)) + p.ig0 : p.ig0; };
-  const df = (v: number) => { const x = softplus(p.cg * v) / p.cg; return x > 0 ? p.gg * p.xi * Math.exp((p.xi - 1) * Math.log(x)) * logistic(p.cg * v) : 0; };
-  const t = new HermiteTable(f, df, -12, 6, 18 * 128);
-  cache.set(key, t);
-  return t;
+  // dempwolfZolzerGridInto writes [Ig, dIg/dVgk] at out[o], out[o+1] from x[xo] = Vgk
+  return gridLawTable(`dz:${p.gg},${p.cg},${p.xi},${p.ig0}`, (x, xo, out, o) => dempwolfZolzerGridInto(p, x, xo, out, o));
 }
