@@ -59,7 +59,8 @@ describe('slot plans', () => {
     expect(() => validateSlotPlan(short)).toThrow(/wrong size/);
     const nan = m.E.slice(); nan[0] = Number.NaN;
     expect(() => validateSlotPlan({ ...plan, engine: { ...plan.engine, matrices: { ...m, E: nan } } })).toThrow(/not finite/);
-    expect(planTransferables(plan).length).toBe(7);
+    expect(planTransferables(plan).length).toBe(7 + plan.tables.length);
+    expect(plan.tables.length).toBeGreaterThan(0);
   });
 });
 

@@ -10,6 +10,7 @@ import { designCircuit, type Design } from './design.ts';
 import type { EngineCircuit, OperatingPoint, PreparedEngineState } from './engine.ts';
 import type { RootMatrices } from '../wdf/root-network.ts';
 import type { TubeFunctions } from '../tubes/devices.ts';
+import { exportTables, importTables, recordTables, type TableData } from '../tubes/tables.ts';
 import { OversampledCircuit, isOversamplingFactor } from '../render/oversampled.ts';
 import type { OversamplingFactor } from '../oversampling/oversampler.ts';
 
@@ -29,6 +30,8 @@ export interface SlotPlan {
   readonly outputDcVolts: number;
   /** Probed nodes: the first stage's grid (or the output), then each tube's plate. */
   readonly probes: readonly string[];
+  /** The tube-law tables the engine uses ('table' functions): built with the plan, not on the audio thread. */
+  readonly tables: readonly TableData[];
 }
 
 export interface PlanOptions {
@@ -50,17 +53,19 @@ export function buildSlotPlan(design: Design, baseRateHz: number, factor: Oversa
   if (!isOversamplingFactor(factor)) throw new Error(`oversampling factor must be 1, 2, 4, 8, 16, 32, 64 or 128 (got ${String(factor)})`);
   const tubeFunctions = options.tubeFunctions ?? LIVE_TUBE_FUNCTIONS;
   const circuit = designCircuit(design);
-  const oc = new OversampledCircuit(circuit, baseRateHz, factor, undefined, { tubeFunctions });
+  const { result: oc, keys } = recordTables(() => new OversampledCircuit(circuit, baseRateHz, factor, undefined, { tubeFunctions }));
   const engine = oc.engine.preparedState();
   return {
     kind: SLOT_PLAN_KIND, design, baseRateHz, factor, tubeFunctions, circuit, engine,
     outputDcVolts: engine.operatingPoint.nodes[oc.engine.outputNodeName] ?? 0,
     probes: probesOf(design),
+    tables: exportTables(keys),
   };
 }
 
 /** Build the plan's circuit without compiling or solving (the audio thread's part). */
 export function instantiateSlotPlan(plan: SlotPlan): OversampledCircuit {
+  importTables(plan.tables);
   const oc = new OversampledCircuit(plan.circuit, plan.baseRateHz, plan.factor, undefined, { tubeFunctions: plan.tubeFunctions, prepared: plan.engine });
   oc.engine.setProbes(plan.probes);
   return oc;
@@ -70,7 +75,7 @@ export function instantiateSlotPlan(plan: SlotPlan): OversampledCircuit {
 export function planTransferables(plan: SlotPlan): ArrayBuffer[] {
   const m = plan.engine.matrices;
   const out: ArrayBuffer[] = [];
-  for (const a of [m.E, m.F, m.Pu, m.Pi, m.Zu, m.Zi, plan.engine.rootVolts]) if (a.buffer instanceof ArrayBuffer) out.push(a.buffer);
+  for (const a of [m.E, m.F, m.Pu, m.Pi, m.Zu, m.Zi, plan.engine.rootVolts, ...plan.tables.map((t) => t.coefficients)]) if (a.buffer instanceof ArrayBuffer) out.push(a.buffer);
   return out;
 }
 
@@ -97,6 +102,11 @@ export function validateSlotPlan(x: unknown): SlotPlan {
   const sized = (a: unknown, n: number): boolean => a instanceof Float64Array && a.length === n && a.every(Number.isFinite);
   if (!sized(m.E, k * nu) || !sized(m.F, k * k) || !sized(m.Pu, nu * nu) || !sized(m.Pi, nu * k) || !sized(m.Zu, N * nu) || !sized(m.Zi, N * k)) return bad('matrix arrays of the wrong size or not finite');
   if (!sized(e.rootVolts, k)) return bad('root state of the wrong size');
+  if (!Array.isArray(x.tables)) return bad('tables must be an array');
+  for (const t of x.tables as unknown[]) {
+    if (!isRecord(t) || typeof t.key !== 'string' || typeof t.intervals !== 'number' || typeof t.x0 !== 'number' || typeof t.x1 !== 'number' || !(t.x1 > t.x0)) return bad('a table without key, range or size');
+    if (!sized(t.coefficients, 4 * t.intervals)) return bad(`table ${t.key}: coefficients of the wrong size or not finite`);
+  }
   const op = e.operatingPoint as Partial<OperatingPoint>;
   if (!isRecord(op.nodes) || !isRecord(op.tubes)) return bad('operating point required');
   return x as unknown as SlotPlan;
