@@ -1,5 +1,5 @@
 // Shared set-up for the browser tests and the browser bench: a Vite dev server on 127.0.0.1
-// and Debian's chromium driven by playwright-core (flags from ../shared/notes/toolchain.md).
+// and Debian's chromium driven by playwright-core (flags that keep it off the closed network and out of its first-run screens).
 import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
