@@ -9,8 +9,8 @@ import {
   korenPentodeInto, korenTriodeInto,
   type GridCurrentParams, type KorenPentodeParams, type KorenTriodeParams,
 } from './models.ts';
-import { CompiledGridLaw, isInitialVelocity, type DeviceGridLaw } from './grid-laws.ts';
-import { gridTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
+import { CompiledGridLaw, type DeviceGridLaw } from './grid-laws.ts';
+import { gridLawTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
 
 const NO_GRID: GridCurrentParams = { gg: 0, cg: 1, xi: 1, ig0: 0 };
 
@@ -18,8 +18,8 @@ export type TubeFunctions = 'exact' | 'table';
 
 /**
  * What both tube devices share: plate-law parameters, the grid law (compiled once), the sample
- * factor and the optional grid table. The Hermite grid table covers the Dempwolf-Zolzer law only;
- * the initial-velocity law is one exp below its onset and is always evaluated exactly.
+ * factor and the optional grid table ('table': whatever the law, tabulated through the generic
+ * one-dimensional path of tables.ts; accuracy in tests/live-tables.test.ts).
  */
 abstract class TubeDeviceBase<P extends KorenTriodeParams> {
   readonly params: P;
@@ -36,7 +36,9 @@ abstract class TubeDeviceBase<P extends KorenTriodeParams> {
     this.sample = sample;
     this.functions = functions;
     this.gridLaw = grid ? new CompiledGridLaw(grid) : null;
-    this.gridTab = functions === 'table' && grid && !isInitialVelocity(grid) ? gridTable(grid) : null;
+    // 'table': any grid law through the generic one-dimensional path (tables.ts gridLawTable)
+    const law = this.gridLaw;
+    this.gridTab = functions === 'table' && grid && law ? gridLawTable(JSON.stringify(grid), (x, xo, out, o) => law.into(x, xo, out, o)) : null;
   }
 
   /** Grid current and slope at x[0] = Vgk into w[o], w[o+1]. */
