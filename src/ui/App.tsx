@@ -12,6 +12,7 @@ import { BenchSide, useOperatingPoint } from './panels/BenchSide.tsx';
 import { ListenPanel } from './panels/ListenPanel.tsx';
 import { SeePanel } from './panels/SeePanel.tsx';
 import { AnalysesPanel } from './panels/AnalysesPanel.tsx';
+import { TransportBar } from './panels/TransportBar.tsx';
 import { useStartLive } from './panels/LiveControls.tsx';
 import { WorkspaceContext, useWorkspace, type Workspace } from './store/context.ts';
 import { useKeys } from './store/keys.ts';
@@ -104,6 +105,7 @@ function Shell(): ReactElement {
           <div id="tab-see" role="tabpanel" hidden={tab !== 'see'}><SeePanel /></div>
         </div>
       </main>
+      <TransportBar />
       <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo</footer>
       {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); dispatch({ type: 'caution', kind: null }); }} onCancel={caution === 'live' ? () => dispatch({ type: 'caution', kind: null }) : undefined} />}
     </div>

@@ -4,7 +4,6 @@ import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { LIVE_FACTORS } from '../../dsp/realtime/dual-slot-engine.ts';
 import { calibrationProblem, dbuToPeakVolts, parseDbu } from '../model/calibration.ts';
 import { formatVolts } from '../model/meters.ts';
-import { copySlot } from '../model/workspace.ts';
 import { ClientPack, Meters, Waveform, type DemoClip } from '../Listen.tsx';
 import { ValueField } from '../PartEditor.tsx';
 import { useWorkspace } from '../store/context.ts';
@@ -27,7 +26,7 @@ export function ListenPanel(): ReactElement {
   useEffect(() => {
     fetch('/demo/clips.json').then((r) => r.json() as Promise<{ clips: DemoClip[] }>).then((j) => setClips(j.clips)).catch(() => dispatch({ type: 'say', text: 'demo clips could not be loaded', bad: true }));
   }, [dispatch]);
-  const { clip, clipName, loop, calibrationVolts, monitor, matched, quality, guarded, cabinet } = state;
+  const { clip, clipName, loop, calibrationVolts, quality, guarded, cabinet } = state;
   const slots = state.history.present;
   const dur = status?.durationSeconds ?? 0;
   const load = status?.loadFraction;
@@ -41,7 +40,6 @@ export function ListenPanel(): ReactElement {
       port.setCabinet(c.samples, c.sampleRateHz);
     } catch (err) { dispatch({ type: 'say', text: `cabinet response: ${(err as Error).message}`, bad: true }); dispatch({ type: 'cabinet', key: 'off' }); }
   };
-  const togglePlay = () => { if (status?.playing) port.stop(); else void port.play(); };
   return (
     <section className="panel listen" aria-labelledby="listen-h">
       <h2 id="listen-h">Listen</h2>
@@ -55,20 +53,8 @@ export function ListenPanel(): ReactElement {
         <label className="button">Open audio file…<input type="file" accept="audio/*,.wav,.flac,.mp3,.ogg" data-testid="audio-file" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openAudioFile(f); e.target.value = ''; }} /></label>
         <span className="fine">or drop a file anywhere</span>
       </div>
-      <div className="row transport">
-        <button type="button" className="primary" onClick={togglePlay} disabled={!clip} aria-keyshortcuts="Space" data-testid="play">{status?.playing ? 'Stop' : 'Play'}</button>
-        <button type="button" onClick={() => dispatch({ type: 'loop', region: null })} disabled={!loop}>Clear loop</button>
-        <span className="fine">{clip ? `${clipName} · ${dur.toFixed(1)} s${loop ? ` · loop ${loop.startSeconds.toFixed(2)}–${loop.endSeconds.toFixed(2)} s` : ' · drag on the waveform to loop a region'}` : 'no clip yet'}{status?.rendering ? ' · rendering…' : ''}</span>
-      </div>
+      <p className="fine">{clip ? `${clipName}: drag on the waveform to loop a region` : 'no clip yet'}</p>
       <Waveform samples={clip?.samples ?? null} duration={dur} loop={loop} onLoop={(r) => dispatch({ type: 'loop', region: r })} position={() => port.positionSeconds()} />
-      <div className="row ab" role="group" aria-label="Compare">
-        <div className="seg" role="radiogroup" aria-label="What you hear">
-          {(['A', 'B', 'dry'] as const).map((s) => <button key={s} type="button" role="radio" aria-checked={monitor === s} className={`slot-${s}`} onClick={() => dispatch({ type: 'hear', monitor: s })} aria-keyshortcuts={s === 'dry' ? 'D' : s}>{s === 'dry' ? 'Dry' : s}</button>)}
-        </div>
-        <button type="button" onClick={() => dispatch({ type: 'commit', slots: copySlot(slots, 'A'), say: 'Copied slot A to slot B.' })}>Copy A → B</button>
-        <label className="inline-label"><input type="checkbox" checked={matched} onChange={(e) => dispatch({ type: 'matched', on: e.target.checked })} /> loudness-matched</label>
-        <span className="offset" data-testid="offset">{status?.offsetDb != null ? `B is ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB against A${matched ? ' (matched out)' : ''}` : 'level offset: —'}</span>
-      </div>
       <div className="row">
         <div className="calibration">
           <ValueField label="Input calibration (volts at full scale)" unit="volts" value={calibrationVolts} snap="off" onCommit={(v) => { const bad = calibrationProblem(v); if (!bad) dispatch({ type: 'calibration', volts: v }); return bad; }} testId="calibration" />
