@@ -5,6 +5,7 @@
 // at a scale that keeps its 12 px text at 11 px or more (the sheet scrolls when it is larger).
 import { useEffect, useRef, useState, type KeyboardEvent, type PointerEvent, type ReactElement } from 'react';
 import type { Design } from '../dsp/circuit/design.ts';
+import { workerElk } from './elk-in-worker.ts';
 import { layoutSheet, valueText, type PlacedSymbol, type Point, type SheetFlag, type SheetLayout } from './model/sheet-layout.ts';
 
 export { valueText as partValueText };
@@ -128,7 +129,7 @@ export function Schematic({ design, selectedId, changedIds, faultyIds, onSelect,
   const [boxWidth, setBoxWidth] = useState(800);
   useEffect(() => {
     let live = true;
-    layoutSheet(design).then((sheet) => { if (live) { setLayout({ for: design, sheet }); setFailure(null); } }, (err: unknown) => { if (live) setFailure(String(err)); });
+    workerElk().then((elk) => layoutSheet(design, elk)).then((sheet) => { if (live) { setLayout({ for: design, sheet }); setFailure(null); } }, (err: unknown) => { if (live) setFailure(String(err)); });
     return () => { live = false; };
   }, [design]);
   useEffect(() => {

@@ -18,11 +18,6 @@ export function pushHistory<T>(h: History<T>, next: T, limit = HISTORY_LIMIT): H
   return { past: past.length > limit ? past.slice(past.length - limit) : past, present: next, future: [] };
 }
 
-/** Replace the present without a new undo step (e.g. a drag still in progress). */
-export function replacePresent<T>(h: History<T>, next: T): History<T> {
-  return { ...h, present: next };
-}
-
 export function undo<T>(h: History<T>): History<T> {
   const prev = h.past[h.past.length - 1];
   if (prev === undefined) return h;

@@ -4,13 +4,11 @@
 // layered algorithm (elkjs), signal left to right. Labels live inside the boxes and ELK routes
 // wires around boxes, so no label sits on a wire. User nudges (design.sheet.positions) move a
 // box after layout; its wires are then re-routed with simple orthogonal paths. Pure: no DOM.
-import ELK from 'elkjs/lib/elk.bundled.js';
 import type { ElkExtendedEdge, ElkNode, ElkPort } from 'elkjs/lib/elk-api.js';
 import { GROUND, type Design, type Part } from '../../dsp/circuit/design.ts';
 import { tubeType } from '../../dsp/tubes/library.ts';
 import { terminalsOf } from '../../dsp/circuit/edit.ts';
 import { formatValue } from '../../dsp/parts/values.ts';
-import { railNodes } from './layout.ts';
 
 export type Point = readonly [number, number];
 export type Side = 'N' | 'S' | 'E' | 'W';
@@ -65,6 +63,26 @@ export function valueText(p: Part): string {
     case 'switch': return p.closed ? 'closed' : 'open';
     case 'tube': return `${p.type}${p.sample === 1 ? '' : p.sample > 1 ? ' strong' : ' weak'}`;
   }
+}
+
+/** Rails: ground, the supply node, and nodes fed from a rail by a resistor and decoupled by >= 1 uF to ground. */
+export function railNodes(d: Design): Set<string> {
+  const rails = new Set<string>([GROUND, d.supply.node]);
+  let grew = true;
+  while (grew) {
+    grew = false;
+    for (const p of d.parts) {
+      if (p.kind !== 'resistor') continue;
+      const [x, y] = p.nodes;
+      // fed from a supply rail (never from ground: a bypassed cathode is not a rail)
+      const fed = (n: string) => rails.has(n) && n !== GROUND;
+      const cand = fed(x) && !rails.has(y) ? y : fed(y) && !rails.has(x) ? x : null;
+      if (cand === null || cand === d.input.node || cand === d.output.node) continue;
+      const decoupled = d.parts.some((q) => q.kind === 'capacitor' && q.farads >= 1e-6 && q.nodes.includes(cand) && q.nodes.includes(GROUND));
+      if (decoupled) { rails.add(cand); grew = true; }
+    }
+  }
+  return rails;
 }
 
 /** Hop distance of every node from the input over non-rail nodes (for left-to-right orientation). */
@@ -202,10 +220,18 @@ function withFlags(s: LocalShape, rails: ReadonlySet<string>, supply: string): {
   };
 }
 
-const elk = new ELK();
+/** Something that runs ELK on a graph: the bundled one in the calling thread, or one in a worker. */
+export type ElkLayout = (graph: ElkNode) => Promise<ElkNode>;
+
+let bundled: Promise<ElkLayout> | null = null;
+/** ELK in the calling thread, loaded on first use (a large module: kept out of the first load). */
+export function bundledElk(): Promise<ElkLayout> {
+  bundled ??= import('elkjs/lib/elk.bundled.js').then(({ default: ELK }) => { const elk = new ELK(); return (g: ElkNode) => elk.layout(g); });
+  return bundled;
+}
 
 /** Lay out a design's schematic (async: ELK runs its layered algorithm). */
-export async function layoutSheet(d: Design): Promise<SheetLayout> {
+export async function layoutSheet(d: Design, layout?: ElkLayout): Promise<SheetLayout> {
   const rails = railNodes(d);
   const dist = distances(d, rails);
   const shapes = new Map<string, { shape: LocalShape; flags: SheetFlag[]; flagged: Set<string> }>();
@@ -259,7 +285,7 @@ export async function layoutSheet(d: Design): Promise<SheetLayout> {
     },
     children, edges,
   };
-  const out = await elk.layout(graph);
+  const out = await (layout ?? (await bundledElk()))(graph);
   const nudges = d.sheet?.positions ?? {};
   const boxAt = new Map<string, Point>();
   for (const c of out.children ?? []) {
