@@ -29,7 +29,7 @@ const HUM_ONLY_RATE = 48000;
  * design (the same output scaling for every variant, so levels compare), under a -1 dBFS limiter.
  * `hum` sets the B+ EMF for each sample.
  */
-function listen(design: Design, levelFrom: Design, clip: ListenClip | null, hum: BPlusHum | null): Uint8Array {
+function listen(design: Design, levelFrom: Design, clip: ListenClip | null, hum: BPlusHum | null): { wav: Uint8Array; rmsDbfs: number } {
   const fs = clip?.sampleRateHz ?? HUM_ONLY_RATE;
   const volts = clip?.voltsAtFullScale ?? 0.2;
   const n = Math.min(clip ? clip.samples.length : Infinity, Math.round(LISTEN_SECONDS * fs));
@@ -49,7 +49,12 @@ function listen(design: Design, levelFrom: Design, clip: ListenClip | null, hum:
     x1 = x;
     out[k] = limiter.process(y1 * scale);
   }
-  return encodeWav([out], fs, { bitDepth: 16, float: false });
+  // RMS over the second half (past the first settling)
+  let sum = 0;
+  for (let k = n >> 1; k < n; k++) sum += out[k]! * out[k]!;
+  const rms = Math.sqrt(sum / Math.max(1, n - (n >> 1)));
+  // 32-bit float: a well-filtered supply's hum sits below a 16-bit step and should still be measurable
+  return { wav: encodeWav([out], fs, { bitDepth: 32, float: true }), rmsDbfs: rms > 0 ? 20 * Math.log10(rms) : -Infinity };
 }
 
 function supplyReport(design: Design, req: Extract<AnalysisRequest, { type: 'supply' | 'supply-hum' }>): { report: SupplyReport; hum: BPlusHum; modelDesign: Design; fs: number } {
@@ -72,8 +77,9 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
     case 'supply': return { result: { type: 'supply', report: supplyReport(req.design, req).report }, transfer: [] };
     case 'supply-hum': {
       const s = supplyReport(req.design, req);
-      const wav = listen(s.modelDesign, req.design, req.clip, s.hum);
-      return { result: { type: 'audio', wav, label: `${req.clip ? 'clip' : 'no input'} with the supply's ripple on B+` }, transfer: [wav.buffer as ArrayBuffer] };
+      const { wav, rmsDbfs } = listen(s.modelDesign, req.design, req.clip, s.hum);
+      const level = Number.isFinite(rmsDbfs) ? `${rmsDbfs.toFixed(1)} dBFS rms` : 'silent';
+      return { result: { type: 'audio', wav, label: `${req.clip ? 'the clip' : 'no input'} with the supply's ripple on B+ (${level} at the output)` }, transfer: [wav.buffer as ArrayBuffer] };
     }
     case 'spread': {
       if (!(Number.isInteger(req.runs) && req.runs >= 1 && req.runs <= 2000)) throw new Error(`runs must be a whole number from 1 to 2000 (got ${req.runs})`);
@@ -88,7 +94,7 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
       return { result: { type: 'spread', summary: summariseSpread(req.design, req.seed, results) }, transfer: [] };
     }
     case 'spread-listen': {
-      const wav = listen(tubeCaseDesign(req.design, req.which), req.design, req.clip, null);
+      const { wav } = listen(tubeCaseDesign(req.design, req.which), req.design, req.clip, null);
       return { result: { type: 'audio', wav, label: `${req.which} tubes` }, transfer: [wav.buffer as ArrayBuffer] };
     }
     case 'parts': {

@@ -67,6 +67,26 @@ describe('analysis panels', () => {
     await field.press('Enter');
     await expect.poll(async () => volts(await loaded.textContent())).toBeGreaterThan(first + 20);
     const estimate = volts(await loaded.textContent());
+    // the hum, with no clip: a bridge rectifier on 50 Hz mains ripples at 100 Hz (full-wave:
+    // twice the mains frequency, handbook), so the rendered hum has far more 100 Hz than 50 Hz
+    await page.getByRole('button', { name: /Hear the hum/ }).click();
+    const audio = page.getByTestId('analysis-audio');
+    await audio.waitFor();
+    const bins = await audio.evaluate(async (el) => {
+      const bytes = new DataView(await (await fetch((el as HTMLAudioElement).src)).arrayBuffer());
+      // 32-bit float WAV, mono: walk the RIFF chunks to "data" (RIFF/WAVE layout)
+      const rate = bytes.getUint32(24, true);
+      let at = 12;
+      const tag = (o: number) => String.fromCharCode(bytes.getUint8(o), bytes.getUint8(o + 1), bytes.getUint8(o + 2), bytes.getUint8(o + 3));
+      while (tag(at) !== 'data') at += 8 + bytes.getUint32(at + 4, true) + (bytes.getUint32(at + 4, true) & 1);
+      const n = bytes.getUint32(at + 4, true) / 4;
+      const x = Array.from({ length: n }, (_, k) => bytes.getFloat32(at + 8 + 4 * k, true)).slice(Math.floor(n / 2));
+      const power = (hz: number) => { let re = 0, im = 0; x.forEach((v, k) => { re += v * Math.cos((2 * Math.PI * hz * k) / rate); im -= v * Math.sin((2 * Math.PI * hz * k) / rate); }); return (re * re + im * im) / (x.length * x.length); };
+      return { at100: power(100), at50: power(50), rms: Math.sqrt(x.reduce((a, v) => a + v * v, 0) / x.length) };
+    });
+    expect(bins.rms).toBeGreaterThan(1e-7);
+    console.log(`hum at the output: ${(20 * Math.log10(bins.rms)).toFixed(1)} dBFS rms (no input, the template's filtering)`);
+    expect(10 * Math.log10(bins.at100 / bins.at50)).toBeGreaterThan(20);
     await page.getByTestId('supply-apply').click();
     await expect.poll(async () => (await slotA(page)).supply.volts).toBeGreaterThan(300);
     await expect.poll(() => page.evaluate(() => { const v = (window as unknown as Win).__valvewright; return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A); })).toBe(true);
