@@ -9,7 +9,7 @@ import { gainAt } from '../src/dsp/analysis/ac.ts';
 import { tubeSmallSignal } from '../src/dsp/analysis/linear.ts';
 import type { NetTube } from '../src/dsp/circuit/netlist.ts';
 import {
-  addPart, designNodes, emptySheet, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, nextPartId, nudgePart, removePart, renameNode, terminalsOf, type EditResult,
+  addPart, designNodes, emptySheet, replacePart, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, nextPartId, nudgePart, removePart, renameNode, terminalsOf, type EditResult,
 } from '../src/dsp/circuit/edit.ts';
 import { playableProblem } from '../src/ui/store/workspace-store.ts';
 
@@ -109,6 +109,24 @@ describe('circuit edits', () => {
       if (!r.ok) expect(r.reason.length, what).toBeGreaterThan(5);
     }
     expect(JSON.stringify(d)).toBe(JSON.stringify(stageByEdits()));
+  });
+
+  it('a fitted tube carried by the design behaves as the library tube with the same parameters', () => {
+    // Koren's published 12AX7 fit (mu 100, ex 1.4, kg1 1060, kp 600, kvb 300; from memory), as a
+    // tube file named MY-12AX7 (valvewright.tube.v1): the same equations, so the same operating point
+    const file = {
+      schema: 'valvewright.tube.v1' as const, type: 'MY-12AX7', kind: 'triode' as const, like: '12AX7', points: [], source: 'test',
+      model: { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
+      gridCurrent: { name: 'initial-velocity' as const, gg: 0.00031, xi: 1.5, cathodeKelvin: 1050, onsetVolts: -0.49 },
+    };
+    const d = stageByEdits();
+    const withFile = ok(replaceTubes(d, [file]));
+    const v1 = withFile.parts.find((p) => p.id === 'V1')!;
+    const fitted = ok(replacePart(withFile, { ...(v1 as Extract<Part, { kind: 'tube' }>), type: 'MY-12AX7' }));
+    expect(op(fitted).nodes.p1!).toBeCloseTo(op(d).nodes.p1!, 6);
+    // a bad tube file is refused with its reason
+    const bad = replaceTubes(d, [{ ...file, like: 'EF86' }]);
+    expect(bad.ok).toBe(false);
   });
 
   it('an edit that changes nothing returns the very same design (no undo step)', () => {

@@ -121,9 +121,9 @@ function arc(a0: number, a1: number, r: number): string {
 
 const pf = (farads: number): string => `${Number((farads * 1e12).toPrecision(3))} pF`;
 
-function TubeControls({ part, onChange }: { part: TubePart; onChange: (p: Part) => void }): ReactElement {
+function TubeControls({ part, fitted, onChange }: { part: TubePart; fitted: readonly string[]; onChange: (p: Part) => void }): ReactElement {
   const t = tubeType(part.type);
-  const sameKind = Object.values(TUBE_LIBRARY).filter((x) => x.kind === t.kind);
+  const sameKind = [...Object.values(TUBE_LIBRARY), ...fitted.map((n) => tubeType(n))].filter((x) => x.kind === t.kind);
   const sampleName = (Object.entries(TUBE_SAMPLES).find(([, v]) => Math.abs(v - part.sample) < 1e-9)?.[0]) ?? 'custom';
   return (
     <div>
@@ -178,7 +178,7 @@ export function PartEditor({ design, part, stress, onChange, onSupplyVolts }: Pa
         </>
       )}
       {part?.kind === 'pot' && <PotControls part={part} onChange={(p) => { onChange(p); }} />}
-      {part?.kind === 'tube' && <TubeControls part={part} onChange={(p) => { onChange(p); }} />}
+      {part?.kind === 'tube' && <TubeControls part={part} fitted={(design.tubes ?? []).map((x) => x.type)} onChange={(p) => { onChange(p); }} />}
       {part?.kind === 'switch' && (
         <label className="inline-label"><input type="checkbox" checked={part.closed} onChange={(e) => onChange({ ...part, closed: e.target.checked })} /> closed</label>
       )}

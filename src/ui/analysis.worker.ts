@@ -1,7 +1,7 @@
 // The workspace's analyses, off the main thread: supply estimate (and its hum, heard through the
 // circuit), seeded spread with the low / nominal / high tube cases heard, parts list, SPICE
 // export and voicing to a target. One request at a time per worker; replies carry the id.
-import { designCircuit, designToNetlist, type Design } from '../dsp/circuit/design.ts';
+import { designCircuit, designToNetlist, validateDesign, type Design } from '../dsp/circuit/design.ts';
 import { BPlusHum, designSupply } from '../dsp/analysis/design-supply.ts';
 import { spreadRun, summariseSpread, tubeCaseDesign, type SpreadRun } from '../dsp/analysis/spread.ts';
 import { checkDesign } from '../dsp/analysis/check.ts';
@@ -73,6 +73,8 @@ function supplyReport(design: Design, req: Extract<AnalysisRequest, { type: 'sup
 }
 
 function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transferable[] } {
+  // validation registers the design's fitted tubes in this worker too
+  validateDesign(req.design, { wiring: false });
   switch (req.type) {
     case 'supply': return { result: { type: 'supply', report: supplyReport(req.design, req).report }, transfer: [] };
     case 'supply-hum': {

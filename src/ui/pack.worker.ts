@@ -1,6 +1,6 @@
 // Renders the client pack off the main thread: the DI region through A and B (renderAligned),
 // matched pairs A/B and dry/B (buildPairPack), WAVs and sheets in one store-only ZIP.
-import { designCircuit, type Design } from '../dsp/circuit/design.ts';
+import { designCircuit, validateDesign, type Design } from '../dsp/circuit/design.ts';
 import { measureLoudness, type LoudnessReport } from '../dsp/analysis/loudness.ts';
 import { buildPairPack, renderAligned, slugify, PAIR_SHEET_JSON, PAIR_SHEET_MD, type PackDesign, type PackSide } from '../dsp/render/pair.ts';
 import { encodeWav } from '../dsp/io/wav.ts';
@@ -13,6 +13,8 @@ const post = (m: PackReply, transfer: Transferable[] = []) =>
 function build(req: PackRequest): PackReply {
   const { input, sampleRateHz: fs, factor, inputVoltsAtFullScale: volts } = req;
   if (input.length === 0) throw new Error('the region to render is empty');
+  // validation registers the designs' fitted tubes in this worker too
+  validateDesign(req.designA); validateDesign(req.designB);
   const progress = (fraction: number, stage: string) => post({ type: 'progress', id: req.id, fraction, stage });
   const renderOne = (d: Design, slot: string, from: number, to: number) => {
     progress(from, `rendering ${slot}`);

@@ -121,7 +121,7 @@ describe('editing the circuit', () => {
     expect(p.consoleErrors).toEqual([]);
   });
 
-  it('builds a stage from an empty sheet until it plays', async () => {
+  it('builds a stage from an empty sheet, with a fitted tube, until it plays and sounds', async () => {
     const p = await fresh();
     const page = p.page;
     await page.getByRole('combobox', { name: 'Starting circuit' }).selectOption('(empty)');
@@ -135,7 +135,16 @@ describe('editing the circuit', () => {
       await page.getByTestId('add-place').click();
       await expect.poll(async () => (await slotA(page)).parts.length).toBe(count + 1);
     };
-    await place('tube', ['p1', 'in', 'k1'], '12AX7');
+    // a fitted tube file (valvewright.tube.v1) with Koren's published 12AX7 parameters (from memory)
+    await page.getByTestId('add-kind').selectOption('tube');
+    const file = {
+      schema: 'valvewright.tube.v1', type: 'MY-12AX7', kind: 'triode', like: '12AX7', points: [], source: 'test',
+      model: { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
+      gridCurrent: { name: 'initial-velocity', gg: 0.00031, xi: 1.5, cathodeKelvin: 1050, onsetVolts: -0.49 },
+    };
+    await page.getByTestId('add-fitted-tube').setInputFiles({ name: 'my-12ax7.tube.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(file)) });
+    await expect.poll(() => page.getByTestId('add-tube-type').inputValue()).toBe('MY-12AX7');
+    await place('tube', ['p1', 'in', 'k1'], 'MY-12AX7');
     await place('resistor', ['bp', 'p1']);
     await place('resistor', ['k1', '0']);
     await place('capacitor', ['p1', 'out']);
@@ -144,8 +153,24 @@ describe('editing the circuit', () => {
     await expect.poll(async () => (await slotA(page)).output.node).toBe('vw');
     await expect.poll(() => page.getByTestId('not-playing').count()).toBe(0);
     await expect.poll(() => playsSheet(page)).toBe(true);
-    await page.getByText(/V1 · 12AX7/).waitFor();
+    await page.getByText(/V1 · MY-12AX7/).waitFor();
     await p.screenshot('editor-empty-sheet-built');
+    // the audio thread knows the fitted tube: a render of slot A is finite and not silent
+    await page.getByTestId('demo-select').selectOption('boiler-fifths');
+    await page.getByText(/Boiler Fifths · 5\.0 s/).waitFor();
+    await expect.poll(() => playsSheet(page)).toBe(true);
+    const render = (slot: 'A' | 'B') => page.evaluate(async (s) => {
+      const r = await (window as unknown as { __valvewright: { port: { renderOffline(s: string, sec: number): Promise<Float32Array | null> } } }).__valvewright.port.renderOffline(s, 0.6);
+      return r ? Array.from(r.subarray(4800, 28800)) : [];
+    }, slot);
+    const out = await render('A');
+    expect(out.length).toBeGreaterThan(1000);
+    expect(out.every((x) => Number.isFinite(x))).toBe(true);
+    const rms = Math.sqrt(out.reduce((a, x) => a + x * x, 0) / out.length);
+    expect(rms).toBeGreaterThan(1e-3);
+    // and it is the new circuit, not the starting one still in slot B (a refused design would leave that playing)
+    const b = await render('B');
+    expect(Math.sqrt(out.reduce((a, x, i) => a + (x - (b[i] ?? 0)) ** 2, 0) / out.length)).toBeGreaterThan(0.05 * rms);
     expect(p.consoleErrors).toEqual([]);
   });
 

@@ -1,6 +1,7 @@
 // A design is data: parts with values, a B+ supply, tubes from the library, the guitar input and
 // the output load. It compiles to the engine's circuit and to the netlist interchange form.
-import { tubeType, type TubeType } from '../tubes/library.ts';
+import { registerUserTube, tubeType, type TubeType } from '../tubes/library.ts';
+import { userTubeType, type UserTubeFile } from '../tubes/user-tube.ts';
 import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
@@ -67,6 +68,12 @@ export interface Design {
   readonly powerSupply?: PowerSupplySection;
   /** Where the user nudged parts on the schematic: offsets from the automatic layout, by part id (drawing only). */
   readonly sheet?: SheetPlacement;
+  /**
+   * Fitted tubes the design uses (valvewright.tube.v1 files, as `tube fit` writes them). They are
+   * registered as tube types wherever the design is validated, so every thread that receives the
+   * design (workspace, workers, audio worklet) knows them.
+   */
+  readonly tubes?: readonly UserTubeFile[];
 }
 
 export interface SheetPlacement {
@@ -130,6 +137,12 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   if (!(d.supply.ohms >= 0 && d.supply.ohms < 1e6)) throw new DesignError('supply ohms must be between 0 and 1 M');
   checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
   if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
+  if (d.tubes !== undefined) {
+    if (!Array.isArray(d.tubes)) throw new DesignError('design "tubes" must be a list of fitted tube files (valvewright.tube.v1)');
+    d.tubes.forEach((t, i) => {
+      try { registerUserTube(userTubeType(t, `design tube ${i + 1}`)); } catch (err) { throw new DesignError((err as Error).message); }
+    });
+  }
   const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);
   const nodes = new Set<string>([GROUND, d.supply.node, d.input.node]);
   for (const p of d.parts as Part[]) {

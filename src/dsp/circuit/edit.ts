@@ -274,3 +274,8 @@ export function moveTerminalNode(d: Design, which: 'input' | 'output', node: str
   }
   return checked(d, { ...d, input: { ...d.input, node } });
 }
+
+/** Set the fitted tubes the design carries (each validated and registered by the design check). */
+export function replaceTubes(d: Design, tubes: Design['tubes'] & object): EditResult {
+  return checked(d, { ...d, tubes });
+}

@@ -4,9 +4,10 @@
 import { useId, useState, type ReactElement } from 'react';
 import type { Design, Part } from '../../dsp/circuit/design.ts';
 import {
-  addPart, designNodes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
+  addPart, designNodes, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
 } from '../../dsp/circuit/edit.ts';
 import { TUBE_LIBRARY, tubeType } from '../../dsp/tubes/library.ts';
+import { userTubeType, type UserTubeFile } from '../../dsp/tubes/user-tube.ts';
 import { useWorkspace } from '../store/context.ts';
 
 const KIND_NAMES: Record<PartKind, string> = { resistor: 'resistor', capacitor: 'capacitor', pot: 'pot', switch: 'switch', tube: 'tube' };
@@ -49,6 +50,15 @@ export function AddPartTool(): ReactElement {
   const [tube, setTube] = useState('12AX7');
   const [nodes, setNodes] = useState<string[]>(['', '', '', '']);
   const names = terminalNames(kind, tube);
+  const loadFitted = async (f: File) => {
+    let doc: unknown;
+    try { doc = JSON.parse(await f.text()); } catch (err) { edit({ ok: false, reason: `${f.name} is not valid JSON (${(err as Error).message})` }); return; }
+    let name: string;
+    try { name = userTubeType(doc, f.name).name; } catch (err) { edit({ ok: false, reason: (err as Error).message }); return; }
+    const file = doc as UserTubeFile;
+    const tubes = [...(design.tubes ?? []).filter((t) => t.type !== file.type), file];
+    if (edit(replaceTubes(design, tubes), `Fitted tube ${name} (from ${f.name}) is now offered and saved with the design.`) === null) setTube(name);
+  };
   const place = () => {
     const chosen = nodes.slice(0, names.length);
     if (chosen.some((n) => !n)) { edit({ ok: false, reason: `give every terminal a node (${names.join(', ')})` }); return; }
@@ -66,11 +76,15 @@ export function AddPartTool(): ReactElement {
         </select>
       </label>
       {kind === 'tube' && (
-        <label className="inline-label">Type
-          <select value={tube} data-testid="add-tube-type" onChange={(e) => setTube(e.target.value)}>
-            {Object.values(TUBE_LIBRARY).map((t) => <option key={t.name} value={t.name}>{t.name} ({t.kind})</option>)}
-          </select>
-        </label>
+        <>
+          <label className="inline-label">Type
+            <select value={tube} data-testid="add-tube-type" onChange={(e) => setTube(e.target.value)}>
+              {Object.values(TUBE_LIBRARY).map((t) => <option key={t.name} value={t.name}>{t.name} ({t.kind})</option>)}
+              {(design.tubes ?? []).map((t) => <option key={`fit-${t.type}`} value={t.type}>{t.type} (fitted {t.kind})</option>)}
+            </select>
+          </label>
+          <label className="button" title="A tube file written by valvewright tube fit (valvewright.tube.v1): it travels with the design">Fitted tube…<input type="file" accept=".json,application/json" className="visually-hidden" data-testid="add-fitted-tube" onChange={(e) => { const f = e.target.files?.[0]; if (f) void loadFitted(f); e.target.value = ''; }} /></label>
+        </>
       )}
       {names.map((n, i) => <NodeInput key={n} label={n} value={nodes[i] ?? ''} listId={listId} testId={`add-node-${i}`} onChange={(v) => setNodes(nodes.map((x, j) => (j === i ? v : x)))} />)}
       <button type="button" onClick={place} data-testid="add-place">Place</button>
