@@ -9,7 +9,7 @@ import { gainAt } from '../src/dsp/analysis/ac.ts';
 import { tubeSmallSignal } from '../src/dsp/analysis/linear.ts';
 import type { NetTube } from '../src/dsp/circuit/netlist.ts';
 import {
-  addPart, designNodes, emptySheet, replacePart, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, nextPartId, nudgePart, removePart, renameNode, terminalsOf, type EditResult,
+  addPart, appendStage, designNodes, emptySheet, replacePart, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, nextPartId, nudgePart, removePart, renameNode, terminalsOf, type EditResult,
 } from '../src/dsp/circuit/edit.ts';
 import { playableProblem } from '../src/ui/store/workspace-store.ts';
 
@@ -127,6 +127,29 @@ describe('circuit edits', () => {
     // a bad tube file is refused with its reason
     const bad = replaceTubes(d, [{ ...file, like: 'EF86' }]);
     expect(bad.ok).toBe(false);
+  });
+
+  it('a triode stage added after the output of a starting circuit biases sensibly and adds the handbook stage gain', () => {
+    const d = TEMPLATES['pentode-triode']!;
+    const e = ok(appendStage(d));
+    expect(() => validateDesign(e)).not.toThrow();
+    expect(e.parts.filter((p) => p.kind === 'tube').length).toBe(3);
+    const o = op(e);
+    const v3 = e.parts.find((p) => p.id === 'V3')!;
+    if (v3.kind !== 'tube') throw new Error('V3 is not a tube');
+    const load = e.parts.find((p): p is ResistorPart => p.kind === 'resistor' && p.nodes[1] === v3.nodes.plate)!;
+    const rail = o.nodes[load.nodes[0]]!;
+    // plate between a third and three quarters of its supply (common practice for a
+    // resistance-coupled stage with a 100 k load; the 12AX7 at 1.5 k sits near 0.68)
+    expect(o.nodes[v3.nodes.plate]!).toBeGreaterThan(rail / 3);
+    expect(o.nodes[v3.nodes.plate]!).toBeLessThan(0.75 * rail);
+    // mid-band gain of a bypassed 12AX7 stage: mu RL / (RL + ra), about 100 x 91 k / (91 k + 62 k) = 60
+    // (handbook formula; mu and ra from the 12AX7 data sheet, from memory), less the volume pot's
+    // source resistance into the new grid leak: a ratio well inside 20..80
+    const ratio = gainAt(designCircuit(e), o, 1000) / gainAt(designCircuit(d), op(d), 1000);
+    expect(ratio).toBeGreaterThan(20);
+    expect(ratio).toBeLessThan(80);
+    expect(appendStage(d, 'out', 'EF86').ok).toBe(false);
   });
 
   it('an edit that changes nothing returns the very same design (no undo step)', () => {

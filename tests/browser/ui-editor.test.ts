@@ -174,6 +174,31 @@ describe('editing the circuit', () => {
     expect(p.consoleErrors).toEqual([]);
   });
 
+  it('a stage added to a starting circuit plays, and its supply, spread and parts list follow it', async () => {
+    const p = await fresh();
+    const page = p.page;
+    await page.getByText('Build: add parts, rename nodes, output').click();
+    await page.getByTestId('stage-add').click();
+    await expect.poll(async () => (await slotA(page)).parts.some((q) => q.id === 'V3')).toBe(true);
+    await expect.poll(() => page.getByTestId('not-playing').count()).toBe(0);
+    await expect.poll(() => playsSheet(page)).toBe(true);
+    await page.getByRole('tab', { name: 'Analyses' }).click();
+    await page.getByRole('button', { name: 'Add a supply section' }).click();
+    await page.getByTestId('supply-loaded').waitFor();
+    await page.getByRole('tab', { name: 'Spread' }).click();
+    await page.getByTestId('spread-runs').fill('5');
+    await page.getByTestId('spread-run').click();
+    await page.getByTestId('spread-report').waitFor({ timeout: 60_000 });
+    await expect.poll(() => page.getByRole('img', { name: /V3 plate voltage: 5 runs/ }).count()).toBe(1);
+    await page.getByRole('tab', { name: 'Parts list & SPICE' }).click();
+    const download = page.waitForEvent('download');
+    await page.getByTestId('parts-csv').click();
+    const csv = readFileSync(await (await download).path(), 'utf8');
+    expect(csv.split(/\r?\n/).some((r) => r.startsWith('V3,'))).toBe(true);
+    await p.screenshot('editor-stage-added');
+    expect(p.consoleErrors).toEqual([]);
+  });
+
   it('a nudged part keeps its position in the design and in the exported file', async () => {
     const p = await fresh();
     const page = p.page;

@@ -279,3 +279,39 @@ export function moveTerminalNode(d: Design, which: 'input' | 'output', node: str
 export function replaceTubes(d: Design, tubes: Design['tubes'] & object): EditResult {
   return checked(d, { ...d, tubes });
 }
+
+/**
+ * Add a resistance-coupled triode stage after a node (the output by default): a coupling
+ * capacitor into a 1 M grid leak, the tube with a plate load from the supply rail the other plate
+ * loads use (or B+), a bypassed cathode resistor, and an output coupling capacitor; the output
+ * moves to the new stage. Values are common practice for a 12AX7 small-signal stage (100 k plate
+ * load, 1.5 k cathode, 22 uF bypass, 22 nF coupling).
+ */
+export function appendStage(d: Design, after: string = d.output.node, tubeTypeName = '12AX7'): EditResult {
+  if (!designNodes(d).includes(after)) return { ok: false, reason: `there is no node "${after}"` };
+  if (after === GROUND) return { ok: false, reason: 'a stage cannot follow ground' };
+  let t: ReturnType<typeof tubeType>;
+  try { t = tubeType(tubeTypeName); } catch (err) { return { ok: false, reason: (err as Error).message }; }
+  if (t.kind !== 'triode') return { ok: false, reason: `${tubeTypeName} is a ${t.kind}: the added stage is a triode stage` };
+  const plates = new Set(d.parts.flatMap((p) => (p.kind === 'tube' ? [p.nodes.plate] : [])));
+  const load = d.parts.find((p) => p.kind === 'resistor' && (plates.has(p.nodes[0]) || plates.has(p.nodes[1])) && !(plates.has(p.nodes[0]) && plates.has(p.nodes[1])));
+  const rail = load && load.kind === 'resistor' ? (plates.has(load.nodes[0]) ? load.nodes[1] : load.nodes[0]) : d.supply.node;
+  const tube = nextPartId(d, 'tube');
+  const k = tube.replace(/^V/, '');
+  const taken = new Set(designNodes(d));
+  const node = (stem: string) => { let n = `${stem}${k}`, i = 2; while (taken.has(n)) n = `${stem}${k}_${i++}`; taken.add(n); return n; };
+  const g = node('g'), p = node('p'), kn = node('k'), o = node('o');
+  let x = d;
+  const add = (part: Part): string | null => { const r = addPart(x, part); if (!r.ok) return r.reason; x = r.design; return null; };
+  const steps: (() => Part)[] = [
+    () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [after, g], farads: 22e-9, tolerance: 0.1, label: `${tube} input coupling` }),
+    () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [g, GROUND], ohms: 1e6, tolerance: 0.05, label: `${tube} grid leak` }),
+    () => ({ id: tube, kind: 'tube', type: tubeTypeName, sample: 1, nodes: { plate: p, grid: g, cathode: kn }, heaterVolts: 0, label: 'added stage' }),
+    () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [rail, p], ohms: 100e3, tolerance: 0.05, label: `${tube} plate load` }),
+    () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [kn, GROUND], ohms: 1.5e3, tolerance: 0.05, label: `${tube} cathode` }),
+    () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [kn, GROUND], farads: 22e-6, tolerance: 0.2, polarized: true, label: `${tube} cathode bypass` }),
+    () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [p, o], farads: 22e-9, tolerance: 0.1, label: `${tube} output coupling` }),
+  ];
+  for (const s of steps) { const bad = add(s()); if (bad) return { ok: false, reason: bad }; }
+  return checked(d, { ...x, output: { ...x.output, node: o } });
+}

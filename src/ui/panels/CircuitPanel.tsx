@@ -7,7 +7,7 @@ import { differingParts } from '../model/workspace.ts';
 import { Schematic } from '../Schematic.tsx';
 import { playableProblem } from '../store/workspace-store.ts';
 import { useWorkspace } from '../store/context.ts';
-import { AddPartTool, NodeTool } from './CircuitTools.tsx';
+import { AddPartTool, NodeTool, StageTool } from './CircuitTools.tsx';
 
 export function CircuitPanel({ findings }: { findings: readonly Finding[] }): ReactElement {
   const { state, dispatch } = useWorkspace();
@@ -32,6 +32,7 @@ export function CircuitPanel({ findings }: { findings: readonly Finding[] }): Re
         <summary>Build: add parts, rename nodes, output</summary>
         <div className="tools">
           <AddPartTool />
+          <StageTool />
           <NodeTool />
         </div>
       </details>

@@ -4,7 +4,7 @@
 import { useId, useState, type ReactElement } from 'react';
 import type { Design, Part } from '../../dsp/circuit/design.ts';
 import {
-  addPart, designNodes, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
+  addPart, appendStage, designNodes, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
 } from '../../dsp/circuit/edit.ts';
 import { TUBE_LIBRARY, tubeType } from '../../dsp/tubes/library.ts';
 import { userTubeType, type UserTubeFile } from '../../dsp/tubes/user-tube.ts';
@@ -89,6 +89,31 @@ export function AddPartTool(): ReactElement {
       {names.map((n, i) => <NodeInput key={n} label={n} value={nodes[i] ?? ''} listId={listId} testId={`add-node-${i}`} onChange={(v) => setNodes(nodes.map((x, j) => (j === i ? v : x)))} />)}
       <button type="button" onClick={place} data-testid="add-place">Place</button>
       <p className="fine">Nodes: pick one on the sheet (0 is ground, {design.supply.node} is B+) or type a new name.</p>
+    </fieldset>
+  );
+}
+
+/** Add a resistance-coupled triode stage after a node (the output by default); the output follows it. */
+export function StageTool(): ReactElement {
+  const { state } = useWorkspace();
+  const design = state.history.present[state.active];
+  const edit = useEdit();
+  const [after, setAfter] = useState('');
+  const [tube, setTube] = useState('12AX7');
+  const from = after || design.output.node;
+  const triodes = [...Object.values(TUBE_LIBRARY).map((t) => t.name), ...(design.tubes ?? []).map((t) => t.type)].filter((n) => tubeType(n).kind === 'triode');
+  return (
+    <fieldset className="tool" aria-label="Add a stage">
+      <legend>Add a stage</legend>
+      <label className="inline-label">after node
+        <select value={from} onChange={(e) => setAfter(e.target.value)} data-testid="stage-after">
+          {designNodes(design).filter((n) => n !== '0').map((n) => <option key={n} value={n}>{n}{n === design.output.node ? ' (output)' : ''}</option>)}
+        </select>
+      </label>
+      <label className="inline-label">tube
+        <select value={tube} onChange={(e) => setTube(e.target.value)}>{triodes.map((n) => <option key={n} value={n}>{n}</option>)}</select>
+      </label>
+      <button type="button" data-testid="stage-add" onClick={() => { if (edit(appendStage(design, from, tube), `Added a ${tube} stage after node ${from}; the output follows it (undo to take it off).`) === null) setAfter(''); }}>Add stage</button>
     </fieldset>
   );
 }
