@@ -106,7 +106,7 @@ function Shell(): ReactElement {
         </div>
       </main>
       <TransportBar />
-      <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo</footer>
+      <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo · Delete removes the selected part · Alt+arrows nudge it</footer>
       {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); dispatch({ type: 'caution', kind: null }); }} onCancel={caution === 'live' ? () => dispatch({ type: 'caution', kind: null }) : undefined} />}
     </div>
   );

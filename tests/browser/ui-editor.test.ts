@@ -118,6 +118,12 @@ describe('editing the circuit', () => {
     await expect.poll(async () => JSON.stringify((await slotA(page)).parts.find((q) => q.id === 'R9')?.nodes)).toBe('["p2","x9"]');
     await page.getByRole('button', { name: 'Undo', exact: true }).click();
     await expect.poll(async () => JSON.stringify(await slotA(page))).toBe(JSON.stringify(before));
+    // the Delete key removes the selected part; Ctrl+Z brings it back
+    await page.locator('[data-part="R8"]').click();
+    await page.keyboard.press('Delete');
+    await expect.poll(async () => (await slotA(page)).parts.some((q) => q.id === 'R8')).toBe(false);
+    await page.keyboard.press('Control+z');
+    await expect.poll(async () => JSON.stringify(await slotA(page))).toBe(JSON.stringify(before));
     expect(p.consoleErrors).toEqual([]);
   });
 

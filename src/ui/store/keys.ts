@@ -1,5 +1,6 @@
-// Keyboard shortcuts: undo/redo, mute, A / B / dry, play.
+// Keyboard shortcuts: undo/redo, mute, A / B / dry, play, delete the selected part.
 import { useEffect, useRef } from 'react';
+import { removePart } from '../../dsp/circuit/edit.ts';
 import { useWorkspace } from './context.ts';
 
 export function useKeys(): void {
@@ -13,6 +14,13 @@ export function useKeys(): void {
       if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'y' && !typing) { e.preventDefault(); dispatch({ type: 'redo' }); return; }
       if (e.key.toLowerCase() === 'm' && !e.ctrlKey && !e.metaKey && (!typing || e.altKey)) { e.preventDefault(); if (status?.live !== 'off') port.setMuted(true); return; }
       if (typing || e.ctrlKey || e.metaKey || e.altKey) return;
+      if ((e.key === 'Delete' || e.key === 'Backspace') && state.selected) {
+        e.preventDefault();
+        const r = removePart(state.history.present[state.active], state.selected);
+        if (r.ok) dispatch({ type: 'edit-design', design: r.design, say: `Deleted ${state.selected} (Ctrl+Z brings it back).`, select: null });
+        else dispatch({ type: 'say', text: `Not done: ${r.reason}`, bad: true });
+        return;
+      }
       if (e.key === 'a' || e.key === 'A') dispatch({ type: 'hear', monitor: 'A' });
       else if (e.key === 'b' || e.key === 'B') dispatch({ type: 'hear', monitor: 'B' });
       else if (e.key === 'd' || e.key === 'D') dispatch({ type: 'hear', monitor: 'dry' });
