@@ -38,6 +38,11 @@ function check(d: Design, l: SheetLayout): void {
   const segs = segments(l);
   const texts = [...l.parts.flatMap((p) => p.texts), ...l.ports.map((p) => p.text)];
   for (const t of texts) for (const s of segs) expect(crosses(textBox(t), s), `"${t.text}" on ${s[2]}`).toBe(false);
+  // no two texts on one another (the + of an electrolytic included)
+  for (let i = 0; i < texts.length; i++) for (let j = i + 1; j < texts.length; j++) {
+    const a = textBox(texts[i]!), b = textBox(texts[j]!);
+    expect(a.x0 < b.x1 && b.x0 < a.x1 && a.y0 < b.y1 && b.y0 < a.y1, `"${texts[i]!.text}" on "${texts[j]!.text}"`).toBe(false);
+  }
   const wires = segs.filter((s) => s[2].startsWith('net '));
   for (const p of l.parts) for (const t of p.terminals) {
     if (t.flagged) continue;

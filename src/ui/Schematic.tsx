@@ -48,14 +48,8 @@ function TwoTerminal({ kind, a, b, polarized, closed }: { kind: string; a: Point
     );
   }
   const rot = horiz ? (a[0] > b[0] ? 180 : 0) : (a[1] > b[1] ? 270 : 90);
-  // the + of a polarised capacitor sits beside its + plate, off the lead (never on a wire)
-  const plus = polarized ? (horiz ? [cx + (a[0] < b[0] ? -10 : 10), cy - 14] : [cx + 14, cy + (a[1] < b[1] ? -6 : 12)]) : null;
-  return (
-    <>
-      <g transform={`translate(${cx},${cy}) rotate(${rot})`}>{body}</g>
-      {plus && <text x={plus[0]} y={plus[1]} textAnchor="middle" className="sym-plus">+</text>}
-    </>
-  );
+  // (the + of a polarised capacitor is one of the layout's texts, placed clear of leads and labels)
+  return <g transform={`translate(${cx},${cy}) rotate(${rot})`}>{body}</g>;
 }
 
 function TubeSymbol({ p }: { p: PlacedSymbol }): ReactElement {

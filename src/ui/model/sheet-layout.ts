@@ -14,7 +14,7 @@ export type Point = readonly [number, number];
 export type Side = 'N' | 'S' | 'E' | 'W';
 
 /** Text on the sheet with its box (for overlap checks): x, y is the baseline start. */
-export interface SheetText { readonly x: number; readonly y: number; readonly text: string; readonly cls: 'part-id' | 'part-value' | 'rail-text' | 'term-text'; readonly width: number }
+export interface SheetText { readonly x: number; readonly y: number; readonly text: string; readonly cls: 'part-id' | 'part-value' | 'rail-text' | 'term-text' | 'sym-plus'; readonly width: number }
 export interface SheetFlag { readonly at: Point; readonly kind: 'ground' | 'rail'; readonly side: Side; readonly text: string }
 
 export type SymbolKind = 'resistor' | 'capacitor' | 'switch' | 'pot2' | 'pot3' | 'triode' | 'pentode';
@@ -112,6 +112,7 @@ interface LocalShape {
 /** Symbol and labels of one part in local coordinates, before flags. */
 function shapeOf(p: Part, rails: ReadonlySet<string>, dist: ReadonlyMap<string, number>, supply: string): LocalShape {
   const id = p.id, value = valueText(p);
+  const polarized = p.kind === 'capacitor' && p.polarized === true;
   const labelW = Math.max(textWidth(id), textWidth(value));
   const isRail = (n: string) => rails.has(n);
   const rank = (n: string) => (n === GROUND ? 3 : n === supply ? 0 : isRail(n) ? 1 : 2);
@@ -156,23 +157,28 @@ function shapeOf(p: Part, rails: ReadonlySet<string>, dist: ReadonlyMap<string, 
   if (isRail(n0) || isRail(n1)) {
     // vertical: the rail nearer B+ on top, ground at the bottom
     const firstTop = rank(n0) <= rank(n1);
-    const x = 12, width = x + 18 + labelW + 4;
+    const x = 20, width = x + 18 + labelW + 4;
     const topNode = firstTop ? n0 : n1, botNode = firstTop ? n1 : n0;
+    // the + of an electrolytic: left of its + plate, clear of the lead and the labels
+    const plus: SheetText[] = polarized ? [{ x: x - 17, y: LEAD / 2 + (firstTop ? -8 : 14), text: '+', cls: 'sym-plus', width: textWidth('+') }] : [];
     return {
       symbol, width, height: LEAD, a: firstTop ? [x, 0] : [x, LEAD], b: firstTop ? [x, LEAD] : [x, 0],
       terminals: [
         { name: firstTop ? name0 : name1, node: topNode, at: [x, 0], side: 'N', lead: [] },
         { name: firstTop ? name1 : name0, node: botNode, at: [x, LEAD], side: 'S', lead: [] },
       ],
-      texts: [{ x: x + 18, y: LEAD / 2 - 3, text: id, cls: 'part-id', width: textWidth(id) }, { x: x + 18, y: LEAD / 2 + 11, text: value, cls: 'part-value', width: textWidth(value) }],
+      texts: [{ x: x + 18, y: LEAD / 2 - 3, text: id, cls: 'part-id', width: textWidth(id) }, { x: x + 18, y: LEAD / 2 + 11, text: value, cls: 'part-value', width: textWidth(value) }, ...plus],
     };
   }
   // horizontal: the end nearer the input on the left; labels above the symbol
   const firstLeft = (dist.get(n0) ?? 99) <= (dist.get(n1) ?? 99);
   const width = Math.max(LEAD, labelW + 4), y = 2 * LINE + 12;
   const x0 = (width - LEAD) / 2;
+  // the + below the lead, beside the + plate
+  const plusX = x0 + LEAD / 2 + (firstLeft ? -14 : 5);
+  const plus: SheetText[] = polarized ? [{ x: plusX, y: y + 17, text: '+', cls: 'sym-plus', width: textWidth('+') }] : [];
   return {
-    symbol, width, height: y + 14, a: firstLeft ? [x0, y] : [x0 + LEAD, y], b: firstLeft ? [x0 + LEAD, y] : [x0, y],
+    symbol, width, height: y + (polarized ? 22 : 14), a: firstLeft ? [x0, y] : [x0 + LEAD, y], b: firstLeft ? [x0 + LEAD, y] : [x0, y],
     terminals: [
       { name: firstLeft ? name0 : name1, node: firstLeft ? n0 : n1, at: [0, y], side: 'W', lead: [[x0, y], [0, y]] },
       { name: firstLeft ? name1 : name0, node: firstLeft ? n1 : n0, at: [width, y], side: 'E', lead: [[x0 + LEAD, y], [width, y]] },
@@ -180,6 +186,7 @@ function shapeOf(p: Part, rails: ReadonlySet<string>, dist: ReadonlyMap<string, 
     texts: [
       { x: (width - textWidth(id)) / 2, y: LINE - 2, text: id, cls: 'part-id', width: textWidth(id) },
       { x: (width - textWidth(value)) / 2, y: 2 * LINE - 2, text: value, cls: 'part-value', width: textWidth(value) },
+      ...plus,
     ],
   };
 }
