@@ -10,6 +10,7 @@ import type { Take } from '../audio/take.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
+import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 
 const SLOTS: readonly Slot[] = ['A', 'B'];
 
@@ -35,7 +36,7 @@ export class EnginePort implements AudioPort {
   private monitor: Monitor = 'A';
   private matched = true;
   private calibration = 0.2;
-  private factor: OversamplingFactor = 2;
+  private factor: OversamplingFactor = DEFAULT_LIVE_FACTOR;
   private clip: SourceClip | null = null;
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
