@@ -101,7 +101,7 @@ function Shell(): ReactElement {
             {(['listen', 'analyses', 'see'] as const).map((t) => <button key={t} type="button" role="tab" aria-selected={tab === t} aria-controls={`tab-${t}`} onClick={() => dispatch({ type: 'tab', tab: t })}>{TAB_NAMES[t]}</button>)}
           </div>
           <div id="tab-listen" role="tabpanel" hidden={tab !== 'listen'}><ListenPanel /></div>
-          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}>{tab === 'analyses' ? <AnalysesPanel /> : null}</div>
+          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}><AnalysesPanel /></div>
           <div id="tab-see" role="tabpanel" hidden={tab !== 'see'}><SeePanel /></div>
         </div>
       </main>

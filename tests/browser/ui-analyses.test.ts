@@ -113,6 +113,27 @@ describe('analysis panels', () => {
     expect(Number(await page.getByTestId('spread-failed-count').textContent())).toBe(12);
     await expect.poll(() => page.getByTestId('failing-runs').textContent()).toMatch(/run 0: .*V2 plate \d+ V over 300 V/);
     await p.screenshot('analyses-spread-failing');
+    // hear the low-tube case through the clip: a finite, audible render comes back
+    await page.getByRole('tab', { name: 'Listen' }).click();
+    await page.getByTestId('demo-select').selectOption('boiler-fifths');
+    await page.getByText(/Boiler Fifths · 5\.0 s/).waitFor();
+    await page.getByRole('tab', { name: 'Analyses' }).click();
+    await page.getByRole('button', { name: 'low', exact: true }).click();
+    const audio = page.getByTestId('analysis-audio');
+    await audio.waitFor({ timeout: 60_000 });
+    const level = await audio.evaluate(async (el) => {
+      const bytes = new DataView(await (await fetch((el as HTMLAudioElement).src)).arrayBuffer());
+      let at = 12;
+      const tag = (o: number) => String.fromCharCode(bytes.getUint8(o), bytes.getUint8(o + 1), bytes.getUint8(o + 2), bytes.getUint8(o + 3));
+      while (tag(at) !== 'data') at += 8 + bytes.getUint32(at + 4, true);
+      const n = bytes.getUint32(at + 4, true) / 4;
+      let sum = 0, finite = true;
+      for (let k = 0; k < n; k++) { const x = bytes.getFloat32(at + 8 + 4 * k, true); finite &&= Number.isFinite(x); sum += x * x; }
+      return { rms: Math.sqrt(sum / n), finite, seconds: n / bytes.getUint32(24, true) };
+    });
+    expect(level.finite).toBe(true);
+    expect(level.rms).toBeGreaterThan(1e-3);
+    expect(level.seconds).toBeCloseTo(4, 1);
     expect(p.consoleErrors).toEqual([]);
   });
 
