@@ -179,7 +179,7 @@ export function ratingsSheet(design: Design, options: RatingsOptions = {}): Rati
   const capacitors: CapacitorRating[] = [];
   const resistors: ResistorRating[] = [];
   const capParts: { id: string; nodes: readonly [string, string]; farads: number; polarized: boolean; ratedVolts: number | null }[] = [
-    { id: 'B+.filter', nodes: [design.supply.node, circuit.ground], farads: design.supply.filterFarads, polarized: true, ratedVolts: null },
+    ...(design.supply.filterFarads > 0 ? [{ id: 'B+.filter', nodes: [design.supply.node, circuit.ground] as const, farads: design.supply.filterFarads, polarized: true, ratedVolts: null }] : []),
     ...design.parts.flatMap((p) => (p.kind === 'capacitor' ? [{ id: p.id, nodes: p.nodes, farads: p.farads, polarized: p.polarized ?? false, ratedVolts: p.ratedVolts ?? null }] : [])),
   ];
   for (const p of capParts) {

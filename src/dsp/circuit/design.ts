@@ -4,7 +4,7 @@ import { tubeType, type TubeType } from '../tubes/library.ts';
 import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
-import type { RectifierSpec, SecondarySpec } from '../analysis/supply.ts';
+import type { RectifierSpec, SecondarySpec } from './supply-types.ts';
 
 export const DESIGN_SCHEMA = 'valvewright.design.v1';
 
@@ -36,6 +36,7 @@ export type Part = ResistorPart | CapacitorPart | PotPart | SwitchPart | TubePar
 
 export interface Supply {
   readonly node: string;
+  /** EMF, volts; ohms: source resistance; filterFarads: capacitor at the node (0: none). */
   readonly volts: number;
   readonly ohms: number;
   readonly filterFarads: number;
@@ -122,7 +123,8 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   if (!d.supply || typeof d.supply.node !== 'string') throw new DesignError('design needs "supply": { "node", "volts", "ohms", "filterFarads" }');
   checkPositive(d.supply.volts, 'supply volts', 1, 1000, 'V');
   if (!(d.supply.ohms >= 0 && d.supply.ohms < 1e6)) throw new DesignError('supply ohms must be between 0 and 1 M');
-  checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
+  // 0 = no filter capacitor (a netlist's ideal or resistive source); otherwise a real capacitor
+  if (d.supply.filterFarads !== 0) checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
   if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
   const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);
   const nodes = new Set<string>([GROUND, d.supply.node, d.input.node]);
@@ -225,7 +227,7 @@ export function interelectrodeCapacitors(p: TubePart): EngineCapacitor[] {
 function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
   const out: EngineElement[] = [
     { id: SUPPLY_ID, kind: 'dc-source', nodes: [d.supply.node, GROUND], volts: d.supply.volts, ohms: d.supply.ohms },
-    { id: SUPPLY_FILTER_ID, kind: 'capacitor', nodes: [d.supply.node, GROUND], farads: d.supply.filterFarads },
+    ...(d.supply.filterFarads > 0 ? [{ id: SUPPLY_FILTER_ID, kind: 'capacitor' as const, nodes: [d.supply.node, GROUND] as const, farads: d.supply.filterFarads }] : []),
     { id: LOAD_ID, kind: 'resistor', nodes: [d.output.node, GROUND], ohms: d.output.loadOhms },
   ];
   for (const p of d.parts) {
