@@ -55,6 +55,8 @@ export interface PowerSupplySection {
   readonly reservoirRatedVolts?: number;
   readonly stages?: readonly { readonly droppingOhms: number; readonly farads: number; readonly ratedVolts?: number; readonly label?: string }[];
   readonly heaterWinding?: { readonly volts: number; readonly amps: number };
+  /** Mains RMS volts at the primary (default 230 V at 50 Hz, 120 V at 60 Hz); sets the primary current and fuse. */
+  readonly mainsVolts?: number;
 }
 
 export interface Design {
@@ -278,6 +280,27 @@ export function partValueUpdates(part: Part): { id: string; value: number }[] {
     }
     default: return [];
   }
+}
+
+/**
+ * Volts at the circuit input for a full-scale sample when nothing says otherwise: the workspace
+ * and the command line (render --input-volts, pair --input-volts) start from this one figure.
+ * 1 V peak is a hot humbucker chord (from memory; check-values "Guitar signals").
+ */
+export const DEFAULT_INPUT_VOLTS_AT_FULL_SCALE = 1;
+
+/** A pot that works as the volume control: wiper on the output node, or named/labelled volume or level. */
+export function isVolumePot(p: Part, outputNode: string): p is PotPart {
+  return p.kind === 'pot' && (p.nodes[1] === outputNode || /^vol/i.test(p.id) || /\b(volume|level)\b/i.test(p.label ?? ''));
+}
+
+/**
+ * The design with every volume control fully clockwise (position 1): the reference a render or
+ * the workspace levels against, so that the volume knob still changes the level heard.
+ */
+export function withVolumeFull(d: Design): Design {
+  if (!d.parts.some((p) => isVolumePot(p, d.output.node))) return d;
+  return { ...d, parts: d.parts.map((p) => (isVolumePot(p, d.output.node) ? { ...p, position: 1 } : p)) };
 }
 
 /** Replace one part (by id) in a design, returning a new design. */
