@@ -13,10 +13,13 @@ import { CliError, optString, type ParsedArgs } from './args.ts';
 
 export interface CircuitSource {
   readonly label: string;
-  /** The design as given (netlist converted, --set applied), before the supply estimate. */
-  readonly given: Design;
+  /**
+   * The design as given (netlist converted, --set applied), before the supply estimate; null
+   * for a netlist that is no design (no single B+ source) when the command needs none.
+   */
+  readonly given: Design | null;
   /** The design the model runs: the supply section's estimate as B+ where there is one. */
-  readonly design: Design;
+  readonly design: Design | null;
   readonly circuit: EngineCircuit | Netlist;
   readonly netlist: Netlist;
   readonly fromNetlist: boolean;
@@ -159,7 +162,7 @@ export function setSpecs(a: ParsedArgs): SetSpec[] {
  * --design X or --netlist X (exactly one), --set applied, the supply estimate as B+.
  * `wiring: true` refuses wiring faults (render, op); false loads them for the check to report.
  */
-export async function loadCircuitSource(a: ParsedArgs, options: { readonly wiring: boolean; readonly usage?: string }): Promise<CircuitSource> {
+export async function loadCircuitSource(a: ParsedArgs, options: { readonly wiring: boolean; readonly usage?: string; readonly needDesign?: boolean }): Promise<CircuitSource> {
   const d = optString(a, 'design');
   const n = optString(a, 'netlist');
   if (d && n) throw new CliError('give --design or --netlist, not both');
@@ -181,7 +184,10 @@ export async function loadCircuitSource(a: ParsedArgs, options: { readonly wirin
   if (n) {
     const netlist = applySetsToNetlist(await readNetlist(n), sets);
     let conv;
-    try { conv = netlistToDesign(netlist, n); } catch (e) { throw new CliError(`netlist ${n}: ${(e as Error).message}`); }
+    try { conv = netlistToDesign(netlist, n); } catch (e) {
+      if (options.needDesign) throw new CliError(`netlist ${n}: ${(e as Error).message}`);
+      return { label: n, given: null, design: null, circuit: netlist, netlist, fromNetlist: true, lost: [`analyses that need a design: ${(e as Error).message}`], supply: null, sets: setLines };
+    }
     let design = conv.design;
     try { design = validateDesign(design, { wiring: options.wiring }); } catch (e) {
       if (e instanceof DesignError) throw new CliError(`netlist ${n}: ${e.message}`);
@@ -202,7 +208,7 @@ export function sourceNotes(s: CircuitSource): string[] {
   const out: string[] = [];
   if (s.fromNetlist) for (const l of s.lost) out.push(`note: from a netlist: ${l}`);
   if (s.sets.length > 0) out.push(`note: set ${s.sets.join(', ')}`);
-  if (s.supply) out.push(`note: B+ from the power-supply section: ${s.design.supply.volts.toFixed(1)} V behind ${s.design.supply.ohms.toFixed(0)} ohms (${s.supply.loadedVolts.toFixed(1)} V loaded at node ${s.design.supply.node})`);
+  if (s.supply) out.push(`note: B+ from the power-supply section: ${s.supply.design.supply.volts.toFixed(1)} V behind ${s.supply.design.supply.ohms.toFixed(0)} ohms (${s.supply.loadedVolts.toFixed(1)} V loaded at node ${s.supply.design.supply.node})`);
   return out;
 }
 
@@ -227,4 +233,11 @@ export async function loadModelDesigns(refs: readonly string[], sets: readonly S
     }
     return given.powerSupply ? supplyOf(given).design : given;
   });
+}
+
+/** The design a checking command needs (check, parts, spread, supply): a netlist has been converted. */
+export async function loadDesignSource(a: ParsedArgs, options: { readonly wiring: boolean; readonly usage?: string }): Promise<CircuitSource & { readonly given: Design; readonly design: Design }> {
+  const s = await loadCircuitSource(a, { ...options, needDesign: true });
+  if (!s.given || !s.design) throw new CliError('this command needs a design');
+  return { ...s, given: s.given, design: s.design };
 }

@@ -30,11 +30,11 @@ export async function runAc(argv: readonly string[], io: CommandIO): Promise<num
   const net = tone ? { elementIds: tone.partIds, drivenFrom: tone.drivenFrom } : null;
   const ideal = net ? toneNetworkAc(circuit, net, { frequenciesHz: f }) : null;
   const driven = net ? toneNetworkInCircuit(circuit, op, net, f) : null;
-  const ends = src.fromNetlist ? null : toneControlEnds(src.design, op);
+  const ends = src.fromNetlist || !src.design ? null : toneControlEnds(src.design, op);
   const pick = (r: typeof whole) => ({ magnitudeDb: r.magnitudeDb, phaseDeg: r.phaseDeg });
   const out = {
     frequenciesHz: f, whole: pick(whole),
-    supply: { node: src.design.supply.node, volts: op.nodes[src.design.supply.node] ?? null, fromPowerSupply: src.supply !== null },
+    supply: src.design ? { node: src.design.supply.node, volts: op.nodes[src.design.supply.node] ?? null, fromPowerSupply: src.supply !== null } : null,
     tone: tone && ideal && driven ? {
       parts: [...new Set(tone.partIds.map((id) => id.replace(/\.(1|2)$/, '')))], drivenFrom: tone.drivenFrom,
       // as the circuit drives it (from the stage's output impedance) and loads it

@@ -3,14 +3,14 @@
 import { checkCircuit } from '../../dsp/analysis/check.ts';
 import { resistorWorkingVolts } from '../../dsp/analysis/ratings-sheet.ts';
 import { optNumber, parseArgs } from '../args.ts';
-import { CIRCUIT_OPTIONS, loadCircuitSource } from '../circuit-load.ts';
+import { CIRCUIT_OPTIONS, loadDesignSource } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
 export const CHECK_USAGE = 'usage: valvewright check (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] [--json] [--max-input-volts V] [--unloaded-volts V]';
 
 export async function runCheck(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['json'], [...CIRCUIT_OPTIONS, 'max-input-volts', 'unloaded-volts']);
-  const src = await loadCircuitSource(a, { wiring: false, usage: CHECK_USAGE });
+  const src = await loadDesignSource(a, { wiring: false, usage: CHECK_USAGE });
   const maxIn = optNumber(a, 'max-input-volts', 2, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   const unloaded = optNumber(a, 'unloaded-volts', Number.NaN, (x) => (x > 0 && x <= 2000 ? null : 'must be between 0 and 2000 volts'));
   const r = checkCircuit(src.given, { maxInputVolts: maxIn, ...(Number.isNaN(unloaded) ? {} : { unloadedSupplyVolts: unloaded }) });

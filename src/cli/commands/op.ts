@@ -14,9 +14,9 @@ export async function runOp(argv: readonly string[], io: CommandIO): Promise<num
   const tubes = Object.fromEntries(Object.entries(op.tubes).map(([id, t]) => [id, {
     plateAmps: t.plateAmps, plateWatts: t.plateWatts, gridAmps: t.gridAmps, screenAmps: t.screenAmps,
   }]));
-  const m = loaded.design.supply;
+  const m = loaded.design?.supply;
   // the model's B+ source (the supply section's estimate where the design has one)
-  const supply = loaded.fromNetlist ? null : { node: m.node, emfVolts: m.volts, sourceOhms: m.ohms, filterFarads: m.filterFarads, nodeVolts: op.nodes[m.node] ?? null, fromPowerSupply: loaded.supply !== null };
+  const supply = loaded.fromNetlist || !m ? null : { node: m.node, emfVolts: m.volts, sourceOhms: m.ohms, filterFarads: m.filterFarads, nodeVolts: op.nodes[m.node] ?? null, fromPowerSupply: loaded.supply !== null };
   if (a.options.has('json')) {
     io.out(JSON.stringify({ nodes: op.nodes, tubes, ...(supply ? { supply } : {}) }, null, 2));
     return 0;

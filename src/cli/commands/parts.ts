@@ -2,14 +2,14 @@
 import { checkCircuit } from '../../dsp/analysis/check.ts';
 import { partsCsv, partsRows } from '../../dsp/analysis/parts-list.ts';
 import { parseArgs } from '../args.ts';
-import { CIRCUIT_OPTIONS, loadCircuitSource, sourceNotes } from '../circuit-load.ts';
+import { CIRCUIT_OPTIONS, loadDesignSource, sourceNotes } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
 export const PARTS_USAGE = 'usage: valvewright parts (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] [--csv]';
 
 export async function runParts(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['csv'], [...CIRCUIT_OPTIONS]);
-  const src = await loadCircuitSource(a, { wiring: false, usage: PARTS_USAGE });
+  const src = await loadDesignSource(a, { wiring: false, usage: PARTS_USAGE });
   for (const l of sourceNotes(src)) io.err(l);
   const r = checkCircuit(src.given);
   const rows = partsRows(r.model, r.ratings, r.findings);

@@ -44,7 +44,7 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const withHum = humText === undefined ? null : humForRender(loaded0, humText, 1);
   const loaded = withHum ? withHum.loaded : loaded0;
   // levelled against the design with its volume control fully clockwise, so the knob is heard
-  const levelRef = loaded.fromNetlist ? loaded.circuit : designCircuit(withVolumeFull(loaded.design));
+  const levelRef = loaded.fromNetlist || !loaded.design ? loaded.circuit : designCircuit(withVolumeFull(loaded.design));
   const reader = await openWavFile(inPath);
   const h = reader.header;
   if (h.frameCount === 0) { await reader.close(); throw new CliError(`${inPath} has no audio frames`); }
@@ -111,14 +111,14 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
     output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: engine.averagingDelaySamples > 0, raw,
     inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
+    // the model's B+ at its node at rest (the power-supply estimate where the design has one)
+    supplyVolts: loaded.fromNetlist || !loaded.design ? null : engine.operatingPoint().nodes[loaded.design.supply.node] ?? null,
     ceilingDbtp: raw ? null : RENDER_CEILING_DBTP, truePeakTrimDb: raw ? null : 20 * Math.log10(trimGain), outputTruePeakDbtp: outTruePeakDbtp,
     newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,
   };
+  if (!raw) io.err(`input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`);
   if (a.options.has('json')) io.out(JSON.stringify(summary));
-  else {
-    io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`);
-    if (!raw) io.err(`input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`);
-  }
+  else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`);
   return 0;
 }
 

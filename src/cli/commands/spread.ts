@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { summariseSpread, tubeCaseDesign } from '../../dsp/analysis/spread.ts';
 import { CliError, optNumber, optString, parseArgs } from '../args.ts';
-import { CIRCUIT_OPTIONS, loadCircuitSource, sourceNotes } from '../circuit-load.ts';
+import { CIRCUIT_OPTIONS, loadDesignSource, sourceNotes } from '../circuit-load.ts';
 import { spreadRunsParallel } from '../spread-workers.ts';
 import type { CommandIO } from '../main.ts';
 
@@ -12,7 +12,7 @@ export const SPREAD_USAGE = 'usage: valvewright spread (--design FILE|TEMPLATE |
 
 export async function runSpread(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['json'], [...CIRCUIT_OPTIONS, 'runs', 'seed', 'workers', 'write-cases']);
-  const src = await loadCircuitSource(a, { wiring: true, usage: SPREAD_USAGE });
+  const src = await loadDesignSource(a, { wiring: true, usage: SPREAD_USAGE });
   for (const l of sourceNotes(src)) io.err(l);
   // the model's design: the supply section's estimate as B+ where there is one
   const design = src.design;

@@ -3,7 +3,7 @@ import { designSupply } from '../../dsp/analysis/design-supply.ts';
 import type { PowerSupplySection } from '../../dsp/circuit/design.ts';
 import type { RectifierTopology } from '../../dsp/analysis/supply.ts';
 import { CliError, optNumber, optString, parseArgs, type ParsedArgs } from '../args.ts';
-import { loadCircuitSource } from '../circuit-load.ts';
+import { loadDesignSource } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
 export const SUPPLY_USAGE = 'usage: valvewright supply --design FILE|TEMPLATE [--set PART.FIELD=VALUE ...] [--json] [--secondary-volts V --secondary-amps A [--rectifier bridge|full-wave-ct|half-wave] [--mains 50|60] [--reservoir-farads F] [--heater-volts V --heater-amps A]]';
@@ -26,7 +26,7 @@ function sectionFromFlags(a: ParsedArgs): PowerSupplySection | undefined {
 
 export async function runSupply(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['json'], ['design', 'set', 'secondary-volts', 'secondary-amps', 'rectifier', 'mains', 'reservoir-farads', 'heater-volts', 'heater-amps']);
-  const design = (await loadCircuitSource(a, { wiring: false, usage: SUPPLY_USAGE })).given;
+  const design = (await loadDesignSource(a, { wiring: false, usage: SUPPLY_USAGE })).given;
   const section = sectionFromFlags(a);
   if (!section && !design.powerSupply) throw new CliError(`design "${design.name}" has no "powerSupply" section: add one or give --secondary-volts and --secondary-amps`);
   const s = designSupply(design, section);
