@@ -112,7 +112,8 @@ function checkSampleRate(sampleRateHz: number): void {
   }
 }
 
-function energyToLufs(meanSquareWeighted: number): number {
+/** Loudness of a K-weighted, channel-weighted mean square, LUFS (BS.1770-4 eq. 2). Shared with the live match. */
+export function energyToLufs(meanSquareWeighted: number): number {
   return meanSquareWeighted > 0 ? -0.691 + 10 * Math.log10(meanSquareWeighted) : -Infinity;
 }
 
@@ -373,7 +374,7 @@ function loudnessRange(shortTerm: Float64Array): number {
 
 /** Measures a whole signal. Mono is one channel; stereo/3-channel weights are 1.0. */
 export function measureLoudness(
-  channels: readonly Float32Array[] | readonly Float64Array[],
+  channels: readonly (Float32Array | Float64Array)[],
   sampleRateHz: number,
   options: LoudnessOptions = {},
 ): LoudnessReport {
