@@ -5,7 +5,7 @@
 //
 // The window is the short-term window of EBU Tech 3341 (3 s, ungated mean square); a window
 // whose loudness is under the BS.1770 absolute gate (-70 LUFS) on either slot holds the gain.
-import { energyToLufs, gainToMatchDb, kWeightingCoefficients } from './loudness.ts';
+import { energyToLufs, gainToMatchDb, kWeightedEnergy, kWeightingCoefficients, type KWeighting } from './loudness.ts';
 
 /** Sliding window, seconds (EBU Tech 3341 short-term loudness). */
 export const MATCH_WINDOW_SECONDS = 3;
@@ -23,22 +23,19 @@ export const ABSOLUTE_GATE_LUFS = -70;
  * sample range; `lufs` is the window's loudness (-Infinity until the first sub-block closes).
  */
 export class SlidingLoudness {
-  private readonly b0: number; private readonly b1: number; private readonly b2: number; private readonly a1: number; private readonly a2: number;
-  private readonly c0: number; private readonly c1: number; private readonly c2: number; private readonly d1: number; private readonly d2: number;
-  /** Filter state [s1, s2, t1, t2] and [energy of the open sub-block, window sum] (stores never box). */
+  private readonly k: KWeighting;
+  /** Filter state [s1, s2, t1, t2, energy of the open sub-block] and [5] the window sum (stores never box). */
   private readonly st = new Float64Array(6);
   private readonly ring: Float64Array;
   private readonly subLen: number;
   private pos = 0;
   private filled = 0;
   private head = 0;
-  /** Sub-blocks closed since the last read of `closedSinceRead` (the match steps on them). */
+  /** Sub-blocks closed so far (the match steps on them). */
   closed = 0;
 
   constructor(sampleRateHz: number, windowSeconds = MATCH_WINDOW_SECONDS, stepSeconds = MATCH_STEP_SECONDS) {
-    const k = kWeightingCoefficients(sampleRateHz);
-    [this.b0, this.b1, this.b2] = k.shelf.b; this.a1 = k.shelf.a[1]; this.a2 = k.shelf.a[2];
-    [this.c0, this.c1, this.c2] = k.highPass.b; this.d1 = k.highPass.a[1]; this.d2 = k.highPass.a[2];
+    this.k = kWeightingCoefficients(sampleRateHz);
     this.subLen = Math.max(1, Math.round(stepSeconds * sampleRateHz));
     this.ring = new Float64Array(Math.max(1, Math.round(windowSeconds / stepSeconds)));
   }
@@ -54,31 +51,27 @@ export class SlidingLoudness {
   get full(): boolean { return this.filled === this.ring.length; }
 
   push(x: Float64Array, off: number, len: number): void {
-    const st = this.st;
-    let s1 = st[0]!, s2 = st[1]!, t1 = st[2]!, t2 = st[3]!, e = st[4]!;
-    const { b0, b1, b2, a1, a2, c0, c1, c2, d1, d2 } = this;
-    for (let q = off; q < off + len; q++) {
-      const v = x[q]!;
-      const u = b0 * v + s1;
-      s1 = b1 * v - a1 * u + s2;
-      s2 = b2 * v - a2 * u;
-      const y = c0 * u + t1;
-      t1 = c1 * u - d1 * y + t2;
-      t2 = c2 * u - d2 * y;
-      e += y * y;
-      if (++this.pos === this.subLen) {
+    const st = this.st, end = off + len;
+    let i = off;
+    while (i < end) {
+      const take = Math.min(end - i, this.subLen - this.pos);
+      kWeightedEnergy(this.k, st, 0, x, i, i + take);
+      // a non-finite sample would poison the window: start again from silence
+      if (!Number.isFinite(st[0]! + st[1]! + st[2]! + st[3]! + st[4]!)) { this.reset(); return; }
+      i += take;
+      this.pos += take;
+      if (this.pos === this.subLen) {
         // close the sub-block: it replaces the oldest in the window
         const ring = this.ring, h = this.head;
-        st[5] = st[5]! - ring[h]! + e;
-        ring[h] = e;
+        st[5] = st[5]! - ring[h]! + st[4]!;
+        ring[h] = st[4]!;
+        st[4] = 0;
         this.head = h + 1 === ring.length ? 0 : h + 1;
         if (this.filled < ring.length) this.filled++;
-        e = 0; this.pos = 0; this.closed++;
+        this.pos = 0;
+        this.closed++;
       }
     }
-    // a non-finite sample would poison the window: start again from silence
-    if (!Number.isFinite(s1 + s2 + t1 + t2 + e)) { this.reset(); return; }
-    st[0] = s1; st[1] = s2; st[2] = t1; st[3] = t2; st[4] = e;
   }
 }
 
