@@ -110,6 +110,8 @@ export interface AudioEngine {
   setQuality(factor: OversamplingFactor): void;
   setInputCalibration(voltsAtFullScale: number): void;
   setOutputScale(slot: Slot, voltsAtFullScale: number): void;
+  /** Live A/B loudness match (B follows A by its measured loudness; the meter report carries the offset). */
+  setLoudnessMatch(on: boolean): void;
   setOutputLevel(db: number): void;
   setLimiter(enabled: boolean): void;
   setMuted(muted: boolean): void;
@@ -387,6 +389,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     setQuality(factor) { state.factor = factor; send({ type: 'set-quality', factor }); },
     setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
     setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
+    setLoudnessMatch(on) { send({ type: 'set-loudness-match', on }); },
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
     setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
     setMuted(muted) {
