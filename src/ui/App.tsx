@@ -161,7 +161,7 @@ export function App(): ReactElement {
     port.setSource(c);
     const v = c.voltsAtFullScale;
     if (v && Math.abs(v - calibration) > 1e-9 * v) {
-      say(`${name} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibration)}.`, false, { label: `Use ${formatVolts(v)}`, run: () => { setCalibration(v); say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`); } });
+      say(`${name} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibration)}.`, false, { label: `Set the calibration to ${formatVolts(v)}`, run: () => { setCalibration(v); say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`); } });
     }
   };
   // a recorded take becomes the clip: the same playing through A, B and dry, and the client pack

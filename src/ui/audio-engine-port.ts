@@ -31,8 +31,11 @@ export class EnginePort implements AudioPort {
   private creating: Promise<AudioEngine> | null = null;
   private designs: Partial<Record<Slot, Design>> = {};
   private sent: Partial<Record<Slot, Design>> = {};
-  /** One output scale for both slots (A's design at full volume): their difference stays theirs, and the live match takes it out. */
-  private scale: number | null = null;
+  /**
+   * Each slot's output scale: its design with the volume fully clockwise (so the knob is heard),
+   * levelled at 1 kHz. The live match then measures and takes out what is left between them.
+   */
+  private scales: Partial<Record<Slot, number>> = {};
   private monitor: Monitor = 'A';
   private matched = true;
   private calibration = DEFAULT_INPUT_VOLTS_AT_FULL_SCALE;
@@ -109,23 +112,20 @@ export class EnginePort implements AudioPort {
         else e.setPart(slot, p as Part);
       });
     } else if (prev !== d) {
-      await e.loadDesign(slot, d, { outputVoltsAtFullScale: this.outputScale() });
+      await e.loadDesign(slot, d, { outputVoltsAtFullScale: this.outputScale(slot) });
     }
   }
 
-  private outputScale(): number {
-    const ref = this.designs.A ?? this.designs.B;
-    if (this.scale === null) this.scale = ref ? estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(ref)), 48000, this.calibration) : 1;
-    return this.scale;
+  private outputScale(slot: Slot): number {
+    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.calibration));
   }
 
-  /** Re-estimate the common output scale a little after edits (the live match follows the sound itself). */
+  /** Re-estimate both slots' output scales a little after edits (the live match follows the sound itself). */
   private releveling(): void {
     if (this.levelTimer) clearTimeout(this.levelTimer);
     this.levelTimer = setTimeout(() => {
-      this.scale = null;
-      const v = this.outputScale();
-      if (this.engine) for (const s of SLOTS) if (this.designs[s]) this.engine.setOutputScale(s, v);
+      this.scales = {};
+      if (this.engine) for (const s of SLOTS) if (this.designs[s]) this.engine.setOutputScale(s, this.outputScale(s));
     }, 250);
   }
 

@@ -88,7 +88,8 @@ export class LoudnessMatch {
   private readonly slewPerSubBlock: number;
   /** [current gain dB, target dB, gain at the start of the segment (linear), at its end (linear)] */
   private readonly g = Float64Array.of(0, 0, 1, 1);
-  enabled = true;
+  /** Off until asked for (set-loudness-match): an offline render plays each slot as it is. */
+  enabled = false;
 
   constructor(sampleRateHz: number) {
     this.a = new SlidingLoudness(sampleRateHz);
