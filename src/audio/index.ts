@@ -349,6 +349,11 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   let stream: MediaStream | null = null;
   let streamNode: MediaStreamAudioSourceNode | null = null;
   let splitter: ChannelSplitterNode | null = null;
+  // the live input before its mute gain: the input meter reads it while live input is muted, so
+  // the interface gain can be set before anything is heard
+  const inputTap = raw.createAnalyser();
+  inputTap.fftSize = 2048;
+  const tapBuf = new Float32Array(inputTap.fftSize);
   let liveChannels = 0;
   let liveMuted = true;
 
@@ -476,6 +481,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       liveChannels = channels;
       if (channel === 'mix') {
         Tone.connect(streamNode, liveGain);
+        streamNode.connect(inputTap);
         if (takeNode) streamNode.connect(takeNode);
       } else {
         // one channel of the interface on its own (a guitar on input 2 would otherwise come in
@@ -483,6 +489,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
         splitter = raw.createChannelSplitter(2);
         streamNode.connect(splitter);
         Tone.connect(splitter, liveGain, channel - 1, 0);
+        splitter.connect(inputTap, channel - 1, 0);
         if (takeNode) splitter.connect(takeNode, channel - 1, 0);
       }
       liveMuted = true;
@@ -553,7 +560,12 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     onReport(l) { listeners.add(l); return () => listeners.delete(l); },
     get latestMeter() { return latestMeter; },
     levels() {
-      const r = { inputVolts: peakIn, outputDbfs: peakOutDb };
+      let tapped = 0;
+      if (stream && liveMuted) {
+        inputTap.getFloatTimeDomainData(tapBuf);
+        for (let k = 0; k < tapBuf.length; k++) { const a = Math.abs(tapBuf[k]!); if (a > tapped) tapped = a; }
+      }
+      const r = { inputVolts: Math.max(peakIn, tapped * state.inputVolts), outputDbfs: peakOutDb };
       peakIn = 0; peakOutDb = -200;
       return r;
     },

@@ -106,6 +106,23 @@ describe('live A/B: the offset shown is what the output meter reads', () => {
   }, 240_000);
 });
 
+describe('live input while muted', () => {
+  it('the input meter reads the source, so the interface gain can be set before unmuting', async () => {
+    await openWorkspace(h);
+    await h.page.getByRole('button', { name: 'Live input…' }).click();
+    await h.page.getByRole('button', { name: /enable input \(muted\)/ }).click();
+    await expect.poll(() => h.page.getByTestId('mute').textContent(), { timeout: 20_000 }).toBe('Unmute');
+    // Chromium's fake capture device plays a periodic tone: a muted input still shows it
+    await expect.poll(async () => {
+      const t = (await h.page.getByTestId('input-level').textContent()) ?? '';
+      const m = /([\d.]+) (µV|mV|V) peak/.exec(t);
+      if (!m) return 0;
+      return Number(m[1]) * (m[2] === 'V' ? 1 : m[2] === 'mV' ? 1e-3 : 1e-6);
+    }, { timeout: 20_000 }).toBeGreaterThan(1e-3);
+    expect(await h.page.getByTestId('mute').textContent()).toBe('Unmute');
+  }, 60_000);
+});
+
 function setVol(d: Design, position: number): Design {
   return withPart(d, { ...(d.parts.find((p) => p.id === 'VOL') as Part & { kind: 'pot' }), position });
 }
