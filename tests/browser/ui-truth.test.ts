@@ -1,16 +1,19 @@
 // One truth in the workspace: the part editor shows the same worst case as `check` / `parts`,
 // a design with a power-supply section runs on the estimated B+, and the live A/B offset is what
 // the output meter reads. Fresh page per case; every wait polls on page state (no sleeps).
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import { TEMPLATES } from '../../src/dsp/circuit/templates.ts';
 import { withPart, type Design, type Part } from '../../src/dsp/circuit/design.ts';
 import { checkCircuit } from '../../src/dsp/analysis/check.ts';
 import { partsRows } from '../../src/dsp/analysis/parts-list.ts';
 import { designSupply } from '../../src/dsp/analysis/design-supply.ts';
-import { openWorkspace, startHarness, type Harness } from './ui-harness.ts';
+import { openWorkspace, startUiHarness, type UiHarness, type Workspace } from './ui-harness.ts';
 
-let h: Harness;
-beforeEach(async () => { h = await startHarness(); }, 120_000);
+let ui: UiHarness;
+let h: Workspace;
+beforeAll(async () => { ui = await startUiHarness(); }, 120_000);
+afterAll(async () => { await ui?.close(); });
+beforeEach(async () => { h = await ui.newWorkspace(); }, 60_000);
 afterEach(async () => { await h?.close(); });
 
 type Status = { offsetDb: number | null; matchGainDb: number; outputLufs: number | null; playing: boolean };
@@ -19,7 +22,7 @@ type Win = { __valvewright: { port: { subscribe(l: (s: Status) => void): () => v
 async function importInto(slot: 'A' | 'B', d: Design): Promise<void> {
   await h.page.getByRole('radio', { name: slot, exact: true }).click();
   await h.page.getByTestId('import-design').setInputFiles({ name: 'd.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(d)) });
-  await expect.poll(() => h.page.evaluate((s) => JSON.stringify((window as unknown as Win).__valvewright.slots()[s]), slot), { timeout: 20_000 }).toBe(JSON.stringify(d));
+  await expect.poll(() => h.page.evaluate((s: 'A' | 'B') => JSON.stringify((window as unknown as Win).__valvewright.slots()[s]), slot), { timeout: 20_000 }).toBe(JSON.stringify(d));
 }
 
 describe('part editor: the worst case of the one sheet', () => {

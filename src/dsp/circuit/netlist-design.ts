@@ -16,6 +16,13 @@ export const OPEN_LOAD_OHMS = 1e9;
 
 const close = (a: number, b: number) => Math.abs(a - b) <= 1e-9 * Math.max(Math.abs(a), Math.abs(b), 1e-300);
 
+/** Two grid laws with the same name and the same parameters. */
+function sameLaw(a: object, b: object): boolean {
+  const ea = Object.entries(a), rb = b as Record<string, unknown>;
+  if (ea.length !== Object.keys(b).length) return false;
+  return ea.every(([k, v]) => (typeof v === 'number' && typeof rb[k] === 'number' ? close(v, rb[k]) : v === rb[k]));
+}
+
 /** The library type (and sample factor) whose equations a netlist tube uses, or null. */
 export function matchLibraryTube(t: NetTube): { type: TubeType; sample: number } | null {
   for (const lib of Object.values(TUBE_LIBRARY)) {
@@ -24,8 +31,7 @@ export function matchLibraryTube(t: NetTube): { type: TubeType; sample: number }
     if (!close(m.mu, l.mu) || !close(m.ex, l.ex) || !close(m.kp, l.kp) || !close(m.kvb, l.kvb)) continue;
     const sample = l.kg1 / m.kg1;
     if (t.kind === 'pentode' && lib.kind === 'pentode' && !close(lib.model.kg2 / t.model.kg2, sample)) continue;
-    const g = t.gridCurrent, lg = lib.gridCurrent;
-    if (g && !(close(g.gg, lg.gg) && close(g.cg, lg.cg) && close(g.xi, lg.xi) && close(g.ig0, lg.ig0))) continue;
+    if (t.gridCurrent && !sameLaw(t.gridCurrent, lib.gridCurrent)) continue;
     return { type: lib, sample };
   }
   return null;
