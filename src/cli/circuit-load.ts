@@ -208,6 +208,7 @@ export function sourceNotes(s: CircuitSource): string[] {
   const out: string[] = [];
   if (s.fromNetlist) for (const l of s.lost) out.push(`note: from a netlist: ${l}`);
   if (s.sets.length > 0) out.push(`note: set ${s.sets.join(', ')}`);
+  if (s.supply && s.sets.some((l) => l.startsWith(`${SUPPLY_ID}.`))) out.push(`note: the design has a power-supply section, so its estimate replaces the --set ${SUPPLY_ID} values`);
   if (s.supply) out.push(`note: B+ from the power-supply section: ${s.supply.design.supply.volts.toFixed(1)} V behind ${s.supply.design.supply.ohms.toFixed(0)} ohms (${s.supply.loadedVolts.toFixed(1)} V loaded at node ${s.supply.design.supply.node})`);
   return out;
 }
