@@ -126,6 +126,28 @@ describe('live input while muted', () => {
   }, 60_000);
 });
 
+describe('smaller items', () => {
+  it('Copy link leaves the address bar alone; a demo clip does not change the calibration by itself; no request fails', async () => {
+    await openWorkspace(h);
+    await h.page.getByRole('button', { name: 'Copy link' }).click();
+    await expect.poll(() => h.page.getByTestId('message').textContent(), { timeout: 10_000 }).toMatch(/copied|Copy this link/);
+    expect(await h.page.evaluate(() => location.hash)).toBe('');
+    const cal = h.page.getByTestId('calibration');
+    const before = await cal.inputValue();
+    await h.page.getByTestId('demo-select').selectOption({ index: 1 });
+    await expect.poll(() => h.page.getByTestId('play').isEnabled(), { timeout: 20_000 }).toBe(true);
+    expect(await cal.inputValue()).toBe(before);
+    // the demo clips carry their own figures (0.1-0.34 V, public/demo/clips.json), unlike the 1 V
+    // default: it is offered as a choice instead
+    const offer = h.page.getByTestId('message-action');
+    await offer.waitFor({ timeout: 10_000 });
+    await offer.click();
+    await expect.poll(() => cal.inputValue()).not.toBe(before);
+    expect(h.failedUrls).toEqual([]);
+    expect(h.consoleErrors).toEqual([]);
+  }, 60_000);
+});
+
 function setVol(d: Design, position: number): Design {
   return withPart(d, { ...(d.parts.find((p) => p.id === 'VOL') as Part & { kind: 'pot' }), position });
 }
