@@ -191,7 +191,9 @@ export function PartEditor({ design, part, rating, sheetPending, onChange, onSup
       )}
       {part?.kind === 'tube' && rating && <p className="stress" data-testid="part-rating">Worst case: <span data-testid="part-worst">{rating.worstCase}</span></p>}
       <hr />
-      <ValueField key={`bplus-${design.supply.volts}`} label="B+ supply" unit="volts" value={design.supply.volts} snap="off" onCommit={onSupplyVolts} testId="bplus-input" />
+      {design.powerSupply
+        ? <p className="fine" data-testid="bplus-from-supply">B+ comes from the design's power-supply section (transformer, rectifier, filter): the operating point shows its estimate. Change that section to change it.</p>
+        : <ValueField key={`bplus-${design.supply.volts}`} label="B+ supply" unit="volts" value={design.supply.volts} snap="off" onCommit={onSupplyVolts} testId="bplus-input" />}
     </section>
   );
 }
