@@ -8,7 +8,7 @@ import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { DEFAULT_LIVE_FACTOR, LIVE_FACTORS } from '../dsp/realtime/dual-slot-engine.ts';
 import type { Finding } from '../dsp/analysis/wiring-check.ts';
-import { modelDesign, worstCase, type WorstCaseView } from './model/worst-case.ts';
+import { modelDesign, SheetService, type WorstCaseView } from './model/worst-case.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
 import { calibrationProblem, dbuToPeakVolts, parseDbu } from './model/calibration.ts';
@@ -119,13 +119,12 @@ export function App(): ReactElement {
   }, [opDesign]);
   // the worst-case sheet (warm idle, cold start at the unloaded B+, maximum input): the one
   // `check` and `parts` print; it takes a few hundred ms, so it follows edits after a pause
-  const sheetDesign = useDebounced(design, 400);
+  // (in a worker: sheet.worker.ts)
+  const sheetDesign = useDebounced(design, 300);
   const [sheet, setSheet] = useState<{ design: Design; view: WorstCaseView } | null>(null);
-  useEffect(() => {
-    let live = true;
-    const t = setTimeout(() => { if (!live) return; try { setSheet({ design: sheetDesign, view: worstCase(sheetDesign) }); } catch { setSheet(null); } }, 0);
-    return () => { live = false; clearTimeout(t); };
-  }, [sheetDesign]);
+  const sheets = useMemo(() => new SheetService((d, view) => setSheet(view ? { design: d, view } : null)), []);
+  useEffect(() => () => sheets.dispose(), [sheets]);
+  useEffect(() => { sheets.request(sheetDesign); }, [sheets, sheetDesign]);
   const sheetNow = sheet && sheet.design === design ? sheet.view : null;
   const findings: Finding[] = sheetNow ? sheetNow.result.findings.filter((f) => f.severity !== 'note') : [];
   useEffect(() => {

@@ -40,3 +40,48 @@ export function modelDesign(d: Design): Design {
   }
   return m;
 }
+
+/** A request to the sheet worker (sheet.worker.ts) and its reply (plain data: structured-cloned). */
+export interface SheetRequest { readonly id: number; readonly design: Design }
+export type SheetReply = { readonly id: number; readonly ok: true; readonly view: WorstCaseView } | { readonly id: number; readonly ok: false; readonly reason: string };
+
+/**
+ * The sheet of the latest design asked for, from a worker (or on the main thread in the next
+ * idle moment where workers are unavailable). Answers to older requests are dropped.
+ */
+export class SheetService {
+  private worker: Worker | null = null;
+  private next = 0;
+  private latest = -1;
+  private pending = new Map<number, Design>();
+
+  constructor(private readonly onSheet: (design: Design, view: WorstCaseView | null) => void) {
+    try {
+      this.worker = new Worker(new URL('../sheet.worker.ts', import.meta.url), { type: 'module' });
+      this.worker.onmessage = (e: MessageEvent<SheetReply>) => this.answer(e.data);
+      this.worker.onerror = () => { this.worker = null; };
+    } catch { this.worker = null; }
+  }
+
+  request(design: Design): void {
+    const id = this.next++;
+    this.latest = id;
+    this.pending.set(id, design);
+    if (this.worker) { this.worker.postMessage({ id, design } satisfies SheetRequest); return; }
+    setTimeout(() => {
+      if (id !== this.latest) return;
+      let reply: SheetReply;
+      try { reply = { id, ok: true, view: worstCase(design) }; } catch (err) { reply = { id, ok: false, reason: (err as Error).message }; }
+      this.answer(reply);
+    }, 0);
+  }
+
+  private answer(r: SheetReply): void {
+    const design = this.pending.get(r.id);
+    this.pending.delete(r.id);
+    if (design === undefined || r.id !== this.latest) return;
+    this.onSheet(design, r.ok ? r.view : null);
+  }
+
+  dispose(): void { this.worker?.terminate(); this.worker = null; }
+}
