@@ -134,6 +134,4 @@ export class LoudnessMatch {
   /** Measure the output (after the mix, the master level and the limiter). */
   measureOutput(y: Float64Array, len: number): void { this.out.push(y, 0, len); }
 
-  /** Start again (e.g. a new design in a slot): the window refills, the gain stays where it was. */
-  restartWindows(): void { this.a.reset(); this.b.reset(); this.out.reset(); }
 }
