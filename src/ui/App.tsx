@@ -8,7 +8,7 @@ import { decodeDesignHash } from './model/share.ts';
 import { CautionDialog } from './Cautions.tsx';
 import { TopBar } from './TopBar.tsx';
 import { CircuitPanel } from './panels/CircuitPanel.tsx';
-import { BenchSide, useOperatingPoint } from './panels/BenchSide.tsx';
+import { BenchSide, useBench } from './panels/BenchSide.tsx';
 import { ListenPanel } from './panels/ListenPanel.tsx';
 import { SeePanel } from './panels/SeePanel.tsx';
 import { AnalysesPanel } from './panels/AnalysesPanel.tsx';
@@ -62,9 +62,9 @@ export function App(): ReactElement {
     dispatch({ type: 'say', text: qualityNote });
   }, [qualityNote, loweredTo]);
 
-  // test hooks, kept out of production builds
+  // test hook: only in development builds or a page opened with ?vw-test (the browser tests)
   useEffect(() => {
-    if (!import.meta.env.DEV) return;
+    if (!import.meta.env.DEV && !new URLSearchParams(location.search).has('vw-test')) return;
     const w = window as unknown as Record<string, unknown>;
     w.__valvewright = { port, slots: () => history.present, active: () => active };
   });
@@ -80,7 +80,7 @@ function Shell(): ReactElement {
   const { state, dispatch } = useWorkspace();
   const { openDesignFile, openAudioFile } = useFileActions();
   const startLive = useStartLive();
-  const op = useOperatingPoint();
+  const bench = useBench();
   const [dragging, setDragging] = useState(false);
   useKeys();
   const onDropFiles = (files: FileList) => {
@@ -92,10 +92,10 @@ function Shell(): ReactElement {
   return (
     <div className={`app${dragging ? ' dragging' : ''}`} onDragOver={(e) => { e.preventDefault(); setDragging(true); }} onDragLeave={(e) => { if (e.currentTarget === e.target) setDragging(false); }} onDrop={(e) => { e.preventDefault(); setDragging(false); onDropFiles(e.dataTransfer.files); }}>
       <TopBar />
-      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} <button type="button" className="link" onClick={() => dispatch({ type: 'dismiss' })} aria-label="Dismiss message">×</button></p>}
+      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} {message.action && <button type="button" onClick={message.action.run} data-testid="message-action">{message.action.label}</button>} <button type="button" className="link" onClick={() => dispatch({ type: 'dismiss' })} aria-label="Dismiss message">×</button></p>}
       <main className="grid">
-        <CircuitPanel findings={op.findings} />
-        <BenchSide op={op} />
+        <CircuitPanel findings={bench.findings} />
+        <BenchSide bench={bench} />
         <div className="lower">
           <div className="tabs" role="tablist" aria-label="Panels">
             {(['listen', 'analyses', 'see'] as const).map((t) => <button key={t} type="button" role="tab" aria-selected={tab === t} aria-controls={`tab-${t}`} onClick={() => dispatch({ type: 'tab', tab: t })}>{TAB_NAMES[t]}</button>)}

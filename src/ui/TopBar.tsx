@@ -1,5 +1,5 @@
 // The header: the starting circuit (or an empty sheet) and the design-file toolbar.
-import type { ReactElement } from 'react';
+import { useState, type ReactElement } from 'react';
 import { TEMPLATES } from '../dsp/circuit/templates.ts';
 import { emptySheet } from '../dsp/circuit/edit.ts';
 import { canRedo, canUndo } from './model/history.ts';
@@ -15,6 +15,7 @@ export function TopBar(): ReactElement {
   const { state, dispatch } = useWorkspace();
   const { openDesignFile } = useFileActions();
   const { history, active } = state;
+  const [keepValues, setKeepValues] = useState(false);
   const slots = history.present;
   const design = slots[active];
   const templateKey = Object.entries(TEMPLATES).find(([, t]) => t.name === design.name)?.[0] ?? '';
@@ -26,30 +27,35 @@ export function TopBar(): ReactElement {
     }
     const t = TEMPLATES[key];
     if (!t) return;
-    const r = applyTemplate(design, t);
-    dispatch({ type: 'commit', slots: withSlot(slots, active, r.design), say: `Slot ${active} is now "${t.name}"; kept values of ${r.kept.length} shared parts.` });
+    if (keepValues) {
+      const r = applyTemplate(design, t);
+      dispatch({ type: 'commit', slots: withSlot(slots, active, r.design), say: `Slot ${active} is now "${t.name}" with your values of ${r.kept.length} shared parts kept.` });
+    } else dispatch({ type: 'commit', slots: withSlot(slots, active, t), say: `Slot ${active} is now "${t.name}", exactly as the command line has it.` });
     dispatch({ type: 'select', id: null });
   };
+  // the link goes to the clipboard, not the address bar: a reload must not bring back this
+  // snapshot over later edits
   const share = async () => {
     const h = await encodeDesignHash(design);
-    window.history.replaceState(null, '', `#${h}`);
-    try { await navigator.clipboard.writeText(location.href); dispatch({ type: 'say', text: 'Link to this design copied; it is also in the address bar.' }); } catch { dispatch({ type: 'say', text: 'Link to this design is in the address bar.' }); }
+    const url = `${location.origin}${location.pathname}${location.search}#${h}`;
+    try { await navigator.clipboard.writeText(url); dispatch({ type: 'say', text: 'Link to this design copied to the clipboard.' }); } catch { dispatch({ type: 'say', text: `Copy this link to share the design: ${url}` }); }
   };
   return (
     <header className="top">
       <h1>Valvewright <span className="sub">audition bench</span></h1>
-      <label className="inline-label">Starting circuit
-        <select value={templateKey} onChange={(e) => choose(e.target.value)}>
+      <label className="inline-label"><span className="label-text">Starting circuit</span>
+        <select value={templateKey} data-testid="template-select" onChange={(e) => choose(e.target.value)}>
           {templateKey === '' && <option value="">{design.name}</option>}
           {Object.entries(TEMPLATES).map(([k, t]) => <option key={k} value={k}>{t.name}</option>)}
           <option value={EMPTY}>empty sheet</option>
         </select>
       </label>
+      <label className="inline-label keep" title="When choosing a starting circuit, keep your values of the parts it shares with the present one"><input type="checkbox" checked={keepValues} onChange={(e) => setKeepValues(e.target.checked)} /> keep my values</label>
       <div className="toolbar" role="toolbar" aria-label="Design file">
         <button type="button" onClick={() => dispatch({ type: 'undo' })} disabled={!canUndo(history)} title="Ctrl+Z">Undo</button>
         <button type="button" onClick={() => dispatch({ type: 'redo' })} disabled={!canRedo(history)} title="Ctrl+Shift+Z">Redo</button>
         <button type="button" onClick={() => download(exportDesignText(design), 'application/json', designFileName(design))}>Export JSON</button>
-        <label className="button">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
+        <label className="button" title="A design file, or a netlist-v1 file">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
         <button type="button" onClick={() => void share()}>Copy link</button>
         <button type="button" onClick={() => dispatch({ type: 'caution', kind: 'first-run' })}>Safety</button>
       </div>

@@ -36,6 +36,8 @@ export interface VoicingReport {
   readonly fitErrorUnit: 'fraction' | 'dB rms';
   readonly hertz: readonly number[];
   readonly db: readonly number[];
+  /** Output impedance of the stage that drives the network, ohms (the fit includes it). */
+  readonly sourceOhms: number;
 }
 
 export type AnalysisResult =

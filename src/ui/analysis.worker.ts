@@ -7,7 +7,9 @@ import { spreadRun, summariseSpread, tubeCaseDesign, type SpreadRun } from '../d
 import { checkDesign } from '../dsp/analysis/check.ts';
 import { partsCsv, partsRows } from '../dsp/analysis/parts-list.ts';
 import { toSpice } from '../dsp/analysis/spice.ts';
-import { identifyToneNetwork } from '../dsp/analysis/ac.ts';
+import { identifyToneNetwork, toneNetworkInCircuit } from '../dsp/analysis/ac.ts';
+import { CircuitEngine } from '../dsp/circuit/engine.ts';
+import { modelDesign } from './model/worst-case.ts';
 import { fitToneNetwork } from '../dsp/analysis/voicing.ts';
 import { OversampledCircuit } from '../dsp/render/oversampled.ts';
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
@@ -112,8 +114,13 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
       const circuit = designCircuit(req.design);
       const net = identifyToneNetwork(circuit);
       if (!net) throw new Error('no passive tone network between a plate coupling capacitor and the output to voice');
-      const r = fitToneNetwork(circuit, net, req.vary, req.target, { series: req.series });
-      return { result: { type: 'voicing', report: { values: r.values, cornerHz: r.cornerHz, fitError: r.fitError, fitErrorUnit: r.fitErrorUnit, hertz: r.response.frequenciesHz, db: r.response.magnitudeDb } }, transfer: [] };
+      // the network as the circuit drives it: from the driving stage's output impedance at its operating point
+      const model = modelDesign(req.design);
+      const mc = designCircuit(model);
+      const sourceOhms = toneNetworkInCircuit(mc, new CircuitEngine(mc, 48000).operatingPoint(), net).sourceOhms;
+      // two decades either side of the present values: a target far from the present voicing is reachable
+      const r = fitToneNetwork(circuit, net, req.vary, req.target, { series: req.series, sourceOhms, decades: 2 });
+      return { result: { type: 'voicing', report: { values: r.values, cornerHz: r.cornerHz, fitError: r.fitError, fitErrorUnit: r.fitErrorUnit, hertz: r.response.frequenciesHz, db: r.response.magnitudeDb, sourceOhms } }, transfer: [] };
     }
   }
 }

@@ -140,15 +140,12 @@ function SupplyPanel({ design }: { design: Design }): ReactElement {
       {error && <p className="warn" role="alert">{error}</p>}
       {report && (
         <div className="supply-report" data-testid="supply-report">
-          <p>B+ <strong data-testid="supply-loaded">{v(report.loadedVolts)}</strong> loaded at {(report.loadAmps * 1e3).toFixed(2)} mA, {v(report.unloadedVolts)} unloaded (what the capacitors see at switch-on).</p>
+          <p>B+ <strong data-testid="supply-loaded">{v(report.loadedVolts)}</strong> loaded at {(report.loadAmps * 1e3).toFixed(2)} mA, {v(report.unloadedVolts)} unloaded (what the capacitors see at switch-on). The model runs on this estimate: {v(report.modelSupply.volts)} behind {Math.round(report.modelSupply.ohms)} Ω.</p>
           <p>Ripple {report.ripplePeakToPeakVolts.toPrecision(3)} V p-p at {report.rippleHertz} Hz on the design's B+ (reservoir by I/(2fC): {report.formulaRippleVolts.toPrecision(3)} V).</p>
           {report.heater && <p className={report.heater.pass ? '' : 'warn'}>Heaters {report.heater.totalAmps.toFixed(2)} A of {report.heater.windingAmps} A at {report.heater.windingVolts} V{report.heater.pass ? '' : ' — over the winding or a voltage mismatch'}.</p>}
           {report.warnings.length > 0 && <ul className="warnings">{report.warnings.map((w) => <li key={w}>{w}</li>)}</ul>}
           <div className="inline">
-            <button type="button" data-testid="supply-apply" disabled={Math.abs(report.modelSupply.volts - design.supply.volts) < 0.05 && Math.abs(report.modelSupply.ohms - design.supply.ohms) < 0.5}
-              onClick={() => dispatch({ type: 'edit-design', design: { ...design, supply: { ...design.supply, volts: round(report.modelSupply.volts, 1), ohms: round(report.modelSupply.ohms, 0), filterFarads: report.modelSupply.filterFarads } }, say: `B+ is now the estimate: ${v(report.modelSupply.volts)} behind ${Math.round(report.modelSupply.ohms)} Ω (undo to go back).` })}>
-              Use the estimate for B+ ({v(report.modelSupply.volts)})
-            </button>
+            <button type="button" onClick={() => dispatch({ type: 'edit-design', design: withoutSupplySection(design), say: 'Removed the supply section: B+ is a fixed voltage again (undo to bring the section back).' })}>Remove the supply section</button>
             <button type="button" disabled={hum.busy} onClick={() => hum.run({ type: 'supply-hum', design, section: ps, clip }).then(setAudio, (e: Error) => { if (e.message !== 'cancelled') setError(e.message); })}>
               {hum.busy ? 'Rendering the hum…' : clip ? 'Hear the hum (with the clip)' : 'Hear the hum'}
             </button>
@@ -160,7 +157,11 @@ function SupplyPanel({ design }: { design: Design }): ReactElement {
   );
 }
 
-const round = (x: number, d: number) => Math.round(x * 10 ** d) / 10 ** d;
+/** The design without its power-supply section (B+ back to its fixed voltage). */
+function withoutSupplySection(d: Design): Design {
+  const { powerSupply: _gone, ...rest } = d;
+  return rest;
+}
 
 function Histogram({ title, values, unit, digits = 1 }: { title: string; values: readonly number[]; unit: string; digits?: number }): ReactElement {
   const W = 240, H = 70, bins = 12;
@@ -330,7 +331,7 @@ function VoicingPanel({ design }: { design: Design }): ReactElement {
           <p>{Object.entries(fit.values).map(([id, x]) => {
             const p = design.parts.find((q) => q.id === id);
             return `${id} ${formatValue(x, p?.kind === 'capacitor' ? 'farads' : 'ohms', { style: p?.kind === 'capacitor' ? 'si' : 'rkm' })}${p?.kind === 'capacitor' ? 'F' : ''}`;
-          }).join(', ')} — {fit.fitErrorUnit === 'fraction' ? (fit.cornerHz ? `corner ${fit.cornerHz.toFixed(0)} Hz (${(fit.fitError * 100).toFixed(1)} % off)` : 'no corner: the network never falls 3 dB from its peak with these values (a shelving network?); try other parts or a drawn curve') : `${fit.fitError.toFixed(2)} dB rms from the curve`}</p>
+          }).join(', ')} <span data-testid="voicing-source">(driven through {(fit.sourceOhms / 1e3).toFixed(1)} k)</span> — {fit.fitErrorUnit === 'fraction' ? (fit.cornerHz ? `corner ${fit.cornerHz.toFixed(0)} Hz (${(fit.fitError * 100).toFixed(1)} % off)` : 'no corner: the network never falls 3 dB from its peak with these values (a shelving network?); try other parts or a drawn curve') : `${fit.fitError.toFixed(2)} dB rms from the curve`}</p>
           <button type="button" onClick={apply} disabled={fit.fitErrorUnit === 'fraction' && !fit.cornerHz}>Apply the fit (undoable)</button>
         </div>
       )}

@@ -1,36 +1,57 @@
-// Beside the schematic: the selected part's editor and the operating point with the wiring check.
-import { useEffect, useMemo, type ReactElement } from 'react';
-import type { Part } from '../../dsp/circuit/design.ts';
+// Beside the schematic: the selected part's editor and wiring, and the operating point. The
+// worst-case sheet (the one `check` and `parts` print) comes from a worker after a pause.
+import { useEffect, useMemo, useState, type ReactElement } from 'react';
+import type { Design, Part } from '../../dsp/circuit/design.ts';
 import { checkWiring, type Finding } from '../../dsp/analysis/wiring-check.ts';
 import { computeOperatingReport, type OperatingReport } from '../model/operating.ts';
+import { modelDesign, SheetService, type WorstCaseView } from '../model/worst-case.ts';
 import { editPart, editSupplyVolts, findPart } from '../model/workspace.ts';
 import { PartEditor } from '../PartEditor.tsx';
 import { OperatingPanel } from '../OperatingPanel.tsx';
 import { useDebounced } from '../store/hooks.ts';
 import { useWorkspace } from '../store/context.ts';
+import { playableProblem } from '../store/workspace-store.ts';
 import { WiringEditor } from './CircuitTools.tsx';
 
-export interface OpState { readonly report: OperatingReport | null; readonly failure: string | null; readonly findings: readonly Finding[] }
+export interface Bench {
+  readonly report: OperatingReport | null;
+  readonly failure: string | null;
+  /** Wiring and worst-case findings (not notes) of the design on screen. */
+  readonly findings: readonly Finding[];
+  readonly sheet: WorstCaseView | null;
+}
 
-/** Operating point and wiring findings of a design, recomputed shortly after edits. */
-export function useOperatingPoint(): OpState {
+/**
+ * Operating point (shortly after edits) and worst-case sheet (after a pause, in a worker) of the
+ * slot on screen, as the model runs it. A sheet that cannot play yet gets the wiring check alone.
+ */
+export function useBench(): Bench {
   const { state } = useWorkspace();
-  const opDesign = useDebounced(state.history.present[state.active], 40);
-  const op = useMemo((): OpState => {
-    let findings: Finding[] = [];
-    const r = computeOperatingReport(opDesign);
-    try { findings = checkWiring(opDesign, r.ok ? { warmNodes: r.op.nodes } : {}).filter((f) => f.severity !== 'note'); } catch { /* findings are advisory */ }
-    if (!r.ok) return { report: null, failure: `No operating point: ${r.reason}`, findings };
-    return { report: r.report, failure: null, findings };
+  const design = state.history.present[state.active];
+  const opDesign = useDebounced(design, 40);
+  const op = useMemo(() => {
+    const r = computeOperatingReport(modelDesign(opDesign));
+    return r.ok ? { report: r.report, failure: null } : { report: null, failure: `No operating point: ${r.reason}` };
   }, [opDesign]);
+  const sheetDesign = useDebounced(design, 300);
+  const [sheet, setSheet] = useState<{ design: Design; view: WorstCaseView } | null>(null);
+  const sheets = useMemo(() => new SheetService((d, view) => setSheet(view ? { design: d, view } : null)), []);
+  useEffect(() => () => sheets.dispose(), [sheets]);
+  useEffect(() => { if (playableProblem(sheetDesign) === null) sheets.request(sheetDesign); }, [sheets, sheetDesign]);
+  const sheetNow = sheet && sheet.design === design ? sheet.view : null;
+  const draftFindings = useMemo(() => {
+    if (playableProblem(opDesign) === null) return null;
+    try { return checkWiring(opDesign).filter((f) => f.severity !== 'note'); } catch { return []; }
+  }, [opDesign]);
+  const findings = draftFindings ?? (sheetNow ? sheetNow.result.findings.filter((f) => f.severity !== 'note') : []);
   useEffect(() => {
     const w = window as unknown as { __vwReadyMs?: number };
     if (op.report && w.__vwReadyMs === undefined) w.__vwReadyMs = performance.now();
   }, [op]);
-  return op;
+  return { ...op, findings, sheet: sheetNow };
 }
 
-export function BenchSide({ op }: { op: OpState }): ReactElement {
+export function BenchSide({ bench }: { bench: Bench }): ReactElement {
   const { state, dispatch } = useWorkspace();
   const { active, selected } = state;
   const slots = state.history.present;
@@ -48,17 +69,18 @@ export function BenchSide({ op }: { op: OpState }): ReactElement {
     dispatch({ type: 'commit', slots: r.slots });
     return null;
   };
+  const supply = bench.sheet?.result.supply;
   return (
     <div className="side">
-      <PartEditor design={design} part={part} stress={op.report?.parts.find((p) => p.id === selected)} onChange={onPart} onSupplyVolts={onSupply} />
+      <PartEditor design={design} part={part} rating={bench.sheet?.rows.find((r) => r.ref === selected) ?? null} sheetPending={!bench.sheet} onChange={onPart} onSupplyVolts={onSupply} />
       {part && (
         <section className="panel wiring-panel" aria-label={`Rewire ${part.id}`}>
           <h2>Wiring <span className="sub">{part.id}</span></h2>
           <WiringEditor part={part} />
         </section>
       )}
-      {/* the wiring findings are shown under the schematic, where they point at the parts */}
-      <OperatingPanel report={op.report} failure={op.failure} findings={[]} slot={active} />
+      {/* the findings are listed under the schematic, where they point at the parts */}
+      <OperatingPanel report={bench.report} failure={bench.failure} findings={[]} slot={active} supply={supply ? { loadedVolts: supply.loadedVolts, unloadedVolts: supply.unloadedVolts } : null} />
     </div>
   );
 }

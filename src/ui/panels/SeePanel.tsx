@@ -7,6 +7,7 @@ import { probeNodes } from '../model/probes.ts';
 import { ResponsePlot, ScopePlot, SpectrumPlot } from '../Plots.tsx';
 import { useDebounced } from '../store/hooks.ts';
 import { useWorkspace } from '../store/context.ts';
+import { modelDesign } from '../model/worst-case.ts';
 
 export function SeePanel(): ReactElement {
   const { state, dispatch, port, status } = useWorkspace();
@@ -15,7 +16,7 @@ export function SeePanel(): ReactElement {
   const design = slots[active];
   const respA = useDebounced(slots.A, 150), respB = useDebounced(slots.B, 150);
   const responses = useMemo(() => {
-    const one = (d: Design): Responses => { const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
+    const one = (d0: Design): Responses => { const d = modelDesign(d0); const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
     const a = one(respA);
     return { A: a, B: respB === respA ? a : one(respB) };
   }, [respA, respB]);
@@ -32,9 +33,16 @@ export function SeePanel(): ReactElement {
       <ScopePlot trace={() => port.scope(active)} position={() => port.positionSeconds()} duration={dur} chosen={chosen} />
       <div className="plots">
         <ResponsePlot title="Whole circuit, small signal at the operating point" series={[{ name: 'A', curve: responses.A.whole, cls: 'a' }, { name: 'B', curve: responses.B.whole, cls: 'b' }]} note={responses.A.whole ? null : responses.A.reason} />
-        <ResponsePlot title="Tone network" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }]} note={responses.A.tone ? `parts: ${responses.A.toneParts.join(', ')}` : responses.A.reason} />
+        <ResponsePlot title="Tone network as the circuit drives and loads it" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }, { name: 'A from an ideal source', curve: responses.A.toneIdeal, cls: 'ideal' }]} note={responses.A.tone ? toneNote(responses.A) : responses.A.reason} />
         <SpectrumPlot read={(into) => port.spectrum(into)} />
       </div>
     </section>
   );
+}
+
+/** What the tone plot shows: parts, the source impedance and the control's corners at both ends. */
+function toneNote(r: Responses): string {
+  const e = r.toneEnds;
+  const hz = (f: number | null) => (f === null ? 'none below 200 kHz' : f >= 1000 ? `${(f / 1000).toFixed(1)} kHz` : `${f.toFixed(0)} Hz`);
+  return `parts ${r.toneParts.join(', ')}${r.toneSourceOhms !== null ? `; driven through ${(r.toneSourceOhms / 1e3).toFixed(0)} k` : ''}${e ? `; ${e.potId} corner ${hz(e.atPosition0Hz)} at 0, ${hz(e.atPosition1Hz)} at 10` : ''}`;
 }

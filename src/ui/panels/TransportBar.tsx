@@ -20,7 +20,8 @@ export function TransportBar(): ReactElement {
         </div>
         <button type="button" onClick={() => dispatch({ type: 'commit', slots: copySlot(state.history.present, 'A'), say: 'Copied slot A to slot B.' })}>Copy A → B</button>
         <label className="inline-label"><input type="checkbox" checked={matched} onChange={(e) => dispatch({ type: 'matched', on: e.target.checked })} /> loudness-matched</label>
-        <span className="offset" data-testid="offset">{status?.offsetDb != null ? `B ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB vs A${matched ? ' (matched out)' : ''}` : 'level offset: —'}</span>
+        <span className="offset" data-testid="offset" title="Measured from the sound both slots make (BS.1770 K-weighting, last 3 s); the output loudness is measured the same way on what you hear">{status?.offsetDb != null ? `B is ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB against A${matched ? ` (B gain ${status.matchGainDb >= 0 ? '+' : ''}${status.matchGainDb.toFixed(1)} dB)` : ''}` : 'level offset: — (play something)'}</span>
+        <span className="offset" data-testid="output-lufs">output {status?.outputLufs != null ? `${status.outputLufs.toFixed(1)} LUFS` : '—'} (3 s)</span>
       </div>
     </div>
   );

@@ -1,6 +1,10 @@
 // Actions that need the port or the browser as well as the store: opening files and clips.
 import { useCallback } from 'react';
+import { validateDesign } from '../../dsp/circuit/design.ts';
+import { parseNetlist, NETLIST_SCHEMA } from '../../dsp/circuit/netlist.ts';
+import { netlistToDesign } from '../../dsp/circuit/netlist-design.ts';
 import { importDesignText } from '../model/design-file.ts';
+import { formatVolts } from '../model/meters.ts';
 import { withSlot } from '../model/workspace.ts';
 import type { SourceClip } from '../audio-port.ts';
 import type { DemoClip } from '../Listen.tsx';
@@ -20,7 +24,19 @@ export function useFileActions(): FileActions {
   const say = useCallback((text: string, bad = false) => dispatch({ type: 'say', text, bad }), [dispatch]);
   return {
     async openDesignFile(f) {
-      const r = importDesignText(await f.text(), f.name);
+      const text = await f.text();
+      let doc: unknown = null;
+      try { doc = JSON.parse(text); } catch { /* importDesignText says why */ }
+      if (typeof doc === 'object' && doc !== null && (doc as { schema?: unknown }).schema === NETLIST_SCHEMA) {
+        // a netlist (ours or another tool's) is a circuit too: it becomes a design, saying what it lacks
+        try {
+          const conv = netlistToDesign(parseNetlist(doc), f.name.replace(/\.json$/i, ''));
+          const d = validateDesign(conv.design);
+          dispatch({ type: 'commit', slots: withSlot(slots, active, d), say: `Imported the netlist ${f.name} into slot ${active}. A netlist lacks some of a design: ${conv.lost.join('; ')}.` });
+        } catch (err) { say(`${f.name}: ${(err as Error).message} — your current design was kept.`, true); }
+        return;
+      }
+      const r = importDesignText(text, f.name);
       if (!r.ok) { say(`${r.reason} — your current design was kept.`, true); return; }
       dispatch({ type: 'commit', slots: withSlot(slots, active, r.design), say: `Imported "${r.design.name}" into slot ${active}.` });
     },
@@ -36,6 +52,13 @@ export function useFileActions(): FileActions {
         const bytes = await (await fetch(`/demo/${d.file}`)).arrayBuffer();
         const c = await port.decode(bytes, d.title);
         dispatch({ type: 'clip', clip: { ...c, voltsAtFullScale: d.voltsAtFullScale }, name: d.title });
+        const v = d.voltsAtFullScale;
+        if (v && Math.abs(v - calibrationVolts) > 1e-9 * v) {
+          dispatch({
+            type: 'say', text: `${d.title} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibrationVolts)}.`,
+            action: { label: `Set the calibration to ${formatVolts(v)}`, run: () => { dispatch({ type: 'calibration', volts: v }); say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`); } },
+          });
+        }
       } catch (err) { say(`could not load ${d.title}: ${(err as Error).message}`, true); }
     },
     takeToClip(c) {

@@ -1,7 +1,8 @@
 // The workspace's state in one place: a reducer over typed actions (pure, no DOM), and the one
 // function that mirrors what the audio port needs from it (syncPort). Components read the state
 // and dispatch actions; nothing else holds a copy of a setting.
-import { validateDesign, type Design } from '../../dsp/circuit/design.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, validateDesign, type Design } from '../../dsp/circuit/design.ts';
+import { modelDesign } from '../model/worst-case.ts';
 import type { Monitor, Slot } from '../../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { DEFAULT_LIVE_FACTOR } from '../../dsp/realtime/dual-slot-engine.ts';
@@ -11,6 +12,8 @@ import { pushHistory, redo, startHistory, undo, type History } from '../model/hi
 import { initialSlots, withSlot, type Slots } from '../model/workspace.ts';
 
 export type Caution = 'first-run' | 'live';
+/** A message in the banner, with an optional offer (a button that does something). */
+export interface Message { readonly text: string; readonly bad: boolean; readonly action?: { readonly label: string; readonly run: () => void } }
 export type PanelTab = 'listen' | 'analyses' | 'see';
 
 export interface WorkspaceState {
@@ -20,7 +23,7 @@ export interface WorkspaceState {
   /** What is heard. */
   readonly monitor: Monitor;
   readonly selected: string | null;
-  readonly message: { readonly text: string; readonly bad: boolean } | null;
+  readonly message: Message | null;
   readonly clip: SourceClip | null;
   readonly clipName: string;
   /** Volts at the circuit input for a full-scale sample. */
@@ -43,7 +46,7 @@ export type Action =
   | { readonly type: 'undo' }
   | { readonly type: 'redo' }
   | { readonly type: 'select'; readonly id: string | null }
-  | { readonly type: 'say'; readonly text: string; readonly bad?: boolean }
+  | { readonly type: 'say'; readonly text: string; readonly bad?: boolean; readonly action?: Message['action'] }
   | { readonly type: 'dismiss' }
   | { readonly type: 'hear'; readonly monitor: Monitor }
   | { readonly type: 'clip'; readonly clip: SourceClip; readonly name: string }
@@ -58,14 +61,13 @@ export type Action =
   | { readonly type: 'scope-nodes'; readonly nodes: readonly string[] }
   | { readonly type: 'tab'; readonly tab: PanelTab };
 
-export const DEFAULT_CALIBRATION_VOLTS = 0.2;
 
 export function initialState(saved: { slots: Slots; active: Slot } | null, cautionRead: boolean): WorkspaceState {
   const active = saved?.active ?? 'A';
   return {
     history: startHistory(saved?.slots ?? initialSlots()),
     active, monitor: active, selected: null, message: null,
-    clip: null, clipName: '', calibrationVolts: DEFAULT_CALIBRATION_VOLTS, loop: null,
+    clip: null, clipName: '', calibrationVolts: DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, loop: null,
     matched: true, quality: DEFAULT_LIVE_FACTOR, guarded: true, cabinet: 'off', liveChoice: { channel: 'mix' },
     caution: cautionRead ? null : 'first-run', scopeNodes: null, tab: 'listen',
   };
@@ -97,13 +99,14 @@ export function reducer(s: WorkspaceState, a: Action): WorkspaceState {
       return history === s.history ? s : { ...s, history, selected: keepSelection(s, history.present) };
     }
     case 'select': return { ...s, selected: a.id };
-    case 'say': return { ...s, message: { text: a.text, bad: a.bad ?? false } };
+    case 'say': return { ...s, message: { text: a.text, bad: a.bad ?? false, ...(a.action ? { action: a.action } : {}) } };
     case 'dismiss': return { ...s, message: null };
     case 'hear': {
       const active = a.monitor === 'dry' ? s.active : a.monitor;
       return { ...s, monitor: a.monitor, active, selected: active === s.active ? s.selected : null };
     }
-    case 'clip': return { ...s, clip: a.clip, clipName: a.name, loop: null, calibrationVolts: a.clip.voltsAtFullScale ?? s.calibrationVolts };
+    // a clip never changes the input calibration by itself (its own figure is offered instead)
+    case 'clip': return { ...s, clip: a.clip, clipName: a.name, loop: null };
     case 'calibration': return { ...s, calibrationVolts: a.volts };
     case 'loop': return { ...s, loop: a.region };
     case 'matched': return { ...s, matched: a.on };
@@ -164,11 +167,12 @@ export function portSettings(s: WorkspaceState): PortSettings {
 
 /**
  * Send the port what changed between two settings (everything when `prev` is null). A slot's
- * design goes only when it can play; otherwise the port keeps the last one that could.
+ * design goes only when it can play (otherwise the port keeps the last one that could), and as
+ * the model runs it: with a power-supply section, the section's estimate is the B+.
  */
 export function syncPort(port: SyncTarget, prev: PortSettings | null, next: PortSettings): void {
   for (const slot of ['A', 'B'] as const) {
-    if (prev?.[slot] !== next[slot] && playableProblem(next[slot]) === null) port.setDesign(slot, next[slot]);
+    if (prev?.[slot] !== next[slot] && playableProblem(next[slot]) === null) port.setDesign(slot, modelDesign(next[slot]));
   }
   if (prev?.monitor !== next.monitor) port.setMonitor(next.monitor);
   if (prev?.matched !== next.matched) port.setLoudnessMatch(next.matched);
