@@ -6,6 +6,7 @@
 import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { RootAverager, type AveragingOptions } from '../wdf/averaged-root.ts';
+import { GridLawLimiter, PlateLawLimiter, type StepLimiter } from '../wdf/junction-limit.ts';
 import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
@@ -85,6 +86,20 @@ export interface EngineOptions {
 
 export type Antialiasing = 'averaged' | 'off';
 
+/** Counters of the transient solver since the engine was built (CircuitEngine.solverStats). */
+export interface SolverStats {
+  /** Samples solved. */
+  readonly solves: number;
+  /** Newton iterations (device evaluations) over all of them. */
+  readonly iterations: number;
+  /** Samples that needed the fallback (continuation, or the averager's end-point currents). */
+  readonly fallbacks: number;
+  /** Samples that still failed: their state was held at the last converged sample. */
+  readonly failures: number;
+  /** Interior solves of the averaged root. */
+  readonly interiorSolves: number;
+}
+
 const GMIN_SIEMENS = 1e-12;
 /**
  * With antialiasing 'averaged', capacitors below this are integrated by BDF2 whatever the
@@ -107,7 +122,9 @@ export const STIFF_BELOW_FARADS = 100e-12;
  */
 const OPEN_SWITCH_SIEMENS = 1e-8;
 // quadraticAccept: one device evaluation per sample when the Newton step is small (see newton-root.ts).
-const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true } as const;
+// homotopyDepth: a sample whose solve fails is re-solved by continuation from the last sample's
+// solution in steps down to 1/256 of the way (NewtonRoot.continueFrom).
+const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true, homotopyDepth: 8 } as const;
 const DC = { toleranceVolts: 1e-11, maxIterations: 200 } as const;
 
 interface TubeSlot {
@@ -150,6 +167,8 @@ export class CircuitEngine {
   private readonly dcCompiler: LinearNetworkCompiler;
   private readonly nlPorts: Branch[] = [];
   private readonly devices: RootDevice[] = [];
+  /** Junction limiting of the tubes' exponential tails (indexed by root port). */
+  private readonly limiters: StepLimiter[] = [];
   private readonly inputLeaf: number;
   private readonly outputNode: number;
   /** Transient matrices: the same arrays for the engine's life, recompiled in place. */
@@ -170,9 +189,9 @@ export class CircuitEngine {
   private readonly u: Float64Array;
   private readonly p: Float64Array;
   private readonly invCapR: Float64Array;
-  // Per-sample maps over x = [capacitor waves (nc), input EMF, root currents (m)] in compressed
-  // rows, structural zeros dropped, with the constant-source (B+) part folded into *Const.
-  // Measured (bench, pentode-triode 4x): about half of E, Pu and Pi are structural zeros.
+  // Per-sample maps over x = [capacitor waves (nc), input EMF, root currents (m)], dense (every
+  // capacitor sees every source in a connected circuit), with the constant-source (B+) part
+  // folded into *Const; linear-kernel.ts writes them out as straight-line code.
   private readonly x: Float64Array;
   /** Dense m × (nc+1) map from [w; vin] to the root's open-circuit voltages. */
   private readonly Pd: Float64Array;
@@ -188,6 +207,8 @@ export class CircuitEngine {
   private readonly oConst = new Float64Array(1);
   /** [0] input, [1] output of processSample (see stepFrom). */
   private readonly io = new Float64Array(2);
+  /** [0]: the output of the last converged sample (held when a sample fails). */
+  private readonly lastOut = new Float64Array(1);
   private constDirty = true;
   private probeRows: Int32Array = new Int32Array(0);
   private probeBuf: Float64Array = new Float64Array(0);
@@ -238,6 +259,13 @@ export class CircuitEngine {
           this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
           device = new PentodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
         } else device = new TriodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
+        if (e.gridCurrent && e.gridCurrent.name === 'dempwolf-zolzer' && e.gridCurrent.gg > 0) {
+          this.limiters.push(new GridLawLimiter(offset, e.gridCurrent.cg, e.gridCurrent.xi));
+        }
+        const mo = e.model;
+        this.limiters.push(e.kind === 'pentode'
+          ? new PlateLawLimiter(offset, offset + 2, true, mo.kp, mo.mu, mo.kvb, mo.ex)
+          : new PlateLawLimiter(offset, offset + 1, false, mo.kp, mo.mu, mo.kvb, mo.ex));
         const slot = { el: e, device, offset };
         this.tubes.push(slot);
         if (!this.tubeById.has(e.id)) this.tubeById.set(e.id, slot);
@@ -299,10 +327,10 @@ export class CircuitEngine {
     this.stage1 = compileLinearStage1({ nc: this.caps.length, m, bdf2 });
     this.stage2 = compileLinearStage2({ nc: this.caps.length, m, bdf2 });
     this.compile();
-    this.root = new NewtonRoot(this.devices, this.tr.F);
-    this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
+    this.root = new NewtonRoot(this.devices, this.tr.F, this.limiters);
+    this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging, this.limiters) : null;
     this.rootCurrents = this.averager ? this.averager.iMean : this.root.i;
-    this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
+    this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2), this.limiters);
     this.resetToOperatingPoint();
   }
 
@@ -331,9 +359,17 @@ export class CircuitEngine {
     return this.tr;
   }
 
-  /** Newton statistics of the transient root. */
-  get solverStats(): { solves: number; iterations: number; failures: number; interiorSolves: number } {
-    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures, interiorSolves: this.averager?.interiorSolves[0] ?? 0 };
+  /**
+   * Newton statistics of the transient root. `fallbacks`: samples whose solve converged only by
+   * continuation (or, averaged, whose mean fell back to the end-point currents); `failures`:
+   * samples that did not converge even so, whose state was held (see stepFrom).
+   */
+  get solverStats(): SolverStats {
+    const av = this.averager;
+    return {
+      solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures,
+      fallbacks: this.root.fallbacks + (av ? av.fallbacks[0]! : 0), interiorSolves: av ? av.interiorSolves[0]! : 0,
+    };
   }
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */
@@ -355,7 +391,7 @@ export class CircuitEngine {
     this.op = null;
   }
 
-  /** Compressed per-sample maps from the compiled matrices (into preallocated storage). */
+  /** The dense per-sample maps from the compiled matrices (into preallocated storage). */
   private packMaps(): void {
     const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, nd = nc + 1;
     for (let j = 0; j < nc; j++) this.invCapR[j] = 1 / this.capR[j]!;
@@ -529,7 +565,13 @@ export class CircuitEngine {
       this.capVPrev[j] = this.capV[j]!;
       this.capI[j] = 0;
     });
-    this.root.setState(this.dcRoot.v);
+    // the root's input p at rest (input 0): the DC solution solves it, a continuation may start there
+    if (this.constDirty) this.updateConstants();
+    const io = this.io;
+    io[0] = 0;
+    this.stage1(io, 0, this.capV, this.capVPrev, this.capI, this.capR, this.Pd, this.pConst, this.x, this.p);
+    this.root.setState(this.dcRoot.v, this.p);
+    this.lastOut[0] = this.outputNode < 0 ? 0 : op.nodes[this.nodeNames[this.outputNode]!]!;
     this.averager?.reset();
     this.atRest = true;
     this.probesAtOperatingPoint();
@@ -574,9 +616,17 @@ export class CircuitEngine {
     const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
     this.stage1(src, k, capV, capVPrev, capI, this.capR, this.Pd, this.pConst, x, p);
     const root = this.root;
-    root.solve(p, TRANSIENT);
+    if (root.solve(p, TRANSIENT) < 0) {
+      // Not converged, even by continuation: an unconverged iterate never reaches the capacitor
+      // states. Hold the last converged sample's state and output (solverStats.failures counts it).
+      dst[j] = this.lastOut[0]!;
+      this.probesStale = true;
+      this.atRest = false;
+      return;
+    }
     if (this.averager) this.averager.step(p, root.v, root.i);
     this.stage2(this.rootCurrents, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
+    this.lastOut[0] = dst[j]!;
     this.probesStale = true;
     this.atRest = false;
   }
