@@ -4,7 +4,7 @@ import { resolve } from 'node:path';
 import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
-import { CircuitEngine, type Antialiasing } from '../../dsp/circuit/engine.ts';
+import { CircuitEngine, type Antialiasing, type SolverStats } from '../../dsp/circuit/engine.ts';
 import { CliError, loadCircuitArg, optNumber, optString, parseArgs } from '../args.ts';
 import { openWavFile, WavFileWriter } from '../wav-file.ts';
 import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
@@ -43,7 +43,14 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (h.channelCount > 1) io.err(`note: ${inPath} has ${h.channelCount} channels; mixing to mono`);
   const fs = h.sampleRate;
   const factorT = factor as OversamplingFactor;
-  const model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
+  let model: CircuitEngine | OversampledCircuit;
+  try {
+    model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
+  } catch (e) {
+    // e.g. no DC operating point: close the input before the error reaches the user
+    await reader.close();
+    throw e;
+  }
   const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(loaded.circuit, fs, inputVolts);
   const limiter = new PeakLimiter(fs, -1);
   const writer = await WavFileWriter.create(outPath, fs, 1, raw ? { bitDepth: 32, float: true } : { bitDepth: 24, float: false });
@@ -93,9 +100,21 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
     output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: engine.averagingDelaySamples > 0, raw,
     inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
-    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,
+    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, newtonFallbacks: stats.fallbacks, nonFiniteSamples: nonFinite,
   };
+  const warning = solverWarning(stats);
+  if (warning) io.err(warning);
   if (a.options.has('json')) io.out(JSON.stringify(summary));
   else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limiter at -1 dBFS`}) to ${outPath}`);
   return 0;
+}
+
+/**
+ * One warning line when the circuit solver needed its fallback or failed on some samples (null
+ * when it did neither): a render whose solver held samples is not the circuit's exact response there.
+ */
+export function solverWarning(stats: SolverStats): string | null {
+  if (stats.fallbacks === 0 && stats.failures === 0) return null;
+  return `warning: the circuit solver needed its fallback (continuation) on ${stats.fallbacks} of ${stats.solves} circuit samples`
+    + (stats.failures > 0 ? `, and ${stats.failures} did not converge even so (each held the previous sample: the output there is not the circuit's)` : ' (all converged)');
 }

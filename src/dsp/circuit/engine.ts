@@ -127,6 +127,43 @@ const OPEN_SWITCH_SIEMENS = 1e-8;
 const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true, homotopyDepth: 8 } as const;
 const DC = { toleranceVolts: 1e-11, maxIterations: 200 } as const;
 
+/**
+ * Element values the engine simulates. The per-sample maps come from one dense nodal solve in
+ * double precision: conductances that meet at a node must stay within about 1e12 of each other
+ * or the maps lose all accuracy (measured: a 22 nF coupling capacitor times 1e14, 5 pOhm at
+ * 48 kHz against hundreds of kilohms, put 1e6 V on the output). These bounds are decades beyond
+ * any tube circuit (common practice), so a value outside them is a typing or unit error.
+ */
+export const VALUE_RANGES = {
+  ohms: [1e-3, 1e12],
+  farads: [1e-15, 10],
+  /** |EMF| of a dc-source. */
+  volts: 1e5,
+} as const;
+
+export class ValueRangeError extends Error {
+  override name = 'ValueRangeError';
+}
+
+function checkValueRanges(circuit: EngineCircuit | Netlist): void {
+  const [rLo, rHi] = VALUE_RANGES.ohms, [cLo, cHi] = VALUE_RANGES.farads;
+  const ohms = (what: string, x: number, zeroOk: boolean) => {
+    if (zeroOk && x === 0) return;
+    if (!(x >= rLo && x <= rHi)) throw new ValueRangeError(`${what}: ${x} ohms is outside the range the engine simulates (${rLo} to ${rHi} ohms${zeroOk ? ', or 0' : ''})`);
+  };
+  ohms('input', circuit.input.ohms, true);
+  for (const e of circuit.elements) {
+    if (e.kind === 'resistor') ohms(e.id, e.ohms, false);
+    else if (e.kind === 'switch') ohms(e.id, e.contactOhms, false);
+    else if (e.kind === 'capacitor') {
+      if (!(e.farads >= cLo && e.farads <= cHi)) throw new ValueRangeError(`${e.id}: ${e.farads} farads is outside the range the engine simulates (${cLo} to ${cHi} F)`);
+    } else if (e.kind === 'dc-source') {
+      if (!(Math.abs(e.volts) <= VALUE_RANGES.volts)) throw new ValueRangeError(`${e.id}: ${e.volts} volts is beyond the ${VALUE_RANGES.volts} V the engine simulates`);
+      ohms(e.id, e.ohms, true);
+    }
+  }
+}
+
 interface TubeSlot {
   readonly el: NetTube;
   readonly device: TriodeDevice | PentodeDevice;
@@ -221,6 +258,7 @@ export class CircuitEngine {
   constructor(circuit: EngineCircuit | Netlist, sampleRateHz: number, options: EngineOptions = {}) {
     const tubeFunctions: TubeFunctions = options.tubeFunctions ?? 'exact';
     if (!(sampleRateHz > 0 && Number.isFinite(sampleRateHz))) throw new Error(`sample rate must be positive (got ${sampleRateHz})`);
+    checkValueRanges(circuit);
     this.circuit = circuit;
     this.sampleRateHz = sampleRateHz;
     // later elements with the same id replace earlier ones (in the first one's place)
@@ -370,6 +408,16 @@ export class CircuitEngine {
       solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures,
       fallbacks: this.root.fallbacks + (av ? av.fallbacks[0]! : 0), interiorSolves: av ? av.interiorSolves[0]! : 0,
     };
+  }
+
+  /** Samples that needed the solver's fallback since the engine was built (an integer; no object, for meters). */
+  get fallbackSamples(): number {
+    return this.root.fallbacks + (this.averager ? this.averager.fallbacks[0]! | 0 : 0);
+  }
+
+  /** Samples that did not converge even by the fallback (their state was held) since the engine was built. */
+  get failedSamples(): number {
+    return this.root.failures;
   }
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */

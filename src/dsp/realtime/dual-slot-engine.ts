@@ -81,6 +81,9 @@ export interface SlotModel {
   setTubeSample(id: string, sample: number): void;
   /** Back to the operating point (recomputed for the present values). */
   reset(): void;
+  /** Solver counters since the model was built (CircuitEngine.fallbackSamples / failedSamples). */
+  readonly fallbackSamples?: number;
+  readonly failedSamples?: number;
 }
 export type ModelFactory = (design: Design, baseRateHz: number, factor: OversamplingFactor) => SlotModel;
 
@@ -103,6 +106,8 @@ export const circuitModel: ModelFactory = (design, baseRateHz, factor) => {
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
     reset: () => { oc.reset(); dc = dcOf(); },
+    get fallbackSamples() { return oc.engine.fallbackSamples; },
+    get failedSamples() { return oc.engine.failedSamples; },
   };
 };
 
@@ -243,7 +248,7 @@ export class DualSlotEngine {
   private readonly meterAcc = new Float64Array(4);
   private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
-    limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
+    limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null], solverFallbackSamples: 0, solverFailedSamples: 0,
   };
   private readonly noPlates: number[] = [];
 
@@ -740,15 +745,20 @@ export class DualSlotEngine {
     r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
     r.limiterOn = this.limiterOn;
     const traces = r.slotTraces;
+    let fallbacks = 0, failed = 0;
     for (let k = 0; k < 2; k++) {
       const s = this.slots[k]!, m = s.model;
       if (!m) { traces[k] = null; continue; }
+      fallbacks += m.fallbackSamples ?? 0;
+      failed += m.failedSamples ?? 0;
       const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
       t.gridVolts = pv[0] ?? 0;
       t.plateVolts = pl;
       traces[k] = t;
     }
+    r.solverFallbackSamples = fallbacks;
+    r.solverFailedSamples = failed;
     if (traced.model) {
       r.gridVolts = traced.trace.gridVolts;
       r.plateVolts = traced.plateVolts;

@@ -55,6 +55,13 @@ export interface MeterReport {
    * slot B; null where the slot is empty): a slot's scope stays that slot's while A/B/dry switch.
    */
   readonly slotTraces: readonly [SlotTrace | null, SlotTrace | null];
+  /**
+   * Circuit solver counters, totals over both slots' present circuits since each was built, in
+   * circuit (oversampled) samples: samples whose solve needed the fallback (continuation), and
+   * samples that still failed (their state was held). Absent from models that do not count.
+   */
+  readonly solverFallbackSamples?: number;
+  readonly solverFailedSamples?: number;
 }
 
 /** One slot's traced node voltages in a meter report. */
