@@ -109,6 +109,8 @@ export class NewtonRoot {
   private readonly offsets: Int32Array;
   private readonly dOffsets: Int32Array;
   private readonly maxStep: Float64Array;
+  /** The smallest per-port step bound (a step longer than this may be shortened). */
+  private readonly maxStepFloor: number;
   private readonly kneePorts: Int32Array;
   /** d i / d v values in pattern order (nnz). */
   private readonly d: Float64Array;
@@ -176,6 +178,7 @@ export class NewtonRoot {
       o += d.portCount;
     });
     this.kneePorts = Int32Array.from(knees);
+    this.maxStepFloor = m > 0 ? Math.min(...this.maxStep) : Infinity;
     this.nzRow = Int32Array.from(rows);
     this.nzCol = Int32Array.from(cols);
     this.d = new Float64Array(rows.length);
@@ -367,7 +370,7 @@ export class NewtonRoot {
     const m = this.m;
     const F = this.F;
     const v = this.v, i = this.i, r = this.r, d = this.d;
-    const knees = this.kneePorts, limiters = this.limiters, maxStep = this.maxStep;
+    const knees = this.kneePorts, limiters = this.limiters, maxStep = this.maxStep, maxStepFloor = this.maxStepFloor;
     const tol = opts.toleranceVolts, quadratic = opts.quadraticAccept === true;
     const vOld = this.vOld, dOld = this.lastDelta;
     let lastStep = 0;
@@ -391,7 +394,9 @@ export class NewtonRoot {
         if (!(dk < Infinity)) finite = false;
         if (dk > maxDelta) maxDelta = dk;
       }
-      if (quadratic && it === 2 && lastStep > 0 && finite) {
+      // quadraticAccept's curvature constant from a full second step after a full first one:
+      // K >= |δ2| / |δ1|^2 (a second step the limits will shorten says nothing about it)
+      if (quadratic && it === 2 && lastStep > 0 && maxDelta <= maxStepFloor) {
         const kObs = maxDelta / (lastStep * lastStep);
         if (kObs > this.scalars[0]!) this.scalars[0] = kObs;
       }
