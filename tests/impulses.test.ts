@@ -2,7 +2,7 @@
 // and their measured spectra show the modelled resonance, roll-off, open-back and mic effects.
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import * as wavefileNs from 'wavefile';
+import { wavefileDecode } from './helpers/wavefile.ts';
 import { describe, expect, it } from 'vitest';
 import { analogHighpass2, analogLowpass2, bilinear, biquadMagnitude, butterworthQs } from '../src/dsp/synth/biquad.ts';
 import {
@@ -19,15 +19,6 @@ import { magnitudeSpectrum, peakFrequencyHz } from '../src/dsp/synth/fft.ts';
 const FS = 48000;
 const N_FFT = 1 << 16;
 const IMPULSE_DIR = join(import.meta.dirname, '..', 'impulses');
-
-interface WaveFileLike {
-  getSamples(interleaved: boolean, type: unknown): ArrayLike<number>;
-}
-const wavefileModule = wavefileNs as unknown as {
-  WaveFile?: new (b: Uint8Array) => WaveFileLike;
-  default?: { WaveFile: new (b: Uint8Array) => WaveFileLike };
-};
-const WaveFileCtor = (wavefileModule.WaveFile ?? wavefileModule.default?.WaveFile) as new (b: Uint8Array) => WaveFileLike;
 
 function variant(name: string): CabinetParams {
   const v = CABINET_VARIANTS.find((c) => c.name === name);
@@ -79,7 +70,7 @@ describe('committed impulse files (impulses/*.wav, written by impulses/make-impu
       const bytes = new Uint8Array(readFileSync(file));
       expect(readWavFloat(bytes)).toEqual({ format: 3, channels: 1, rate: FS, bits: 32 });
       // Decoded by wavefile (npm, general-purpose), not by our writer.
-      const decoded = new WaveFileCtor(bytes).getSamples(false, Float64Array);
+      const decoded = wavefileDecode(bytes, Float64Array).samples;
       const model = cabinetImpulse(p, FS).samples;
       expect(decoded.length).toBe(model.length);
       expect(model.length / FS).toBeGreaterThanOrEqual(0.1);

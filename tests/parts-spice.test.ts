@@ -7,7 +7,8 @@ import { partsCsv, partsRows, PARTS_COLUMNS } from '../src/dsp/analysis/parts-li
 import { spiceNodeMap, toSpice } from '../src/dsp/analysis/spice.ts';
 import { designToNetlist } from '../src/dsp/circuit/design.ts';
 import { PENTODE_INTO_TRIODE, TRIODE_INTO_TRIODE } from '../src/dsp/circuit/templates.ts';
-import { dempwolfZolzerGrid, korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes } from '../src/dsp/tubes/models.ts';
+import { gridCurrentAt } from '../src/dsp/tubes/grid-laws.ts';
+import { korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes } from '../src/dsp/tubes/models.ts';
 import type { NetTube } from '../src/dsp/circuit/netlist.ts';
 
 /** RFC 4180 reader: quoted fields, doubled quotes, CRLF records. */
@@ -130,7 +131,7 @@ describe('SPICE export', () => {
           expect(evaluate(b('P').rest, V)).toBeCloseTo(s.amps, 15);
           expect(b('P').nodes).toEqual([map.get(t.nodes.plate), k]);
           if (t.kind === 'pentode') { korenPentodeScreen(t.model, vgk, vsk, 1, s); expect(evaluate(b('S').rest, V)).toBeCloseTo(s.amps, 15); }
-          dempwolfZolzerGrid(t.gridCurrent!, vgk, s);
+          gridCurrentAt(t.gridCurrent!, vgk, s);
           expect(evaluate(b('G').rest, V) / s.amps).toBeCloseTo(1, 12);
         }
       }

@@ -34,14 +34,14 @@ describe('capacitor voltage', () => {
 
 describe('resistor power', () => {
   it('reports a plate resistor rated below its dissipation, and the wattage to buy', () => {
-    const d = edit(TRIODE_INTO_TRIODE, { replace: [{ id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 220e3, ratedWatts: 0.125 }] });
+    const d = edit(TRIODE_INTO_TRIODE, { replace: [{ id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 100e3, ratedWatts: 0.125 }] });
     const s = ratingsSheet(d, fast);
     const op = new CircuitEngine(designCircuit(d), 48000).operatingPoint();
-    const expected = (op.nodes.b1! - op.nodes.p1!) ** 2 / 220e3; // P = V^2 / R
+    const expected = (op.nodes.b1! - op.nodes.p1!) ** 2 / 100e3; // P = V^2 / R
     const r = s.resistors.find((x) => x.id === 'R3')!;
     expect(r.watts.warm).toBeCloseTo(expected, 12);
     expect(expected).toBeGreaterThan(0.125);
-    expect(r.buyWatts).toBe(0.5); // 0.14 W at 50 % derating needs 0.29 W -> 0.5 W
+    expect(r.buyWatts).toBe(expected / 0.5 <= 0.25 ? 0.25 : 0.5); // 50 % derating (from memory): twice the dissipation, next common size
     expect(s.findings.filter((x) => x.code === 'resistor-power').map((x) => x.severity)).toEqual(['error']);
   });
 });
@@ -74,8 +74,8 @@ describe('tube ratings (library maxima from the data sheets)', () => {
     expect(codesOf(d)).toContain('error:cathode-current');
   });
   it('heater-cathode voltage over 180 V (12AX7, confirmed) with the heater elevation that fixes it', () => {
-    // a cathode follower straight off B+: the cathode sits near 200 V
-    const follower = (heaterVolts: number): Design => edit(cleanStage(), { replace: [
+    // a cathode follower straight off a 350 V B+: the cathode sits near 200 V
+    const follower = (heaterVolts: number): Design => edit(cleanStage({ supply: { node: 'bp', volts: 350, ohms: 1000, filterFarads: 47e-6 } }), { replace: [
       { id: 'R2', kind: 'resistor', nodes: ['g1', 'gb'], ohms: 1e6 },
       { id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'b1', grid: 'g1', cathode: 'k1' }, heaterVolts },
       { id: 'R3', kind: 'resistor', nodes: ['b1', 'gb'], ohms: 100e3 },

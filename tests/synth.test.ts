@@ -2,7 +2,7 @@
 // resonance against the LC formula, levels against typical DI figures, and the written files.
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
-import * as wavefileNs from 'wavefile';
+import { wavefileDecode } from './helpers/wavefile.ts';
 import { describe, expect, it } from 'vitest';
 import { analogMagnitude, biquadMagnitude, runBiquad } from '../src/dsp/synth/biquad.ts';
 import { fftInPlace, magnitudeSpectrum, nextPowerOfTwo, peakFrequencyHz } from '../src/dsp/synth/fft.ts';
@@ -23,16 +23,6 @@ import { PCM24_FULL_SCALE, quantisePcm24 } from '../src/dsp/synth/wav.ts';
 
 const FS = 48000;
 const DEMO_DIR = join(import.meta.dirname, '..', 'public', 'demo');
-
-interface WaveFileLike {
-  fmt: { audioFormat: number; numChannels: number; sampleRate: number; bitsPerSample: number };
-  getSamples(interleaved: boolean, type: unknown): ArrayLike<number>;
-}
-const wavefileModule = wavefileNs as unknown as {
-  WaveFile?: new (b: Uint8Array) => WaveFileLike;
-  default?: { WaveFile: new (b: Uint8Array) => WaveFileLike };
-};
-const WaveFileCtor = (wavefileModule.WaveFile ?? wavefileModule.default?.WaveFile) as new (b: Uint8Array) => WaveFileLike;
 
 /** Header fields read directly (wavefile accepts malformed files silently, so check them here). */
 function readHeader(bytes: Uint8Array): { format: number; channels: number; rate: number; bits: number; dataBytes: number } {
@@ -334,7 +324,7 @@ describe('demo clip files (public/demo, written by scripts/make-demo-clips.ts)',
       const h = readHeader(bytes);
       expect(h).toMatchObject({ format: 1, channels: 1, rate: FS, bits: 24, dataBytes: Math.round(riff.lengthSeconds * FS) * 3 });
       // Decoded by wavefile (npm, general-purpose) rather than by our own writer's code.
-      const codes = new WaveFileCtor(bytes).getSamples(false, Int32Array);
+      const codes = wavefileDecode(bytes, Int32Array).samples;
       const index = JSON.parse(readFileSync(indexPath, 'utf8')) as { clips: ClipEntry[] };
       const entry = index.clips.find((c) => c.name === riff.name);
       if (!entry) throw new Error(`clips.json has no entry for ${riff.name}`);
@@ -353,7 +343,7 @@ describe('demo clip files (public/demo, written by scripts/make-demo-clips.ts)',
 
   it('the sustained clip read back from file is within 5 cents, and its volts calibration gives a single-note level', () => {
     const bytes = new Uint8Array(readFileSync(join(DEMO_DIR, `${LONG_FILAMENT.name}.wav`)));
-    const codes = new WaveFileCtor(bytes).getSamples(false, Int32Array);
+    const codes = wavefileDecode(bytes, Int32Array).samples;
     const index = JSON.parse(readFileSync(indexPath, 'utf8')) as { clips: ClipEntry[] };
     const vfs = index.clips.find((c) => c.name === LONG_FILAMENT.name)?.voltsAtFullScale ?? Number.NaN;
     const volts = Float64Array.from(codes, (c) => (c / PCM24_FULL_SCALE) * vfs);

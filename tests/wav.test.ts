@@ -1,7 +1,7 @@
 // WAV codec tests. External references: the registry library wavefile 11.0.0 (writes and
 // reads files independently of our code) and the RIFF/WAVE layout (Microsoft, from memory).
 import { describe, expect, it } from 'vitest';
-import * as ns from 'wavefile';
+import { WaveFile } from './helpers/wavefile.ts';
 import {
   decodeFrameBlock,
   decodeWav,
@@ -14,9 +14,6 @@ import {
   WavStreamReader,
 } from '../src/dsp/io/wav.ts';
 
-type WaveFileCtor = typeof ns.WaveFile;
-const nsAny = ns as unknown as { WaveFile?: WaveFileCtor; default?: { WaveFile: WaveFileCtor } };
-const WaveFile = (nsAny.WaveFile ?? nsAny.default?.WaveFile) as WaveFileCtor;
 
 /** Deterministic pseudo-random integers in the code range of a bit depth (LCG, common practice). */
 function randomInts(n: number, bits: number, seed: number): number[] {

@@ -19,6 +19,8 @@ const COMMANDS: Record<string, { summary: string; load: () => Promise<Command> }
   spread: { summary: 'seeded Monte Carlo over tube samples and part tolerances', load: async () => (await import('./commands/spread.ts')).runSpread },
   ac: { summary: 'small-signal response of the whole circuit and the tone network', load: async () => (await import('./commands/ac.ts')).runAc },
   parts: { summary: 'parts list with ratings to buy (CSV with --csv)', load: async () => (await import('./commands/parts.ts')).runParts },
+  tubes: { summary: 'list the tube library (envelopes, sections, models, ratings, sources; --json)', load: async () => (await import('./commands/tubes.ts')).runTubes },
+  tube: { summary: 'tube fit (--triode|--pentode) POINTS.csv: fit a model to data-sheet points', load: async () => (await import('./commands/tube-fit.ts')).runTube },
   spice: { summary: 'export a SPICE-syntax netlist with behavioural tube sources', load: async () => (await import('./commands/spice.ts')).runSpice },
   loudness: {
     summary: 'integrated loudness, loudness range and true peak of a WAV (BS.1770-4)',
@@ -36,7 +38,27 @@ function usage(io: CommandIO): void {
   io.out('precautions your local codes and licensed practice require; this tool does not make a circuit safe.');
 }
 
-export async function main(argv: readonly string[], io: CommandIO = { out: (l) => console.log(l), err: (l) => console.error(l) }): Promise<number> {
+/** Take every global `--tubes FILE` out of argv and register the user tube files it names. */
+async function loadUserTubes(argv: readonly string[]): Promise<string[]> {
+  const rest: string[] = [];
+  for (let i = 0; i < argv.length; i++) {
+    const a = argv[i]!;
+    if (a !== '--tubes' && !a.startsWith('--tubes=')) { rest.push(a); continue; }
+    const file = a.startsWith('--tubes=') ? a.slice(8) : argv[++i];
+    if (!file) throw new CliError('--tubes needs a user tube file (written by valvewright tube fit --out)');
+    const { readFile } = await import('node:fs/promises');
+    const { userTubeType } = await import('../dsp/tubes/user-tube.ts');
+    const { registerUserTube } = await import('../dsp/tubes/library.ts');
+    let doc: unknown;
+    try { doc = JSON.parse(await readFile(file, 'utf8')); } catch (e) { throw new CliError(`cannot read user tube file ${file}: ${(e as Error).message}`); }
+    try { registerUserTube(userTubeType(doc, file)); } catch (e) { throw new CliError((e as Error).message); }
+  }
+  return rest;
+}
+
+export async function main(argv0: readonly string[], io: CommandIO = { out: (l) => console.log(l), err: (l) => console.error(l) }): Promise<number> {
+  let argv: readonly string[];
+  try { argv = await loadUserTubes(argv0); } catch (e) { io.err(`valvewright: ${(e as Error).message}`); return 1; }
   const [name, ...rest] = argv;
   if (!name || name === '--help' || name === '-h' || name === 'help') { usage(io); return name ? 0 : 2; }
   const cmd = COMMANDS[name];

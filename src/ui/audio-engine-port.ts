@@ -43,6 +43,7 @@ export class EnginePort implements AudioPort {
   private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
   private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
+  private sendsInFlight = 0;
   private lastStatusMs = 0;
   private grid = new Float32Array(300);
   private decoder: OfflineAudioContext | null = null;
@@ -118,6 +119,7 @@ export class EnginePort implements AudioPort {
   private releveling(): void {
     if (this.levelTimer) clearTimeout(this.levelTimer);
     this.levelTimer = setTimeout(() => {
+      this.levelTimer = null;
       this.scales = {};
       for (const s of SLOTS) if (this.designs[s]) this.outputScale(s);
       const a = this.scales.A, b = this.scales.B;
@@ -129,7 +131,10 @@ export class EnginePort implements AudioPort {
   setDesign(slot: Slot, design: Design): void {
     if (this.designs[slot] === design) return;
     this.designs[slot] = design;
-    void this.sendDesign(slot).catch((err: unknown) => this.emit({ message: `slot ${slot}: ${(err as Error).message}` }));
+    this.sendsInFlight++;
+    void this.sendDesign(slot)
+      .catch((err: unknown) => this.emit({ message: `slot ${slot}: ${(err as Error).message}` }))
+      .finally(() => { this.sendsInFlight--; });
     this.releveling();
   }
 
@@ -154,6 +159,13 @@ export class EnginePort implements AudioPort {
     this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
   }
   setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.factor); }
+  overloadGuardOn(): boolean { return this.guard.enabled; }
+  /** The live quality the port holds now (the workspace's selector follows it). */
+  qualityFactor(): OversamplingFactor { return this.factor; }
+  /** The design the port holds for a slot (what the engine plays once settled). */
+  design(slot: Slot): Design | undefined { return this.designs[slot]; }
+  /** No design send in flight and no re-levelling pending: what plays is what the workspace shows. */
+  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null; }
 
   setSource(clip: SourceClip): void {
     this.clip = clip;

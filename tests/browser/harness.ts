@@ -3,7 +3,28 @@
 import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
 import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
 import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions, type LiveLatency } from '../../src/audio/index.ts';
-import type { Design } from '../../src/dsp/circuit/design.ts';
+import { withPart, type Design } from '../../src/dsp/circuit/design.ts';
+import { buildSlotPlan } from '../../src/dsp/circuit/plan.ts';
+import type { ToProcessor, Slot } from '../../src/dsp/realtime/messages.ts';
+import type { OversamplingFactor } from '../../src/dsp/oversampling/oversampler.ts';
+
+/**
+ * Resolves once `ready()` holds, checking every 20 ms; rejects with `what` after `timeoutMs`.
+ * The tests wait on the state they need (reports arrived, context suspended, take long enough),
+ * never for a fixed time, so a loaded machine makes them slower, not wrong.
+ */
+function until(ready: () => boolean, what: string, timeoutMs = 20_000): Promise<void> {
+  return new Promise((resolve, reject) => {
+    const t0 = performance.now();
+    const check = () => {
+      if (ready()) resolve();
+      else if (performance.now() - t0 > timeoutMs) reject(new Error(`timed out waiting for ${what}`));
+      else setTimeout(check, 20);
+    };
+    check();
+  });
+}
+const meterCount = (reports: readonly FromProcessor[]) => reports.reduce((n, m) => n + (m.type === 'meter' ? 1 : 0), 0);
 
 /** The worklet alone in an OfflineAudioContext: input samples in, output channel out, and the render time. */
 async function renderWorklet(init: ProcessorInit, input: number[], rateHz: number): Promise<{ output: number[]; renderMs: number; messages: FromProcessor[] }> {
@@ -20,7 +41,7 @@ async function renderWorklet(init: ProcessorInit, input: number[], rateHz: numbe
   const t0 = performance.now();
   const out = await ctx.startRendering();
   const renderMs = performance.now() - t0;
-  await new Promise((r) => setTimeout(r, 50));
+  await new Promise((r) => setTimeout(r, 50)); // let the port deliver the last reports (the bench reads their load; no test asserts on them)
   return { output: Array.from(out.getChannelData(0)), renderMs, messages };
 }
 
@@ -31,7 +52,7 @@ async function renderGraph(init: ProcessorInit, input: number[], rateHz: number,
   return Array.from(out.getChannelData(0));
 }
 
-/** Live input through the real-time graph for `seconds`; returns meter reports and the spectrum peak. */
+/** Live input through the real-time graph until `seconds` of meter reports (30 per second) came; returns them and the spectrum peak. */
 async function liveRun(design: Design, seconds: number, options: LiveInputOptions = {}): Promise<{ reports: FromProcessor[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string; channels: number; inputs: number; error: string; latency: LiveLatency | null }> {
   const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
   const reports: FromProcessor[] = [];
@@ -45,7 +66,8 @@ async function liveRun(design: Design, seconds: number, options: LiveInputOption
   const latency = audio.liveLatency();
   const liveBefore = audio.live;
   audio.setLiveMuted(false);
-  await new Promise((r) => setTimeout(r, seconds * 1000));
+  const from = meterCount(reports);
+  await until(() => meterCount(reports) - from >= Math.round(30 * seconds), `${seconds} s of meter reports`);
   const spec = new Float32Array(audio.context.sampleRate > 0 ? 2048 : 0);
   const s = audio.spectrum(spec);
   let best = 0;
@@ -70,7 +92,9 @@ async function liveSafety(design: Design): Promise<{ safetyMuted: number; liveAf
   audio.setOutputLevel(24);
   await audio.startLive();
   audio.setLiveMuted(false);
-  await new Promise((r) => setTimeout(r, 2500));
+  await until(() => reports.some((m) => m.type === 'safety-muted'), 'the safety mute');
+  const afterMute = meterCount(reports);
+  await until(() => meterCount(reports) - afterMute >= 15, 'meter reports after the mute');
   const liveAfter = audio.live;
   const meters = reports.filter((m): m is Extract<FromProcessor, { type: 'meter' }> => m.type === 'meter');
   await audio.dispose();
@@ -82,7 +106,7 @@ async function takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ lengt
   const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
   await audio.startLive({ channel });
   audio.startTake();
-  await new Promise((r) => setTimeout(r, seconds * 1000));
+  await until(() => (audio.takeSeconds ?? 0) >= seconds, `a take of ${seconds} s`);
   const during = audio.takeSeconds;
   const t = await audio.stopTake();
   const afterStop = audio.takeSeconds;
@@ -120,20 +144,86 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
   audio.setSource(new Float32Array(4800).map((_, k) => 0.2 * Math.sin(k / 10)), 48000);
   await audio.play();
   note(); // running while it plays
-  await wait(1200);
+  await until(() => audio.context.state === 'suspended', 'the idle suspension');
   note(); // 0.1 s clip ended, idle time passed: suspended
   let reports = 0;
   const off = audio.onReport((m) => { if (m.type === 'meter') reports++; });
   // resolves only if the processor runs again (it answers 'loaded' from a block boundary)
-  const loadedWhileIdle = await Promise.race([audio.loadDesign('B', design).then(() => true), wait(3000).then(() => false)]);
+  const loadedWhileIdle = await Promise.race([audio.loadDesign('B', design).then(() => true), wait(20_000).then(() => false)]);
   note();
-  await wait(300);
+  await until(() => reports > 3, 'meter reports after the wake');
   const reportsAfterWake = reports;
-  await wait(900);
+  await until(() => audio.context.state === 'suspended', 'the second idle suspension');
   note(); // asleep again
   off();
   await audio.dispose();
   return { states, loadedWhileIdle, reportsAfterWake, idleFlags, changes };
 }
 
-Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });
+/**
+ * A scripted editing session through the worklet in an OfflineAudioContext. Each event's
+ * messages are posted at its render quantum (the context suspended there); messages that need a
+ * compiled design get a plan built here first, as the workspace's plan worker does (not on the
+ * audio thread, not timed). Each event quantum, and as many quiet quanta for the baseline, is
+ * timed from resume to the next suspension: one quantum of processing plus the suspend/resume
+ * hand-over between threads.
+ */
+async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[]):
+  Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
+  const Q = 128;
+  const ctx = new OfflineAudioContext(1, input.length, rateHz);
+  await ctx.audioWorklet.addModule(workletUrl);
+  const node = new AudioWorkletNode(ctx, PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: init });
+  const errors: string[] = [];
+  node.port.onmessage = (e: MessageEvent<FromProcessor>) => { if (e.data.type === 'error') errors.push(e.data.message); };
+  const buf = new AudioBuffer({ length: input.length, sampleRate: rateHz, numberOfChannels: 1 });
+  buf.copyToChannel(Float32Array.from(input), 0);
+  const src = new AudioBufferSourceNode(ctx, { buffer: buf });
+  src.connect(node).connect(ctx.destination);
+  src.start(0);
+  const designs: Partial<Record<Slot, Design>> = {};
+  let factor = (init.factor ?? 4) as OversamplingFactor;
+  for (const m of init.initial ?? []) if (m.type === 'load-design') designs[m.slot] = m.design;
+  const withPlan = (m: ToProcessor): ToProcessor => {
+    if (m.type === 'load-design') { designs[m.slot] = m.design; return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) }; }
+    if (m.type === 'set-part') {
+      const d = designs[m.slot];
+      if (!d) return m;
+      const next = withPart(d, m.part);
+      designs[m.slot] = next;
+      const old = d.parts.find((p) => p.id === m.part.id);
+      return old && old.kind === 'tube' && m.part.kind === 'tube' && old.type !== m.part.type ? { ...m, plan: buildSlotPlan(next, rateHz, factor) } : m;
+    }
+    const plans = () => ({ ...(designs.A ? { A: buildSlotPlan(designs.A, rateHz, factor) } : {}), ...(designs.B ? { B: buildSlotPlan(designs.B, rateHz, factor) } : {}) });
+    if (m.type === 'set-quality') { factor = m.factor; return { ...m, plans: plans() }; }
+    if (m.type === 'reset') return { ...m, plans: plans() };
+    return m;
+  };
+  const editMs: number[] = [], quietMs: number[] = [];
+  const WINDOW = 8; // quanta timed after each event (fades, swaps and glide steps land there)
+  const timed = (quantum: number, into: number[], messages: ToProcessor[]) => {
+    let t0 = 0;
+    void ctx.suspend((quantum * Q) / rateHz).then(() => {
+      for (const m of messages) node.port.postMessage(withPlan(m));
+      // the messages reach the processor before the next quantum (one port, in order)
+      t0 = performance.now();
+      void ctx.resume();
+    });
+    for (let j = 1; j <= WINDOW; j++) {
+      void ctx.suspend(((quantum + j) * Q) / rateHz).then(() => {
+        const now = performance.now();
+        into.push(now - t0);
+        t0 = performance.now();
+        void ctx.resume();
+      });
+    }
+  };
+  for (const e of events) timed(e.quantum, editMs, e.messages);
+  for (const q of quiet) timed(q, quietMs, []);
+  const t = performance.now();
+  await ctx.startRendering();
+  const renderMs = performance.now() - t;
+  return { editMs, quietMs, renderMs, errors };
+}
+
+Object.assign(window, { vw: { editSession, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });

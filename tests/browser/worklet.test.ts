@@ -152,11 +152,12 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       const take = await live.page.evaluate(() => (window as unknown as { vw: HarnessApi }).vw.takeRun(1.0, 2));
       console.log(`take: ${take.length} samples at ${take.sampleRateHz} Hz, rms ${take.rms.toFixed(4)}, peak ${take.peak.toFixed(4)}, dropped ${take.dropped}, ${take.during?.toFixed(2)} s while recording`);
       expect(take.dropped).toBe(0);
-      expect(take.length / take.sampleRateHz).toBeGreaterThan(0.9);
-      expect(take.length / take.sampleRateHz).toBeLessThan(1.3);
+      // the harness stops the take once the recorder counts 1 s (polled, not slept): the take holds
+      // at least what the recorder counted while it ran, whatever the wall clock did
+      expect(take.during).toBeGreaterThanOrEqual(1.0);
+      expect(take.length / take.sampleRateHz).toBeGreaterThanOrEqual(take.during! - 1e-3);
       expect(Math.abs(take.rms - 0.2 / Math.SQRT2)).toBeLessThan(0.003);
       expect(take.peak).toBeLessThan(0.2 + 1e-3);
-      expect(take.during).toBeGreaterThan(0.8);
       expect(take.afterStop).toBeNull();
     } finally {
       await live.close();
@@ -165,14 +166,14 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
 
   it('(d) an idle engine suspends its context, and a message (a design load) wakes it and is applied', async () => {
     const r = await api('idleRun', TT);
-    console.log(`idle: context states ${r.states.join(' -> ')}, meter reports within 0.3 s of the wake: ${r.reportsAfterWake}`);
+    console.log(`idle: context states ${r.states.join(' -> ')}, meter reports after the wake: ${r.reportsAfterWake}`);
     expect(r.states).toEqual(['running', 'suspended', 'running', 'suspended']);
     expect(r.idleFlags).toEqual([false, true, false, true]);
     // the change event the workspace listens to fires for each transition (after the first start)
     const transitions = r.changes.filter((c, k) => k === 0 || c !== r.changes[k - 1]);
     expect(transitions.slice(transitions.indexOf(true))).toEqual([true, false, true]);
     expect(r.loadedWhileIdle).toBe(true);
-    expect(r.reportsAfterWake).toBeGreaterThan(3); // ~30 Hz once running again
+    expect(r.reportsAfterWake).toBeGreaterThan(3); // reports flow again once it is awake (the harness waits for them)
   });
 
   it('(b2) a denied microphone gives one clear error and the player still works', async () => {

@@ -2,7 +2,8 @@
 // tests: a pentode or triode first stage biased by grid leak or by a cathode resistor (bypassed
 // or not), direct- or capacitor-coupled into a triode, a tone low-pass and a volume divider,
 // a B+ source with filter and decoupling; values drawn log-uniformly over wide ranges (about a
-// decade either side of common practice), optional stiff interelectrode capacitances.
+// decade either side of common practice), optional stiff interelectrode capacitances, either
+// netlist-v1 grid law (dempwolf-zolzer or initial-velocity).
 import type { NetElement, Netlist } from '../../src/dsp/circuit/netlist.ts';
 import { makeRandom } from '../../src/dsp/random.ts';
 
@@ -17,8 +18,11 @@ const TRIODES = [
   { name: 'koren-triode', mu: 21.5, ex: 1.3, kg1: 1180, kp: 84, kvb: 300 },
 ] as const;
 const EF86 = { name: 'koren-pentode', mu: 34.9, ex: 1.35, kg1: 2648.1, kg2: 4627, kp: 222.06, kvb: 4.7 } as const;
-// Dempwolf & Zölzer, DAFx-11, their 12AX7 grid-current fit.
-const GRID = { name: 'dempwolf-zolzer', gg: 6.177e-4, cg: 9.901, xi: 1.314, ig0: 8.025e-8 } as const;
+// Grid laws: Dempwolf & Zölzer, DAFx-11, their 12AX7 grid-current fit; and the netlist-v1
+// initial-velocity law (docs/netlist-v1.md) with an oxide cathode's 1050 K and xi 3/2
+// (Child-Langmuir), gg and onset near the same 12AX7 (handbook orders of magnitude, from memory).
+const DZ_GRID = { name: 'dempwolf-zolzer', gg: 6.177e-4, cg: 9.901, xi: 1.314, ig0: 8.025e-8 } as const;
+const IV_GRID = { name: 'initial-velocity', gg: 3.1e-4, xi: 1.5, cathodeKelvin: 1050, onsetVolts: -0.49 } as const;
 
 export interface RandomNetlistInfo {
   readonly netlist: Netlist;
@@ -44,6 +48,7 @@ export function randomNetlist(seed: number, index: number): RandomNetlistInfo {
   // Vsk -> 0+ with Vgk > 0, E1 -> Vgk (not 0), and Ip = 0 for Vsk <= 0, so the circuit may have
   // no solution at all (the reference fails there too). Pentodes here always have their grid law.
   const withGrid = pentode || rnd() < 0.8;
+  const GRID = rnd() < 0.5 ? DZ_GRID : IV_GRID;
   const els: NetElement[] = [];
   const R = (id: string, a: string, b: string, ohms: number) => els.push({ id, kind: 'resistor', nodes: [a, b], ohms });
   const C = (id: string, a: string, b: string, farads: number) => els.push({ id, kind: 'capacitor', nodes: [a, b], farads });
@@ -102,6 +107,6 @@ export function randomNetlist(seed: number, index: number): RandomNetlistInfo {
   R('R11', 'out', '0', pot * setting);
   R('R12', 'out', '0', logU(100e3, 10e6));
   const netlist: Netlist = { schema: 'valvewright.netlist.v1', ground: '0', input: { node: 'in', ohms: inputOhms }, output: { node: 'out' }, elements: els };
-  const label = `seed ${seed} #${index}: ${pentode ? 'pentode' : 'triode'} ${bias1}, ${coupling} into triode ${bias2}${strays ? ', strays' : ''}${withGrid ? '' : ', no grid law'}, B+ ${bPlus.toFixed(0)} V`;
+  const label = `seed ${seed} #${index}: ${pentode ? 'pentode' : 'triode'} ${bias1}, ${coupling} into triode ${bias2}${strays ? ', strays' : ''}${withGrid ? `, ${GRID.name} grid law` : ', no grid law'}, B+ ${bPlus.toFixed(0)} V`;
   return { netlist, label };
 }

@@ -60,6 +60,8 @@ const FLOATING_NODE_GMIN_SIEMENS = 1e-12;
 interface KorenTriodeParams { readonly mu: number; readonly ex: number; readonly kg1: number; readonly kp: number; readonly kvb: number }
 interface KorenPentodeParams extends KorenTriodeParams { readonly kg2: number }
 interface GridLawParams { readonly gg: number; readonly cg: number; readonly xi: number; readonly ig0: number }
+/** netlist-v1 "initial-velocity" grid law (docs/netlist-v1.md). */
+interface InitialVelocityGridParams { readonly gg: number; readonly xi: number; readonly cathodeKelvin: number; readonly onsetVolts: number }
 
 interface Tube {
   readonly id: string;
@@ -71,6 +73,7 @@ interface Tube {
   readonly triode?: KorenTriodeParams;
   readonly pent?: KorenPentodeParams;
   readonly gridLaw?: GridLawParams;
+  readonly initialVelocity?: InitialVelocityGridParams;
 }
 
 interface TwoTerminal { readonly id: string; readonly a: number; readonly b: number }
@@ -190,16 +193,21 @@ function parseNetlist(netlist: unknown): Circuit {
         kp: num(model, 'kp', mw, 'positive'), kvb: num(model, 'kvb', mw, 'positive'),
       };
       let gridLaw: GridLawParams | undefined;
+      let initialVelocity: InitialVelocityGridParams | undefined;
       const gc = e['gridCurrent'];
       if (gc !== undefined) {
         if (!isObj(gc)) fail(`${where}: "gridCurrent" must be an object`);
-        if (gc['name'] !== 'dempwolf-zolzer') fail(`${where}: gridCurrent name must be "dempwolf-zolzer", got ${JSON.stringify(gc['name'])}`);
         const gw = `${where} gridCurrent`;
-        gridLaw = { gg: num(gc, 'gg', gw, 'positive'), cg: num(gc, 'cg', gw, 'positive'), xi: num(gc, 'xi', gw, 'positive'), ig0: num(gc, 'ig0', gw, 'nonnegative') };
+        if (gc['name'] === 'initial-velocity') initialVelocity = parseInitialVelocity(gc, gw);
+        else {
+          if (gc['name'] !== 'dempwolf-zolzer') fail(`${where}: gridCurrent name must be "dempwolf-zolzer" or "initial-velocity", got ${JSON.stringify(gc['name'])}`);
+          gridLaw = { gg: num(gc, 'gg', gw, 'positive'), cg: num(gc, 'cg', gw, 'positive'), xi: num(gc, 'xi', gw, 'positive'), ig0: num(gc, 'ig0', gw, 'nonnegative') };
+        }
       }
+      const laws = { ...(gridLaw ? { gridLaw } : {}), ...(initialVelocity ? { initialVelocity } : {}) };
       const t: Tube = kind === 'triode'
-        ? { id, pentode: false, plate, grid, cathode, screen, triode: base, ...(gridLaw ? { gridLaw } : {}) }
-        : { id, pentode: true, plate, grid, cathode, screen, pent: { ...base, kg2: num(model, 'kg2', mw, 'positive') }, ...(gridLaw ? { gridLaw } : {}) };
+        ? { id, pentode: false, plate, grid, cathode, screen, triode: base, ...laws }
+        : { id, pentode: true, plate, grid, cathode, screen, pent: { ...base, kg2: num(model, 'kg2', mw, 'positive') }, ...laws };
       tubes.push(t);
     } else {
       fail(`${where}: unknown kind ${JSON.stringify(kind)}`);
@@ -274,9 +282,23 @@ function tubeCurrents(t: Tube, vgk: number, vpk: number, vsk: number, out: Float
     const g = t.gridLaw;
     ig = g.gg * Math.pow(softplus(g.cg * vgk) / g.cg, g.xi) + g.ig0;
   }
+  if (t.initialVelocity) ig = initialVelocityCurrent(t.initialVelocity, vgk);
   out[0] = ip;
   out[1] = ig;
   out[2] = is;
+}
+
+// ---------------------------------------------------------------- initial-velocity grid law (spec, exact)
+function parseInitialVelocity(gc: Obj, where: string): InitialVelocityGridParams {
+  const p = { gg: num(gc, 'gg', where, 'positive'), xi: num(gc, 'xi', where, 'positive'), cathodeKelvin: num(gc, 'cathodeKelvin', where, 'positive'), onsetVolts: num(gc, 'onsetVolts', where, 'any') };
+  return p;
+}
+
+/** Ig of the initial-velocity law, written from docs/netlist-v1.md: Vt = k·T/q (SI 2019 exact k and q). */
+function initialVelocityCurrent(g: InitialVelocityGridParams, vgk: number): number {
+  const vt = (1.380649e-23 * g.cathodeKelvin) / 1.602176634e-19;
+  const u = vgk - g.onsetVolts;
+  return u <= 0 ? g.gg * Math.pow(g.xi * vt, g.xi) * Math.exp(u / vt) : g.gg * Math.pow(u + g.xi * vt, g.xi);
 }
 
 // ---------------------------------------------------------------- dense linear algebra

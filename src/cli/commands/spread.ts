@@ -29,7 +29,7 @@ export async function runSpread(argv: readonly string[], io: CommandIO): Promise
   if (a.options.has('json')) { io.out(JSON.stringify(s, null, 2)); return 0; }
   io.out(`spread of ${design.name}: ${runs} runs, seed ${seed}; ${s.failedRuns.length} run(s) fail to bias or exceed a rating`);
   const f = (x: number | null | undefined, d = 3) => (x === undefined || x === null ? '-' : x.toPrecision(d));
-  for (const [id, t] of Object.entries(s.tubes)) io.out(`  ${id}: plate mA ${f(t.plateAmps && t.plateAmps.min * 1e3)} .. ${f(t.plateAmps && t.plateAmps.median * 1e3)} .. ${f(t.plateAmps && t.plateAmps.max * 1e3)}, Vgk ${f(t.vgk?.min)} .. ${f(t.vgk?.max)} V`);
+  for (const [id, t] of Object.entries(s.tubes)) io.out(`  ${id}: plate mA ${f(t.plateAmps && t.plateAmps.min * 1e3)} .. ${f(t.plateAmps && t.plateAmps.median * 1e3)} .. ${f(t.plateAmps && t.plateAmps.max * 1e3)}, Vgk (bias) ${f(t.vgk?.min)} .. ${f(t.vgk?.max)} V with contact potential ±${s.contactPotential.halfWidthVolts} V`);
   if (s.gainDb1k) io.out(`  gain at 1 kHz: ${s.gainDb1k.min.toFixed(1)} .. ${s.gainDb1k.median.toFixed(1)} .. ${s.gainDb1k.max.toFixed(1)} dB`);
   if (s.outputPeakVolts) io.out(`  output peak at 0.5 V in: ${s.outputPeakVolts.min.toPrecision(3)} .. ${s.outputPeakVolts.max.toPrecision(3)} V`);
   for (const r of s.failedRuns.slice(0, 10)) io.out(`  run ${r.run}: ${r.failures.join('; ')}`);

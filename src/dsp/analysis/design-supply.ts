@@ -2,7 +2,7 @@
 // estimate's Thevenin source becomes the model's B+, and its ripple becomes a per-sample B+ EMF.
 import { designCircuit, SUPPLY_ID, type Design, type PowerSupplySection } from '../circuit/design.ts';
 import { CircuitEngine, type OperatingPoint } from '../circuit/engine.ts';
-import { tubeType } from '../tubes/library.ts';
+import { designEnvelopes } from '../tubes/library.ts';
 import { estimateSupply, type HeaterLoad, type SupplyEstimate } from './supply.ts';
 
 /** DC current drawn from the design's supply node (KCL over everything attached to it), amperes. */
@@ -26,19 +26,9 @@ export function supplyCurrentAmps(design: Design, op: OperatingPoint): number {
   return amps;
 }
 
-/** Heater loads of the design's tubes; two triode parts of one twin-triode type share one envelope (one heater). */
+/** Heater loads of the design's tubes: one per envelope (two sections of a twin triode or a triode-pentode share one heater; tubes/library.ts designEnvelopes). */
 export function heaterLoads(design: Design): HeaterLoad[] {
-  const byType = new Map<string, string[]>();
-  for (const p of design.parts) if (p.kind === 'tube') byType.set(p.type, [...(byType.get(p.type) ?? []), p.id]);
-  const out: HeaterLoad[] = [];
-  for (const [type, ids] of byType) {
-    const t = tubeType(type);
-    const perEnvelope = t.kind === 'triode' ? 2 : 1; // the library's triodes are twin triodes (12AX7, 12AT7, 12AU7, 6DJ8)
-    for (let i = 0; i < ids.length; i += perEnvelope) {
-      out.push({ volts: t.ratings.heaterVolts, amps: t.ratings.heaterAmps, label: `${type} ${ids.slice(i, i + perEnvelope).join('+')}` });
-    }
-  }
-  return out;
+  return designEnvelopes(design.parts).map((e) => ({ volts: e.heaterVolts, amps: e.heaterAmps, label: `${e.type} ${e.partIds.join('+')}` }));
 }
 
 export interface DesignSupply {

@@ -4,7 +4,7 @@
 // floats at DC has a defined (zero-current) voltage.
 import type { EngineCircuit, EngineElement, OperatingPoint } from '../circuit/engine.ts';
 import type { NetTube, Netlist } from '../circuit/netlist.ts';
-import { dempwolfZolzerGrid, korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes } from '../tubes/models.ts';
+import { newTubeCurrents, tubeCurrents } from '../tubes/registry.ts';
 
 /** Y = siemens + j·omega·farads between a and b. */
 export interface LinearAdmittance { readonly id: string; readonly a: string; readonly b: string; readonly siemens: number; readonly farads: number }
@@ -148,10 +148,9 @@ export interface TubeSmallSignal {
 }
 
 export function tubeSmallSignal(t: NetTube, vgk: number, vpk: number, vsk: number): TubeSmallSignal {
-  const ip = newSlopes(), is = newSlopes(), ig = newSlopes();
-  if (t.kind === 'triode') korenTriode(t.model, vgk, vpk, 1, ip);
-  else { korenPentodePlate(t.model, vgk, vpk, vsk, 1, ip); korenPentodeScreen(t.model, vgk, vsk, 1, is); }
-  if (t.gridCurrent) dempwolfZolzerGrid(t.gridCurrent, vgk, ig);
+  const c = newTubeCurrents();
+  tubeCurrents(t, vgk, vpk, vsk, c);
+  const ip = c.plate, is = c.screen, ig = c.grid;
   return {
     gmSiemens: ip.dVgk, plateSiemens: ip.dVpk, plateScreenSiemens: t.kind === 'pentode' ? ip.dVsk : 0,
     screenGridSiemens: is.dVgk, screenSiemens: is.dVsk, gridSiemens: t.gridCurrent ? ig.dVgk : 0,

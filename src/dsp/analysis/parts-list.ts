@@ -1,7 +1,7 @@
 // Parts list (CSV, RFC 4180 quoting): reference, kind, value, tolerance, rating to buy, notes.
 import type { Design } from '../circuit/design.ts';
 import { formatValue } from '../parts/values.ts';
-import { tubeType } from '../tubes/library.ts';
+import { designEnvelopes, tubeType } from '../tubes/library.ts';
 import type { RatingsSheet } from './ratings-sheet.ts';
 import type { Finding } from './wiring-check.ts';
 
@@ -19,6 +19,7 @@ const r3 = (x: number) => +x.toPrecision(3);
 export function partsRows(design: Design, sheet: RatingsSheet, findings: readonly Finding[] = []): PartsRow[] {
   const notesFor = (id: string, label?: string) => [label ?? '', ...findings.filter((f) => f.parts.includes(id) && f.severity !== 'note').map((f) => `${f.severity}: ${f.code}`)].filter(Boolean).join('; ');
   const rows: PartsRow[] = [];
+  const envelopeOf = new Map(designEnvelopes(design.parts).flatMap((e) => e.partIds.map((id) => [id, e] as const)));
   for (const p of design.parts) {
     switch (p.kind) {
       case 'resistor': case 'pot': {
@@ -41,10 +42,12 @@ export function partsRows(design: Design, sheet: RatingsSheet, findings: readonl
       case 'switch': rows.push({ ref: p.id, kind: 'switch', value: p.closed ? 'closed' : 'open', tolerance: '', buy: 'rated for B+', worstCase: '', notes: notesFor(p.id, p.label) }); break;
       case 'tube': {
         const t = tubeType(p.type), tr = sheet.tubes.find((x) => x.id === p.id);
+        // sections of one envelope: the first buys the tube and carries the heater, the others point to it
+        const env = envelopeOf.get(p.id), first = env?.partIds[0] ?? p.id, shared = env && env.partIds.length > 1;
         rows.push({
-          ref: p.id, kind: t.kind, value: p.type, tolerance: '', buy: `${p.type} + socket`,
+          ref: p.id, kind: t.kind, value: p.type, tolerance: '', buy: first === p.id ? `${env?.type ?? p.type} + socket` : `in ${first}'s ${env?.type ?? p.type}`,
           worstCase: tr ? `plate ${r3(Math.max(tr.plateWatts.warm ?? 0, tr.plateWatts.maxInput ?? 0))} W of ${tr.plateWatts.max} W; heater-cathode ${r3(tr.heaterCathode.worstVolts)} V of ${tr.heaterCathode.max} V` : '',
-          notes: notesFor(p.id, [p.label, `heater ${t.ratings.heaterVolts} V ${t.ratings.heaterAmps} A${p.heaterVolts ? `, elevated to ${p.heaterVolts} V` : ''}`].filter(Boolean).join('; ')),
+          notes: notesFor(p.id, [p.label, first === p.id ? `heater ${t.ratings.heaterVolts} V ${t.ratings.heaterAmps} A${shared ? ` (shared by ${env.partIds.join(', ')})` : ''}${p.heaterVolts ? `, elevated to ${p.heaterVolts} V` : ''}` : `shares ${first}'s envelope and heater`].filter(Boolean).join('; ')),
         });
         break;
       }

@@ -4,7 +4,7 @@
 import { designCircuit, potResistors, SUPPLY_ID, type Design } from '../circuit/design.ts';
 import { CircuitEngine, type EngineCircuit, type OperatingPoint } from '../circuit/engine.ts';
 import { tubeType } from '../tubes/library.ts';
-import { korenPentodePlate, korenPentodeScreen, korenTriode, dempwolfZolzerGrid, newSlopes } from '../tubes/models.ts';
+import { newTubeCurrents, tubeCurrents } from '../tubes/registry.ts';
 import { nextCapacitorVoltageRating, nextResistorWattage } from '../parts/ratings.ts';
 import { coldDcNodes, dcResistanceBetween } from './linear.ts';
 import type { Finding } from './wiring-check.ts';
@@ -99,7 +99,7 @@ function maxInputRun(circuit: EngineCircuit, peakVolts: number, hz: readonly num
   const capPk = new Float64Array(two.length), resPk = new Float64Array(two.length), resW = new Float64Array(two.length);
   const tubes = circuit.elements.flatMap((el) => (el.kind === 'triode' || el.kind === 'pentode' ? [{ el, p: at(el.nodes.plate), g: at(el.nodes.grid), k: at(el.nodes.cathode), s: el.kind === 'pentode' ? at(el.nodes.screen) : -1 }] : []));
   const tw = tubes.map(() => ({ pw: 0, sw: 0, ik: 0, vpk: -Infinity, vsk: -Infinity, kmin: Infinity, kmax: -Infinity }));
-  const ip = newSlopes(), is = newSlopes(), ig = newSlopes();
+  const cur = newTubeCurrents(), ip = cur.plate, is = cur.screen, ig = cur.grid;
   // probeValues is computed when read: read it after every sample
   let pv = e.probeValues;
   const V = (i: number) => (i < 0 ? 0 : pv[i]!);
@@ -124,9 +124,7 @@ function maxInputRun(circuit: EngineCircuit, peakVolts: number, hz: readonly num
       for (let q = 0; q < tubes.length; q++) {
         const t = tubes[q]!, w = tw[q]!;
         const vk = V(t.k), vgk = V(t.g) - vk, vpk = V(t.p) - vk, vsk = t.s >= 0 ? V(t.s) - vk : 0;
-        if (t.el.kind === 'triode') { korenTriode(t.el.model, vgk, vpk, 1, ip); is.amps = 0; }
-        else { korenPentodePlate(t.el.model, vgk, vpk, vsk, 1, ip); korenPentodeScreen(t.el.model, vgk, vsk, 1, is); }
-        if (t.el.gridCurrent) dempwolfZolzerGrid(t.el.gridCurrent, vgk, ig); else ig.amps = 0;
+        tubeCurrents(t.el, vgk, vpk, vsk, cur);
         if (avg) { w.pw += ip.amps * vpk; w.sw += is.amps * vsk; w.ik += ip.amps + is.amps + ig.amps; }
         if (vpk > w.vpk) w.vpk = vpk;
         if (vsk > w.vsk) w.vsk = vsk;

@@ -1,9 +1,10 @@
 // SPICE-syntax netlist export (ngspice-style behavioural sources). Tubes become B-sources whose
-// expressions are exactly the netlist-v1 equations (Koren 1996 triode / pentode, Dempwolf-Zolzer
-// DAFx-11 grid current) with the element's own parameters (tube sample already in kg1, kg2).
+// expressions are exactly the netlist-v1 equations (Koren 1996 triode / pentode, the element's
+// grid-current law) with the element's own parameters (tube sample already in kg1, kg2).
 // softplus(z) = ln(1 + e^z) is written max(z,0) + ln(1 + exp(-abs(z))), the same function
 // without overflow. Conditions use the ternary operator; pwr(x,y) = |x|^y is only used for x > 0.
 import type { Netlist, NetTube } from '../circuit/netlist.ts';
+import { tubeSpiceExpressions } from '../tubes/registry.ts';
 
 export interface SpiceOptions {
   readonly title?: string;
@@ -31,28 +32,14 @@ export function spiceNodeMap(n: Netlist): Map<string, string> {
   return map;
 }
 
-const sp = (z: string) => `(max(${z},0)+ln(1+exp(-abs(${z}))))`;
-
-/** Behavioural current expressions of one tube: [name suffix, from node, to node, expression]. */
+/** Behavioural current expressions of one tube: [name suffix, from node, to node, expression] (tubes/registry.ts). */
 export function tubeExpressions(t: NetTube, node: (n: string) => string): [string, string, string, string][] {
   const k = node(t.nodes.cathode), p = node(t.nodes.plate), g = node(t.nodes.grid);
-  const vgk = `V(${g},${k})`, vpk = `V(${p},${k})`;
-  const out: [string, string, string, string][] = [];
-  const m = t.model;
-  if (t.kind === 'triode') {
-    const e1 = `(${vpk}/${num(m.kp)})*${sp(`${num(m.kp)}*(1/${num(m.mu)}+${vgk}/sqrt(${num(m.kvb)}+${vpk}*${vpk}))`)}`;
-    out.push(['P', p, k, `(${vpk}>0)?((${e1}>0)?(2*pwr(${e1},${num(m.ex)})/${num(m.kg1)}):0):0`]);
-  } else {
-    const s = node(t.nodes.screen), vsk = `V(${s},${k})`;
-    const e1 = `(${vsk}/${num(m.kp)})*${sp(`${num(m.kp)}*(1/${num(m.mu)}+${vgk}/${vsk})`)}`;
-    out.push(['P', p, k, `(${vsk}>0)?((${vpk}>0)?((${e1}>0)?(2*pwr(${e1},${num(m.ex)})/${num(m.kg1)}*atan(${vpk}/${num(m.kvb)})):0):0):0`]);
-    const base = `(${vgk}+${vsk}/${num(m.mu)})`;
-    out.push(['S', s, k, `(${base}>0)?(pwr(${base},${num(m.ex)})/${num(t.model.kg2)}):0`]);
-  }
-  if (t.gridCurrent) {
-    const gc = t.gridCurrent;
-    out.push(['G', g, k, `${num(gc.gg)}*pwr(${sp(`${num(gc.cg)}*${vgk}`)}/${num(gc.cg)},${num(gc.xi)})+${num(gc.ig0)}`]);
-  }
+  const s = t.kind === 'pentode' ? node(t.nodes.screen) : '';
+  const e = tubeSpiceExpressions(t, `V(${g},${k})`, `V(${p},${k})`, `V(${s},${k})`);
+  const out: [string, string, string, string][] = [['P', p, k, e.plate]];
+  if (e.screen !== undefined) out.push(['S', s, k, e.screen]);
+  if (e.grid !== undefined) out.push(['G', g, k, e.grid]);
   return out;
 }
 
@@ -84,7 +71,7 @@ export function toSpice(n: Netlist, options: SpiceOptions = {}): string {
         break;
       }
       case 'triode': case 'pentode':
-        lines.push(`* ${e.id}: ${e.kind} ${e.model.name}${e.gridCurrent ? ' + dempwolf-zolzer grid current' : ''}`);
+        lines.push(`* ${e.id}: ${e.kind} ${e.model.name}${e.gridCurrent ? ` + ${e.gridCurrent.name} grid current` : ''}`);
         for (const [suffix, a, b, expr] of tubeExpressions(e, node)) lines.push(`${name('B', `${e.id}_${suffix}`)} ${a} ${b} I=${expr}`);
         break;
     }

@@ -1,13 +1,22 @@
 // Tube and tolerance spread: seeded Monte Carlo. Run k draws its factors from its own stream
 // (seed, k), so any split of runs over workers gives identical results; run 0 is the nominal design.
 import { designCircuit, type Design, type Part } from '../circuit/design.ts';
-import { CircuitEngine, type OperatingPoint } from '../circuit/engine.ts';
+import { CircuitEngine, type EngineCircuit, type OperatingPoint } from '../circuit/engine.ts';
 import { tubeType } from '../tubes/library.ts';
 import { gainAt } from './ac.ts';
 import { makeRandom } from '../random.ts';
 
 /** Tube sample strength range, x nominal plate current (tube tester's article, check-values.md, confirmed). */
 export const TUBE_SPREAD = { low: 0.66, high: 1.33 } as const;
+/**
+ * Tube-to-tube spread of the grid-cathode contact potential, volts: uniform within ±0.3 V, moving
+ * the onset of the initial-velocity grid law (docs/netlist-v1.md). Contact potentials of
+ * oxide-cathode receiving tubes differ by a few tenths of a volt between samples and drift with
+ * heater voltage and age (Spangenberg, "Vacuum Tubes", 1948, from memory; common practice: grid-leak
+ * bias differs by tenths of a volt between tubes). Drawn from its own stream, so the sample
+ * factors of a seed are unchanged.
+ */
+export const CONTACT_POTENTIAL_SPREAD_VOLTS = 0.3;
 /** Tolerances used when a part gives none (common practice: carbon film 5 %, film caps 10 %, electrolytics 20 %, pots 20 %). */
 export const DEFAULT_TOLERANCE = { resistor: 0.05, capacitor: 0.1, electrolytic: 0.2, pot: 0.2 } as const;
 
@@ -20,6 +29,8 @@ export interface SpreadOptions {
 export interface SpreadRun {
   readonly run: number;
   readonly tubeSamples: Readonly<Record<string, number>>;
+  /** Contact-potential shift of each tube's grid-law onset, volts (0 in run 0). */
+  readonly contactVolts: Readonly<Record<string, number>>;
   /** Value factor per part (1 = nominal). */
   readonly partFactors: Readonly<Record<string, number>>;
   readonly biased: boolean;
@@ -56,6 +67,24 @@ export function runFactors(design: Design, seed: number, run: number): { tubeSam
     else if (p.kind !== 'switch') partFactors[p.id] = run === 0 ? 1 : 1 + tolOf(p) * (2 * u - 1);
   }
   return { tubeSamples, partFactors };
+}
+
+/** The contact-potential shifts of run k, uniform within ±CONTACT_POTENTIAL_SPREAD_VOLTS (run 0: none). */
+export function runContactVolts(design: Design, seed: number, run: number): Record<string, number> {
+  const rnd = runStream(seed ^ 0x5bd1e995, run), out: Record<string, number> = {};
+  for (const p of design.parts) if (p.kind === 'tube') { const u = rnd(); out[p.id] = run === 0 ? 0 : CONTACT_POTENTIAL_SPREAD_VOLTS * (2 * u - 1); }
+  return out;
+}
+
+/** The circuit with each tube's grid-law onset moved by its contact-potential shift (initial-velocity law only). */
+export function withContactPotentials(circuit: EngineCircuit, contactVolts: Readonly<Record<string, number>>): EngineCircuit {
+  return {
+    ...circuit,
+    elements: circuit.elements.map((e) => {
+      if ((e.kind !== 'triode' && e.kind !== 'pentode') || !e.gridCurrent || e.gridCurrent.name !== 'initial-velocity') return e;
+      return { ...e, gridCurrent: { ...e.gridCurrent, onsetVolts: e.gridCurrent.onsetVolts + (contactVolts[e.id] ?? 0) } };
+    }),
+  };
 }
 
 /** A design with every tube's sample factor multiplied and part values scaled. */
@@ -108,16 +137,17 @@ export function biasFailures(design: Design, op: OperatingPoint): string[] {
 /** One Monte Carlo run (pure: depends only on design, seed and run index). */
 export function spreadRun(design: Design, seed: number, run: number, options: SpreadOptions = {}): SpreadRun {
   const { tubeSamples, partFactors } = runFactors(design, seed, run);
+  const contactVolts = runContactVolts(design, seed, run);
   const d = variedDesign(design, tubeSamples, partFactors);
   const fs = options.sampleRateHz ?? 48000;
-  const circuit = designCircuit(d);
+  const circuit = withContactPotentials(designCircuit(d), contactVolts);
   let engine: CircuitEngine;
   let op: OperatingPoint;
   try {
     engine = new CircuitEngine(circuit, fs);
     op = engine.operatingPoint();
   } catch (err) {
-    return { run, tubeSamples, partFactors, biased: false, failures: [`no operating point: ${(err as Error).message}`], tubes: {}, nodes: {}, gainDb1k: null, outputPeakVolts: null };
+    return { run, tubeSamples, contactVolts, partFactors, biased: false, failures: [`no operating point: ${(err as Error).message}`], tubes: {}, nodes: {}, gainDb1k: null, outputPeakVolts: null };
   }
   const failures = biasFailures(d, op);
   const gain = gainAt(circuit, op, 1000);
@@ -131,7 +161,7 @@ export function spreadRun(design: Design, seed: number, run: number, options: Sp
   }
   const tubes: Record<string, { plateAmps: number; vgk: number; vpk: number; plateWatts: number }> = {};
   for (const [id, t] of Object.entries(op.tubes)) tubes[id] = { plateAmps: t.plateAmps, vgk: t.vgk, vpk: t.vpk, plateWatts: t.plateWatts };
-  return { run, tubeSamples, partFactors, biased: failures.length === 0, failures, tubes, nodes: op.nodes, gainDb1k: gain > 0 ? 20 * Math.log10(gain) : null, outputPeakVolts: peak };
+  return { run, tubeSamples, contactVolts, partFactors, biased: failures.length === 0, failures, tubes, nodes: op.nodes, gainDb1k: gain > 0 ? 20 * Math.log10(gain) : null, outputPeakVolts: peak };
 }
 
 export interface Stats { readonly min: number; readonly p5: number; readonly median: number; readonly p95: number; readonly max: number; readonly mean: number; readonly sd: number }
@@ -149,7 +179,10 @@ export interface SpreadSummary {
   readonly runs: number;
   readonly seed: number;
   readonly nominal: SpreadRun;
-  readonly tubes: Readonly<Record<string, { readonly plateAmps: Stats | null; readonly vgk: Stats | null; readonly vpk: Stats | null }>>;
+  /** Per tube: plate current, grid bias (Vgk, with the contact-potential spread) and plate voltage; contactVolts: the drawn shifts. */
+  readonly tubes: Readonly<Record<string, { readonly plateAmps: Stats | null; readonly vgk: Stats | null; readonly vpk: Stats | null; readonly contactVolts: Stats | null }>>;
+  /** The contact-potential distribution used (see CONTACT_POTENTIAL_SPREAD_VOLTS). */
+  readonly contactPotential: { readonly distribution: 'uniform'; readonly halfWidthVolts: number };
   readonly gainDb1k: Stats | null;
   readonly outputPeakVolts: Stats | null;
   readonly failedRuns: readonly { readonly run: number; readonly failures: readonly string[] }[];
@@ -161,10 +194,10 @@ export interface SpreadSummary {
 export function summariseSpread(design: Design, seed: number, results: readonly SpreadRun[], options: SpreadOptions = {}): SpreadSummary {
   const sorted = [...results].sort((a, b) => a.run - b.run);
   const ids = design.parts.filter((p) => p.kind === 'tube').map((p) => p.id);
-  const tubes: Record<string, { plateAmps: Stats | null; vgk: Stats | null; vpk: Stats | null }> = {};
+  const tubes: Record<string, { plateAmps: Stats | null; vgk: Stats | null; vpk: Stats | null; contactVolts: Stats | null }> = {};
   for (const id of ids) {
     const ok = sorted.flatMap((r) => (r.tubes[id] ? [r.tubes[id]!] : []));
-    tubes[id] = { plateAmps: stats(ok.map((t) => t.plateAmps)), vgk: stats(ok.map((t) => t.vgk)), vpk: stats(ok.map((t) => t.vpk)) };
+    tubes[id] = { plateAmps: stats(ok.map((t) => t.plateAmps)), vgk: stats(ok.map((t) => t.vgk)), vpk: stats(ok.map((t) => t.vpk)), contactVolts: stats(sorted.map((r) => r.contactVolts?.[id] ?? 0)) };
   }
   const caseRun = (which: 'low' | 'nominal' | 'high'): SpreadRun => {
     return spreadRun(tubeCaseDesign(design, which), seed, 0, options);
@@ -173,6 +206,7 @@ export function summariseSpread(design: Design, seed: number, results: readonly 
     runs: sorted.length, seed,
     nominal: sorted.find((r) => r.run === 0) ?? spreadRun(design, seed, 0, options),
     tubes,
+    contactPotential: { distribution: 'uniform', halfWidthVolts: CONTACT_POTENTIAL_SPREAD_VOLTS },
     gainDb1k: stats(sorted.flatMap((r) => (r.gainDb1k === null ? [] : [r.gainDb1k]))),
     outputPeakVolts: stats(sorted.flatMap((r) => (r.outputPeakVolts === null ? [] : [r.outputPeakVolts]))),
     failedRuns: sorted.filter((r) => !r.biased).map((r) => ({ run: r.run, failures: r.failures })),

@@ -194,13 +194,13 @@ function tubeElement(p: TubePart): NetTube {
     return {
       id: p.id, kind: 'triode', nodes: { plate: p.nodes.plate, grid: p.nodes.grid, cathode: p.nodes.cathode },
       model: { name: 'koren-triode', ...t.model, kg1: t.model.kg1 / p.sample },
-      gridCurrent: { name: 'dempwolf-zolzer', ...t.gridCurrent },
+      gridCurrent: t.gridCurrent,
     };
   }
   return {
     id: p.id, kind: 'pentode', nodes: { plate: p.nodes.plate, screen: p.nodes.screen ?? '', grid: p.nodes.grid, cathode: p.nodes.cathode },
     model: { name: 'koren-pentode', ...t.model, kg1: t.model.kg1 / p.sample, kg2: t.model.kg2 / p.sample },
-    gridCurrent: { name: 'dempwolf-zolzer', ...t.gridCurrent },
+    gridCurrent: t.gridCurrent,
   };
 }
 

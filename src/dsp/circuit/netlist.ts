@@ -1,12 +1,15 @@
 // Netlist interchange, version 1 (shared spec netlist-v1): types, validation, reading.
-import type { GridCurrentParams, KorenPentodeParams, KorenTriodeParams } from '../tubes/models.ts';
+import type { KorenPentodeParams, KorenTriodeParams } from '../tubes/models.ts';
+import type { GridLaw } from '../tubes/grid-laws.ts';
+import { parseGridCurrent, parsePlateModel } from '../tubes/registry.ts';
 
 export const NETLIST_SCHEMA = 'valvewright.netlist.v1';
 
 export interface NetResistor { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number }
 export interface NetCapacitor { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number }
 export interface NetDcSource { readonly id: string; readonly kind: 'dc-source'; readonly nodes: readonly [string, string]; readonly volts: number; readonly ohms: number }
-export interface NetGridCurrent extends GridCurrentParams { readonly name: 'dempwolf-zolzer' }
+/** A grid-current law by netlist-v1 name ('dempwolf-zolzer' or 'initial-velocity'; tubes/grid-laws.ts). */
+export type NetGridCurrent = GridLaw;
 export interface NetTriode {
   readonly id: string; readonly kind: 'triode';
   readonly nodes: { readonly plate: string; readonly grid: string; readonly cathode: string };
@@ -59,17 +62,7 @@ function twoNodes(o: Json, where: string): readonly [string, string] {
   return [n[0], n[1]];
 }
 
-function gridCurrent(o: Json, where: string): NetGridCurrent | undefined {
-  const g = o.gridCurrent;
-  if (g === undefined || g === null) return undefined;
-  if (!isObj(g) || g.name !== 'dempwolf-zolzer') throw new NetlistError(`${where}: gridCurrent.name must be "dempwolf-zolzer"`);
-  const w = `${where}.gridCurrent`;
-  return { name: 'dempwolf-zolzer', gg: num(g, 'gg', w, { positive: true, allowZero: true }), cg: num(g, 'cg', w, { positive: true }), xi: num(g, 'xi', w, { positive: true }), ig0: num(g, 'ig0', w) };
-}
-
-function triodeParams(m: Json, w: string): KorenTriodeParams {
-  return { mu: num(m, 'mu', w, { positive: true }), ex: num(m, 'ex', w, { positive: true }), kg1: num(m, 'kg1', w, { positive: true }), kp: num(m, 'kp', w, { positive: true }), kvb: num(m, 'kvb', w, { positive: true, allowZero: true }) };
-}
+const failNetlist = (message: string): never => { throw new NetlistError(message); };
 
 function element(e: unknown, index: number): NetElement {
   if (!isObj(e)) throw new NetlistError(`elements[${index}] must be an object`);
@@ -83,12 +76,12 @@ function element(e: unknown, index: number): NetElement {
       const n = e.nodes;
       if (!isObj(n)) throw new NetlistError(`${where}: nodes must name plate, grid and cathode`);
       const m = e.model;
-      if (!isObj(m) || m.name !== 'koren-triode') throw new NetlistError(`${where}: model.name must be "koren-triode"`);
-      const gc = gridCurrent(e, where);
+      if (!isObj(m)) throw new NetlistError(`${where}: model.name must be "koren-triode"`);
+      const gc = parseGridCurrent(e.gridCurrent, where, failNetlist);
       return {
         id, kind: 'triode',
         nodes: { plate: str(n, 'plate', where), grid: str(n, 'grid', where), cathode: str(n, 'cathode', where) },
-        model: { name: 'koren-triode', ...triodeParams(m, `${where}.model`) },
+        model: parsePlateModel('triode', m, where, failNetlist),
         ...(gc ? { gridCurrent: gc } : {}),
       };
     }
@@ -96,12 +89,12 @@ function element(e: unknown, index: number): NetElement {
       const n = e.nodes;
       if (!isObj(n)) throw new NetlistError(`${where}: nodes must name plate, screen, grid and cathode`);
       const m = e.model;
-      if (!isObj(m) || m.name !== 'koren-pentode') throw new NetlistError(`${where}: model.name must be "koren-pentode"`);
-      const gc = gridCurrent(e, where);
+      if (!isObj(m)) throw new NetlistError(`${where}: model.name must be "koren-pentode"`);
+      const gc = parseGridCurrent(e.gridCurrent, where, failNetlist);
       return {
         id, kind: 'pentode',
         nodes: { plate: str(n, 'plate', where), screen: str(n, 'screen', where), grid: str(n, 'grid', where), cathode: str(n, 'cathode', where) },
-        model: { name: 'koren-pentode', ...triodeParams(m, `${where}.model`), kg2: num(m, 'kg2', `${where}.model`, { positive: true }) },
+        model: parsePlateModel('pentode', m, where, failNetlist),
         ...(gc ? { gridCurrent: gc } : {}),
       };
     }

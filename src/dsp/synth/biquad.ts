@@ -20,8 +20,6 @@ export interface AnalogBiquad {
   readonly d0: number;
 }
 
-export const IDENTITY_BIQUAD: Biquad = { b0: 1, b1: 0, b2: 0, a1: 0, a2: 0 };
-
 function assertFinitePositive(value: number, what: string): void {
   if (!Number.isFinite(value) || value <= 0) {
     throw new Error(`${what} must be a finite number above 0 (got ${String(value)})`);

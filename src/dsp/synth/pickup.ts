@@ -102,12 +102,6 @@ export function pickupLoadFilter(p: PickupParams, sampleRateHz: number): Biquad 
   return bilinear(pickupAnalog(p), sampleRateHz, f0);
 }
 
-/** Quality factor of the loaded resonance, Q = sqrt(d2 d0) / d1. */
-export function pickupQ(p: PickupParams): number {
-  const a = pickupAnalog(p);
-  return Math.sqrt(a.d2 * a.d0) / a.d1;
-}
-
 /**
  * Pickup comb delay in samples. Sensing at distance d from a reflecting bridge adds the wave
  * and its inverted reflection 2d/c later: H = 1 - z^-D, D = fs 2d / c. The wave speed follows

@@ -41,13 +41,6 @@ export function allpassPhaseDelaySamples(coefficient: number, frequencyHz: numbe
   return 1 - (2 / w) * Math.atan2(coefficient * Math.sin(w), 1 + coefficient * Math.cos(w));
 }
 
-/** Magnitude of the loss filter at frequencyHz. */
-export function lossMagnitude(design: StringLoopDesign, frequencyHz: number, sampleRateHz: number): number {
-  const w = (2 * Math.PI * frequencyHz) / sampleRateHz;
-  const a = design.lossPole;
-  return (design.lossGain * (1 + a)) / Math.hypot(1 + a * Math.cos(w), a * Math.sin(w));
-}
-
 /**
  * Designs the loop for pitch f0 with a 60 dB decay time decayLowSeconds at low frequency and
  * decayHighSeconds at decayHighHz.

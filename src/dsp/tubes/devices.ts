@@ -6,47 +6,68 @@
 // accuracy measured in tests/engine-perf-correctness.test.ts).
 import type { RootDevice } from '../wdf/newton-root.ts';
 import {
-  dempwolfZolzerGridInto, korenPentodeInto, korenTriodeInto,
+  korenPentodeInto, korenTriodeInto,
   type GridCurrentParams, type KorenPentodeParams, type KorenTriodeParams,
 } from './models.ts';
-import { gridTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
+import { CompiledGridLaw, type DeviceGridLaw } from './grid-laws.ts';
+import { gridLawTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
 
 const NO_GRID: GridCurrentParams = { gg: 0, cg: 1, xi: 1, ig0: 0 };
 
 export type TubeFunctions = 'exact' | 'table';
 
-export class TriodeDevice implements RootDevice {
-  readonly portCount = 2;
-  readonly maxStepVolts = [10, 50];
-  readonly kneePorts = [1];
-  readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1]];
-  readonly params: KorenTriodeParams;
-  readonly grid: GridCurrentParams | undefined;
+/**
+ * What both tube devices share: plate-law parameters, the grid law (compiled once), the sample
+ * factor and the optional grid table ('table': whatever the law, tabulated through the generic
+ * one-dimensional path of tables.ts; accuracy in tests/live-tables.test.ts).
+ */
+abstract class TubeDeviceBase<P extends KorenTriodeParams> {
+  readonly params: P;
+  readonly grid: DeviceGridLaw | undefined;
   /** Tube sample factor: scales plate current (strong > 1 > weak). */
   sample: number;
   readonly functions: TubeFunctions;
-  private readonly w = new Float64Array(8);
-  /** Inputs of the fused laws (models.ts calling convention): Vgk, Vpk, sample factor. */
-  private readonly x = new Float64Array(3);
-  private readonly tables: TriodeTables | null;
-  private readonly gridTab: HermiteTable | null;
+  protected readonly gridLaw: CompiledGridLaw | null;
+  protected readonly gridTab: HermiteTable | null;
 
-  constructor(params: KorenTriodeParams, grid: GridCurrentParams | undefined, sample = 1, functions: TubeFunctions = 'exact') {
+  constructor(params: P, grid: DeviceGridLaw | undefined, sample: number, functions: TubeFunctions) {
     this.params = params;
     this.grid = grid;
     this.sample = sample;
     this.functions = functions;
+    this.gridLaw = grid ? new CompiledGridLaw(grid) : null;
+    // 'table': any grid law through the generic one-dimensional path (tables.ts gridLawTable)
+    const law = this.gridLaw;
+    this.gridTab = functions === 'table' && grid && law ? gridLawTable(JSON.stringify(grid), (x, xo, out, o) => law.into(x, xo, out, o)) : null;
+  }
+
+  /** Grid current and slope at x[0] = Vgk into w[o], w[o+1]. */
+  protected gridInto(x: Float64Array, w: Float64Array, o: number): void {
+    const g = this.gridLaw;
+    if (g === null) { w[o] = 0; w[o + 1] = 0; } else if (!this.gridTab || !this.gridTab.lookupFrom(x, 0, w, o)) g.into(x, 0, w, o);
+  }
+}
+
+export class TriodeDevice extends TubeDeviceBase<KorenTriodeParams> implements RootDevice {
+  readonly portCount = 2;
+  readonly maxStepVolts = [10, 50];
+  readonly kneePorts = [1];
+  readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1]];
+  private readonly w = new Float64Array(8);
+  /** Inputs of the fused laws (models.ts calling convention): Vgk, Vpk, sample factor. */
+  private readonly x = new Float64Array(3);
+  private readonly tables: TriodeTables | null;
+
+  constructor(params: KorenTriodeParams, grid: DeviceGridLaw | undefined, sample = 1, functions: TubeFunctions = 'exact') {
+    super(params, grid, sample, functions);
     this.tables = functions === 'table' ? triodeTables(params) : null;
-    this.gridTab = functions === 'table' && grid ? gridTable(grid) : null;
   }
 
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
     const w = this.w, x = this.x;
     x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = this.sample;
-    if (!this.tables || !this.tableTriode(x[0]!, x[1]!)) korenTriodeInto(this.params, x, 0, w, 0);
-    if (this.grid) {
-      if (!this.gridTab || !this.gridTab.lookup(x[0]!, w, 3)) dempwolfZolzerGridInto(this.grid, x, 0, w, 3);
-    } else { w[3] = 0; w[4] = 0; }
+    if (!this.tables || !this.tableTriode()) korenTriodeInto(this.params, x, 0, w, 0);
+    this.gridInto(x, w, 3);
     i[o] = w[3]!;
     i[o + 1] = w[0]!;
     d[dOff] = w[4]!;
@@ -55,12 +76,13 @@ export class TriodeDevice implements RootDevice {
   }
 
   /** Table path into w[0..2]; false when outside the tables (caller uses the exact equations). */
-  private tableTriode(vgk: number, vpk: number): boolean {
-    const t = this.tables!, w = this.w, p = this.params;
+  private tableTriode(): boolean {
+    const t = this.tables!, w = this.w, p = this.params, x = this.x;
+    const vgk = x[0]!, vpk = x[1]!;
     if (!(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; return true; }
     const s = Math.sqrt(p.kvb + vpk * vpk);
-    const z = p.kp * (1 / p.mu + vgk / s);
-    if (!t.w.lookup(vpk, w, 5) || !t.g.lookup(z, w, 3)) return false;
+    w[7] = p.kp * (1 / p.mu + vgk / s); // z, read by the table from the array (no boxing)
+    if (!t.w.lookupFrom(x, 1, w, 5) || !t.g.lookupFrom(w, 7, w, 3)) return false;
     const W = this.sample * w[5]!, dW = this.sample * w[6]!, G = w[3]!, dG = w[4]!;
     w[0] = W * G;
     w[1] = W * dG * (p.kp / s);
@@ -69,37 +91,26 @@ export class TriodeDevice implements RootDevice {
   }
 }
 
-export class PentodeDevice implements RootDevice {
+export class PentodeDevice extends TubeDeviceBase<KorenPentodeParams> implements RootDevice {
   readonly portCount = 3;
   readonly maxStepVolts = [10, 50, 50];
   readonly kneePorts = [1, 2];
   readonly jacobianPattern: readonly (readonly [number, number])[] = [[0, 0], [1, 0], [1, 1], [1, 2], [2, 0], [2, 2]];
-  readonly params: KorenPentodeParams;
-  readonly grid: GridCurrentParams | undefined;
-  sample: number;
-  readonly functions: TubeFunctions;
   private readonly w = new Float64Array(16);
   /** Inputs of the fused laws (models.ts calling convention): Vgk, Vpk, Vsk, sample factor. */
   private readonly x = new Float64Array(4);
   private readonly tables: PentodeTables | null;
-  private readonly gridTab: HermiteTable | null;
 
-  constructor(params: KorenPentodeParams, grid: GridCurrentParams | undefined, sample = 1, functions: TubeFunctions = 'exact') {
-    this.params = params;
-    this.grid = grid;
-    this.sample = sample;
-    this.functions = functions;
+  constructor(params: KorenPentodeParams, grid: DeviceGridLaw | undefined, sample = 1, functions: TubeFunctions = 'exact') {
+    super(params, grid, sample, functions);
     this.tables = functions === 'table' ? pentodeTables(params) : null;
-    this.gridTab = functions === 'table' && grid ? gridTable(grid) : null;
   }
 
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
     const w = this.w, x = this.x;
     x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = v[o + 2]!; x[3] = this.sample;
-    if (!this.tables || !this.tablePentode(x[0]!, x[1]!, x[2]!)) korenPentodeInto(this.params, x, 0, w, 0);
-    if (this.grid) {
-      if (!this.gridTab || !this.gridTab.lookup(x[0]!, w, 7)) dempwolfZolzerGridInto(this.grid, x, 0, w, 7);
-    } else { w[7] = 0; w[8] = 0; }
+    if (!this.tables || !this.tablePentode()) korenPentodeInto(this.params, x, 0, w, 0);
+    this.gridInto(x, w, 7);
     i[o] = w[7]!;
     i[o + 1] = w[0]!;
     i[o + 2] = w[4]!;
@@ -109,16 +120,18 @@ export class PentodeDevice implements RootDevice {
   }
 
   /** Table path into w[0..6] (korenPentodeInto layout); false when outside the tables. */
-  private tablePentode(vgk: number, vpk: number, vsk: number): boolean {
-    const t = this.tables!, w = this.w, p = this.params, sc = this.sample;
+  private tablePentode(): boolean {
+    const t = this.tables!, w = this.w, p = this.params, sc = this.sample, x = this.x;
+    const vgk = x[0]!, vpk = x[1]!, vsk = x[2]!;
     const base = vgk + vsk / p.mu;
     if (base > 0) {
-      if (!t.s.lookup(base, w, 9)) return false;
+      w[15] = base;
+      if (!t.s.lookupFrom(w, 15, w, 9)) return false;
       w[4] = sc * w[9]!; w[5] = sc * w[10]!; w[6] = (sc * w[10]!) / p.mu;
     } else { w[4] = 0; w[5] = 0; w[6] = 0; }
     if (!(vsk > 0) || !(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; w[3] = 0; return true; }
-    const z = p.kp * (1 / p.mu + vgk / vsk);
-    if (!t.w.lookup(vsk, w, 9) || !t.g.lookup(z, w, 11) || !t.a.lookup(vpk, w, 13)) return false;
+    w[15] = p.kp * (1 / p.mu + vgk / vsk); // z
+    if (!t.w.lookupFrom(x, 2, w, 9) || !t.g.lookupFrom(w, 15, w, 11) || !t.a.lookupFrom(x, 1, w, 13)) return false;
     const W = sc * w[9]!, dW = sc * w[10]!, G = w[11]!, dG = w[12]!, A = w[13]!, dA = w[14]!;
     const WG = W * G;
     w[0] = WG * A;

@@ -3,8 +3,9 @@
 // a Newton step that raises a diode's voltage far into forward bias is replaced by one that
 // raises its *exponent* logarithmically; cited from memory).
 //
-// The netlist-v1 laws are exponential only below their softplus knee and power laws above it:
-//   grid current   Ig ~ (softplus(cg Vgk))^xi           tail ~ exp(xi cg Vgk)
+// The netlist-v1 laws are exponential only below their knee and power laws above it:
+//   grid current (dempwolf-zolzer)   Ig ~ (softplus(cg Vgk))^xi     tail ~ exp(xi cg Vgk)
+//   grid current (initial-velocity)  Ig ~ exp((Vgk - onset) / Vt) below the onset, a power above
 //   plate current  Ip ~ (softplus(z))^ex, z = kp (1/mu + Vgk / s)   tail ~ exp(ex z)
 // with s = sqrt(kvb + Vpk^2) (triode) or s = Vsk (pentode). Newton linearises the law at the
 // present iterate; from deep in a tail the slope is exponentially small and the step can land
@@ -48,20 +49,24 @@ export function limitExponent(a: Float64Array): void {
   }
 }
 
-/** Dempwolf-Zölzer grid law on the grid port: exponent xi·cg·Vgk. */
+/**
+ * A grid law on the grid port, exponent k·(Vgk - onset): Dempwolf-Zölzer k = xi·cg, onset 0;
+ * initial-velocity k = 1/Vt, onset its onsetVolts.
+ */
 export class GridLawLimiter implements StepLimiter {
-  private readonly k: number;
   private readonly a = new Float64Array(2);
-  /** @param gridPort root port of Vgk; cg, xi: the law's parameters (netlist-v1). */
-  constructor(private readonly gridPort: number, cg: number, xi: number) {
-    this.k = cg * xi;
-  }
+  /**
+   * @param gridPort root port of Vgk
+   * @param k exponent units per volt
+   * @param onsetVolts where the exponential tail meets the power law
+   */
+  constructor(private readonly gridPort: number, private readonly k: number, private readonly onsetVolts = 0) {}
 
   limit(v: Float64Array, delta: Float64Array, s: Float64Array): void {
     const g = this.gridPort, k = this.k, scale = s[0]!;
     const dv = scale * delta[g]!;
     if (k * dv > FREE_RISE) {
-      const aOld = k * v[g]!, aNew = aOld + k * dv;
+      const aOld = k * (v[g]! - this.onsetVolts), aNew = aOld + k * dv;
       const a = this.a;
       a[0] = aOld; a[1] = aNew;
       limitExponent(a);
