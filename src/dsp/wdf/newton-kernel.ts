@@ -22,7 +22,6 @@ let codegenAllowed: boolean | null = null;
 export function generated<T>(source: string): T | null {
   if (codegenAllowed === false) return null;
   try {
-    // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see above)
     const f = new Function(source)() as T;
     codegenAllowed = true;
     return f;
