@@ -85,6 +85,8 @@ const PREDICTOR_ERROR_CAP_VOLTS = 1e-2;
 const RESIDUAL_GROWTH = 100;
 /** Smallest fraction of a Newton step that backtracking tries before giving up. */
 const MIN_BACKTRACK = 1 / 1024;
+/** Continuation depth while samples are being held (1/8 of the way at the finest). */
+const HELD_HOMOTOPY_DEPTH = 3;
 /** Evaluations per continuation sub-solve. */
 const SUB_MAX_ITERATIONS = 30;
 
@@ -130,6 +132,8 @@ export class NewtonRoot {
   private readonly pLast: Float64Array;
   private readonly vLast: Float64Array;
   private hasLast = false;
+  /** Consecutive failed solves (held samples). */
+  private heldInARow = 0;
   /** Continuation workspace: the sub-step's p and the last converged sub-step's v. */
   private readonly pT: Float64Array;
   private readonly vA: Float64Array;
@@ -278,15 +282,19 @@ export class NewtonRoot {
     if (n >= 0) {
       if (opts.extrapolate) this.scorePredictors();
       this.remember(p);
+      this.heldInARow = 0;
       this.iterationsTotal += n;
       return n;
     }
     let spent = opts.maxIterations;
-    const depth = opts.homotopyDepth ?? 0;
+    // after a held sample, a cheaper continuation: the state is the same, so the same failure is
+    // likely (a circuit with no solution would otherwise cost ~400 evaluations per sample)
+    const depth = Math.min(opts.homotopyDepth ?? 0, this.heldInARow > 0 ? HELD_HOMOTOPY_DEPTH : Infinity);
     if (depth > 0 && this.hasLast) {
       this.fallbacks++;
       n = this.continueFrom(this.pLast, this.vLast, p, opts, depth);
       if (n >= 0) {
+        this.heldInARow = 0;
         this.restartHistory();
         this.remember(p);
         this.iterationsTotal += spent + n;
@@ -296,6 +304,7 @@ export class NewtonRoot {
     }
     // Failed: back to the last converged solution (the caller holds its state).
     this.failures++;
+    this.heldInARow++;
     if (this.hasLast) v.set(this.vLast);
     else v.set(vPrev);
     this.restartHistory();
