@@ -22,6 +22,7 @@ import { designResponses, type Responses } from './model/response.ts';
 import { Schematic } from './Schematic.tsx';
 import { PartEditor, ValueField } from './PartEditor.tsx';
 import { OperatingPanel } from './OperatingPanel.tsx';
+import { TubeFitPanel } from './TubeFitPanel.tsx';
 import { ResponsePlot, ScopePlot, SpectrumPlot } from './Plots.tsx';
 import { ClientPack, Meters, Waveform, type DemoClip } from './Listen.tsx';
 import { CautionDialog } from './Cautions.tsx';
@@ -273,6 +274,7 @@ export function App(): ReactElement {
         <div className="side">
           <PartEditor design={design} part={part} stress={op.report?.parts.find((p) => p.id === selected)} onChange={onPart} onSupplyVolts={onSupply} />
           <OperatingPanel report={op.report} failure={op.failure} findings={op.findings} slot={active} />
+          <TubeFitPanel design={design} onDesign={(d) => commit(withSlot(slots, active, d))} />
         </div>
 
         <section className="panel listen" aria-labelledby="listen-h">

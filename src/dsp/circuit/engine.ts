@@ -6,7 +6,8 @@
 import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { RootAverager, type AveragingOptions } from '../wdf/averaged-root.ts';
-import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
+import type { PentodeDevice, TriodeDevice, TubeFunctions } from '../tubes/devices.ts';
+import { tubeDevice } from '../tubes/registry.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
 
@@ -233,11 +234,8 @@ export class CircuitEngine {
         const k = idx(e.nodes.cathode);
         const offset = this.nlPorts.length;
         this.nlPorts.push({ a: idx(e.nodes.grid), b: k }, { a: idx(e.nodes.plate), b: k });
-        let device: TriodeDevice | PentodeDevice;
-        if (e.kind === 'pentode') {
-          this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
-          device = new PentodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
-        } else device = new TriodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
+        if (e.kind === 'pentode') this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
+        const device = tubeDevice(e, tubeFunctions);
         const slot = { el: e, device, offset };
         this.tubes.push(slot);
         if (!this.tubeById.has(e.id)) this.tubeById.set(e.id, slot);
