@@ -57,7 +57,6 @@ describe('initial-velocity grid law: equations', () => {
     const o = newSlopes();
     for (const v of [-3, -0.7, 0.2]) {
       gridCurrentAt(IV_DEFAULT_GRID, v, o);
-      // eslint-disable-next-line no-new-func
       const f = new Function('V', `return ${js};`) as (v: number) => number;
       expect(f(v) / o.amps).toBeCloseTo(1, 12);
     }
