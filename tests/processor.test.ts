@@ -7,8 +7,12 @@ import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { designCircuit, withPart, type Design, type Part, type PotPart, type ResistorPart } from '../src/dsp/circuit/design.ts';
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
 import { Oversampler, type OversamplingFactor } from '../src/dsp/oversampling/oversampler.ts';
-import { circuitModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, SAFETY_SUSTAIN_SECONDS, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
+import { planModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, SAFETY_SUSTAIN_SECONDS, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, MeterReport, ToProcessor } from '../src/dsp/realtime/messages.ts';
+import { LIVE_TUBE_FUNCTIONS, type SlotPlan } from '../src/dsp/circuit/plan.ts';
+
+/** The processor's engines run the live tube laws (tables; their accuracy: tests/live-tables.test.ts). */
+const LIVE = { tubeFunctions: LIVE_TUBE_FUNCTIONS } as const;
 import { SAFETY_INIT } from '../src/audio/graph.ts';
 
 const FS = 48000;
@@ -111,7 +115,7 @@ describe('processor messages', () => {
     p.run(new Float32Array(FS / 2)); // silence: both slots stay at their operating points
     const last = meters(p.posted).at(-1)!;
     // the DC operating point (a separate solve: capacitors open, supplies stepped up) per design
-    const nodes = (d: Design) => new OversampledCircuit(designCircuit(d), FS, DEFAULT_LIVE_FACTOR).engine.operatingPoint().nodes;
+    const nodes = (d: Design) => new OversampledCircuit(designCircuit(d), FS, DEFAULT_LIVE_FACTOR, undefined, LIVE).engine.operatingPoint().nodes;
     const expectTrace = (t: MeterReport['slotTraces'][0], d: Design) => {
       expect(t).not.toBeNull();
       const op = nodes(d);
@@ -148,7 +152,7 @@ describe('block processing', () => {
     ] });
     const x = sine(330, 0.8, 6000);
     const y = p.run(x);
-    const oc = new OversampledCircuit(designCircuit(PT), FS, DEFAULT_LIVE_FACTOR);
+    const oc = new OversampledCircuit(designCircuit(PT), FS, DEFAULT_LIVE_FACTOR, undefined, LIVE);
     const dc = oc.engine.operatingPoint().nodes[oc.engine.outputNodeName]!;
     let worst = 0;
     for (let k = 0; k < x.length; k++) {
@@ -218,8 +222,10 @@ describe('robustness', () => {
 
   it('catches a non-finite state: restores the operating point, reports once, silences that block', () => {
     let poison = -1;
-    const factory = (d: Design, fs: number, f: OversamplingFactor): SlotModel => {
-      const inner = circuitModel(d, fs, f);
+    // recovery instantiates the slot's plan again: the new model is healthy
+    const factory = (plan: SlotPlan): SlotModel => {
+      poison = -1;
+      const inner = planModel(plan);
       const bad = new Float64Array(inner.probeValues.length).fill(Number.NaN);
       let n = 0;
       return {
@@ -229,7 +235,6 @@ describe('robustness', () => {
         get outputDcVolts() { return inner.outputDcVolts; },
         get probeValues() { return poison >= 0 && n >= poison ? bad : inner.probeValues; },
         setValues: (u) => inner.setValues(u), setSwitch: (i, c) => inner.setSwitch(i, c), setTubeSample: (i, s) => inner.setTubeSample(i, s),
-        reset: () => { poison = -1; inner.reset(); },
       };
     };
     const posted: FromProcessor[] = [];

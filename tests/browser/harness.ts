@@ -3,7 +3,10 @@
 import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
 import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
 import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions, type LiveLatency } from '../../src/audio/index.ts';
-import type { Design } from '../../src/dsp/circuit/design.ts';
+import { withPart, type Design } from '../../src/dsp/circuit/design.ts';
+import { buildSlotPlan } from '../../src/dsp/circuit/plan.ts';
+import type { ToProcessor, Slot } from '../../src/dsp/realtime/messages.ts';
+import type { OversamplingFactor } from '../../src/dsp/oversampling/oversampler.ts';
 
 /**
  * Resolves once `ready()` holds, checking every 20 ms; rejects with `what` after `timeoutMs`.
@@ -157,4 +160,70 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
   return { states, loadedWhileIdle, reportsAfterWake, idleFlags, changes };
 }
 
-Object.assign(window, { vw: { renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });
+/**
+ * A scripted editing session through the worklet in an OfflineAudioContext. Each event's
+ * messages are posted at its render quantum (the context suspended there); messages that need a
+ * compiled design get a plan built here first, as the workspace's plan worker does (not on the
+ * audio thread, not timed). Each event quantum, and as many quiet quanta for the baseline, is
+ * timed from resume to the next suspension: one quantum of processing plus the suspend/resume
+ * hand-over between threads.
+ */
+async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[]):
+  Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
+  const Q = 128;
+  const ctx = new OfflineAudioContext(1, input.length, rateHz);
+  await ctx.audioWorklet.addModule(workletUrl);
+  const node = new AudioWorkletNode(ctx, PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: init });
+  const errors: string[] = [];
+  node.port.onmessage = (e: MessageEvent<FromProcessor>) => { if (e.data.type === 'error') errors.push(e.data.message); };
+  const buf = new AudioBuffer({ length: input.length, sampleRate: rateHz, numberOfChannels: 1 });
+  buf.copyToChannel(Float32Array.from(input), 0);
+  const src = new AudioBufferSourceNode(ctx, { buffer: buf });
+  src.connect(node).connect(ctx.destination);
+  src.start(0);
+  const designs: Partial<Record<Slot, Design>> = {};
+  let factor = (init.factor ?? 4) as OversamplingFactor;
+  for (const m of init.initial ?? []) if (m.type === 'load-design') designs[m.slot] = m.design;
+  const withPlan = (m: ToProcessor): ToProcessor => {
+    if (m.type === 'load-design') { designs[m.slot] = m.design; return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) }; }
+    if (m.type === 'set-part') {
+      const d = designs[m.slot];
+      if (!d) return m;
+      const next = withPart(d, m.part);
+      designs[m.slot] = next;
+      const old = d.parts.find((p) => p.id === m.part.id);
+      return old && old.kind === 'tube' && m.part.kind === 'tube' && old.type !== m.part.type ? { ...m, plan: buildSlotPlan(next, rateHz, factor) } : m;
+    }
+    const plans = () => ({ ...(designs.A ? { A: buildSlotPlan(designs.A, rateHz, factor) } : {}), ...(designs.B ? { B: buildSlotPlan(designs.B, rateHz, factor) } : {}) });
+    if (m.type === 'set-quality') { factor = m.factor; return { ...m, plans: plans() }; }
+    if (m.type === 'reset') return { ...m, plans: plans() };
+    return m;
+  };
+  const editMs: number[] = [], quietMs: number[] = [];
+  const WINDOW = 8; // quanta timed after each event (fades, swaps and glide steps land there)
+  const timed = (quantum: number, into: number[], messages: ToProcessor[]) => {
+    let t0 = 0;
+    void ctx.suspend((quantum * Q) / rateHz).then(() => {
+      for (const m of messages) node.port.postMessage(withPlan(m));
+      // the messages reach the processor before the next quantum (one port, in order)
+      t0 = performance.now();
+      void ctx.resume();
+    });
+    for (let j = 1; j <= WINDOW; j++) {
+      void ctx.suspend(((quantum + j) * Q) / rateHz).then(() => {
+        const now = performance.now();
+        into.push(now - t0);
+        t0 = performance.now();
+        void ctx.resume();
+      });
+    }
+  };
+  for (const e of events) timed(e.quantum, editMs, e.messages);
+  for (const q of quiet) timed(q, quietMs, []);
+  const t = performance.now();
+  await ctx.startRendering();
+  const renderMs = performance.now() - t;
+  return { editMs, quietMs, renderMs, errors };
+}
+
+Object.assign(window, { vw: { editSession, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });

@@ -22,11 +22,17 @@ import {
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { CliError, loadDesign, optNumber, optString, parseArgs } from '../args.ts';
 import { openWavFile, WavFileWriter, type WavFileReader } from '../wav-file.ts';
+import { renderInParallel } from '../pair-renders.ts';
 /**
- * Clips for clients are rendered at 32x by default: aliases about -97 / -83 dB on the two-stage
- * template (npx tsx bench/alias.bench.ts) at about 0.6x real time; render's own default is 8x.
+ * Clips for clients are rendered at 8x with the averaged root by default. Chosen from measured
+ * alias level and speed: on netlists the templates do not cover, 8x averaged put a 2.5 kHz
+ * sine's aliases at -73.7 dB against -59.7 dB for 32x plain, the former default (through
+ * `render`, bench/render-alias.bench.ts); on the pentode-triode template 8x gives -72.5 / -77.0
+ * dB near 1 / 2.5 kHz, 16x -80.8 / -75.3 (README, bench/alias.bench.ts), i.e. no clear gain for
+ * twice the time. At 8x a 30 s pair renders in about a quarter of the take's length here (both
+ * sides on worker threads in parallel; `pair` prints the time it took).
  */
-export const PAIR_DEFAULT_OVERSAMPLE: OversamplingFactor = 32;
+export const PAIR_DEFAULT_OVERSAMPLE: OversamplingFactor = 8;
 import type { CommandIO } from '../main.ts';
 
 export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
@@ -166,14 +172,38 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
     const meters = sides.map(() => new LoudnessMeter(fs, 1));
     const diMeter = new LoudnessMeter(fs, h.channelCount);
     io.err(`pass 1: rendering ${sides.map((s) => `${s.variant} (${s.name})`).join(' and ')} from ${inPath}, ${(h.frameCount / fs).toFixed(1)} s at ${factor}x${keep ? ', kept in memory' : ', not kept (will render again)'}`);
+    const t0 = Date.now();
     let renderers = makeRenderers(sides, fs, factor, inputVolts);
     const ops = renderers.map((r) => r?.model.engine.operatingPoint() ?? null);
     const latency = renderers.find((r) => r !== null);
-    await runThroughDi(reader, renderers, (i, b, n) => {
-      meters[i]!.process([b], n, 0);
-      if (cache) { cache[i]!.set(b.subarray(0, n), cachePos[i]); cachePos[i]! += n; }
-    }, (chans, n) => diMeter.process(chans, n, 0));
-    const nonFinite = renderers.reduce((s, r) => s + (r?.nonFiniteSamples ?? 0), 0);
+    let nonFinite = 0;
+    if (cache) {
+      // the processed sides on worker threads in parallel; the DI (and a dry side) here meanwhile
+      const jobs = sides.flatMap((s, i) => (s.design ? [{ side: i, job: { inPath, design: s.design.design, factor, inputVolts } }] : []));
+      const done = jobs.map(() => 0);
+      let shown = -1;
+      const progress = (j: number, frames: number): void => {
+        done[j] = frames;
+        const pct = Math.floor((100 * Math.min(...done)) / h.frameCount);
+        if (pct >= shown + 10) { shown = pct - (pct % 10); io.err(`pass 1: ${shown} % rendered (${((Date.now() - t0) / 1000).toFixed(1)} s)`); }
+      };
+      const renders = renderInParallel(jobs.map((j) => j.job), progress);
+      await runThroughDi(reader, sides.map(() => null), (i, b, n) => {
+        if (sides[i]!.design) return;
+        cache[i]!.set(b.subarray(0, n), cachePos[i]);
+        cachePos[i]! += n;
+      }, (chans, n) => diMeter.process(chans, n, 0));
+      const results = await renders;
+      jobs.forEach((j, k) => { cache[j.side]!.set(results[k]!.samples.subarray(0, h.frameCount)); nonFinite += results[k]!.nonFiniteSamples; });
+      for (let i = 0; i < sides.length; i++) {
+        const c = cache[i]!;
+        for (let f = 0; f < c.length; f += BLOCK) meters[i]!.process([c.subarray(f, Math.min(c.length, f + BLOCK))], Math.min(BLOCK, c.length - f), 0);
+      }
+    } else {
+      await runThroughDi(reader, renderers, (i, b, n) => meters[i]!.process([b], n, 0), (chans, n) => diMeter.process(chans, n, 0));
+      nonFinite = renderers.reduce((s, r) => s + (r?.nonFiniteSamples ?? 0), 0);
+    }
+    io.err(`pass 1: rendered in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
     if (nonFinite > 0) io.err(`warning: ${nonFinite} non-finite samples in the renders were replaced by 0`);
     const rendered = [meters[0]!.report(), meters[1]!.report()] as const;
     const diReport = diMeter.report();
@@ -242,6 +272,7 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
     await writeAtomic(sheetJsonPath, `${JSON.stringify(sheet, jsonReplacer, 2)}\n`);
     await writeAtomic(sheetMdPath, pairSheetMarkdown(sheet));
 
+    io.err(`pair ready in ${((Date.now() - t0) / 1000).toFixed(1)} s for ${(h.frameCount / fs).toFixed(1)} s of DI`);
     if (a.options.has('json')) {
       io.out(JSON.stringify({ files: sides.map((s) => s.path), sheet: [sheetJsonPath, sheetMdPath], matching: sheet.matching, loudness: sheet.files }, jsonReplacer));
     } else {

@@ -82,6 +82,21 @@ export interface EngineOptions {
   readonly antialiasing?: Antialiasing;
   /** Quadrature tolerance and depth of 'averaged' (default DEFAULT_AVERAGING). */
   readonly averaging?: AveragingOptions;
+  /**
+   * Compiled values and operating point from another engine of the same circuit, rate and
+   * options (circuit/plan.ts): the constructor copies them instead of compiling the matrices and
+   * solving the DC point, so an engine can be built cheaply on the audio thread.
+   */
+  readonly prepared?: PreparedEngineState;
+}
+
+/** What a built engine hands to a twin (plain data: typed arrays and records). */
+export interface PreparedEngineState {
+  /** Transient matrices for the engine's values at construction (RootMatrices layout). */
+  readonly matrices: RootMatrices;
+  readonly operatingPoint: OperatingPoint;
+  /** The DC root's port voltages at the operating point. */
+  readonly rootVolts: Float64Array;
 }
 
 export type Antialiasing = 'averaged' | 'off';
@@ -171,9 +186,8 @@ export class CircuitEngine {
   private readonly u: Float64Array;
   private readonly p: Float64Array;
   private readonly invCapR: Float64Array;
-  // Per-sample maps over x = [capacitor waves (nc), input EMF, root currents (m)] in compressed
-  // rows, structural zeros dropped, with the constant-source (B+) part folded into *Const.
-  // Measured (bench, pentode-triode 4x): about half of E, Pu and Pi are structural zeros.
+  // Per-sample maps over x = [capacitor waves (nc), input EMF, root currents (m)], dense (the
+  // generated kernels of linear-kernel.ts), with the constant-source (B+) part folded into *Const.
   private readonly x: Float64Array;
   /** Dense m × (nc+1) map from [w; vin] to the root's open-circuit voltages. */
   private readonly Pd: Float64Array;
@@ -296,11 +310,18 @@ export class CircuitEngine {
     const bdf2 = this.caps.map((c) => c.bdf2);
     this.stage1 = compileLinearStage1({ nc: this.caps.length, m, bdf2 });
     this.stage2 = compileLinearStage2({ nc: this.caps.length, m, bdf2 });
-    this.compile();
+    const prepared = options.prepared;
+    if (prepared) this.adoptMatrices(prepared.matrices);
+    else this.compile();
     this.root = new NewtonRoot(this.devices, this.tr.F);
     this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
     this.rootCurrents = this.averager ? this.averager.iMean : this.root.i;
     this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
+    if (prepared) {
+      if (prepared.rootVolts.length !== m) throw new Error('prepared state does not match this circuit (root size)');
+      this.dcRoot.v.set(prepared.rootVolts);
+      this.op = prepared.operatingPoint;
+    }
     this.resetToOperatingPoint();
   }
 
@@ -353,7 +374,38 @@ export class CircuitEngine {
     this.op = null;
   }
 
-  /** Compressed per-sample maps from the compiled matrices (into preallocated storage). */
+  /** Take compiled transient matrices (PreparedEngineState) instead of compiling them. */
+  private adoptMatrices(src: RootMatrices): void {
+    const tr = this.tr;
+    if (src.nodeCount !== tr.nodeCount || src.nu !== tr.nu || src.m !== tr.m) throw new Error('prepared state does not match this circuit (matrix sizes)');
+    const T = 1 / this.sampleRateHz;
+    for (let j = 0; j < this.caps.length; j++) {
+      const farads = this.capFarads[j]!;
+      const ohms = this.caps[j]!.bdf2 ? (2 * T) / (3 * farads) : T / (2 * farads);
+      this.capR[j] = ohms;
+      this.trOhms[j] = ohms;
+    }
+    tr.E.set(src.E); tr.F.set(src.F); tr.Pu.set(src.Pu); tr.Pi.set(src.Pi); tr.Zu.set(src.Zu); tr.Zi.set(src.Zi);
+    this.packMaps();
+    this.dcValid = false;
+  }
+
+  /**
+   * Everything a twin engine (same circuit, rate and options) needs to start without compiling
+   * or solving: copies of the transient matrices, the operating point and the DC root's state
+   * (solved here if needed). See circuit/plan.ts.
+   */
+  preparedState(): PreparedEngineState {
+    const operatingPoint = this.operatingPoint();
+    const t = this.tr;
+    return {
+      matrices: { nodeCount: t.nodeCount, nu: t.nu, m: t.m, E: t.E.slice(), F: t.F.slice(), Pu: t.Pu.slice(), Pi: t.Pi.slice(), Zu: t.Zu.slice(), Zi: t.Zi.slice() },
+      operatingPoint,
+      rootVolts: this.dcRoot.v.slice(),
+    };
+  }
+
+  /** Dense per-sample maps from the compiled matrices (into preallocated storage). */
   private packMaps(): void {
     const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, nd = nc + 1;
     for (let j = 0; j < nc; j++) this.invCapR[j] = 1 / this.capR[j]!;

@@ -8,31 +8,34 @@
 //   value over SMOOTHING_SECONDS (COMPONENT_SMOOTHING_SECONDS for resistors and capacitors); the
 //   engine is recompiled with the glided values every SMOOTHING_STEP_SAMPLES (block boundaries and
 //   fixed points inside a block), keeping the circuit's state;
-// - a design load, quality change or reset fades the affected output out, rebuilds at a block
-//   boundary, and fades in (an unheard slot is rebuilt at once);
+// - a design load, quality change or reset fades the affected output out, swaps in the new
+//   engine at a block boundary, and fades in (an unheard slot is swapped at once);
 // - scalar gains (input calibration, output scales, master, mute) ramp per sample.
-// Design loads compile a new engine here on the audio thread: a compiled engine is a class
-// instance that cannot be posted from another thread, and compiling takes 1-6 ms (one or two
-// render quanta), acceptable for an explicit load behind a fade.
+// Engines come from slot plans (circuit/plan.ts): the design compiled and its DC point solved
+// off the audio thread (the main thread's plan worker). process() only instantiates a plan
+// (copies its arrays, no matrix compile or DC solve: tests/realtime-plan.test.ts forbids both
+// inside process()). A message without a plan gets one built by `planner` in handle(), outside
+// process(): for tools and tests; the workspace always sends plans.
 //
 // Allocation: nothing on the per-block path of this file (ramps, meters and update lists are
 // pre-allocated), and CircuitEngine.setValues recompiles its matrices in place (tests/
 // engine-alloc.test.ts counts the collections during a glide: none).
 import {
-  designCircuit, partValueUpdates, potResistors, validateDesign, withPart, DesignError,
+  partValueUpdates, potResistors, validateDesign, withPart, DesignError,
   type Design, type Part, type PotPart, type TubePart,
 } from '../circuit/design.ts';
 import type { ValueUpdate } from '../circuit/engine.ts';
-import { OversampledCircuit, isOversamplingFactor } from '../render/oversampled.ts';
+import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, type SlotPlan } from '../circuit/plan.ts';
+import { isOversamplingFactor } from '../render/oversampled.ts';
 import { PeakLimiter } from '../render/limiter.ts';
 import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
-import type { FromProcessor, MeterReport, Monitor, Slot, SlotTrace, ToProcessor } from './messages.ts';
+import type { FromProcessor, MeterReport, Monitor, Slot, SlotPlans, SlotTrace, ToProcessor } from './messages.ts';
 
 /**
  * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
  * more than 50 dB down (bench/alias.bench.ts, pentode-triode, 1 V near 1 / 2.5 kHz: -73.3 /
- * -64.1 dB; 2x gives -54.9 / -48.3, short of the goal). Its cost: both slots take about 40 % of
- * Chromium's audio thread (bench/worklet.browser.bench.ts).
+ * -64.1 dB; 2x gives -54.9 / -48.3, short of the goal). Its cost: see loadAtDefault in
+ * bench/worklet.browser.bench.ts.
  */
 export const DEFAULT_LIVE_FACTOR: OversamplingFactor = 4;
 /** The factors offered for live playing (the workspace's choices and the overload guard's steps). */
@@ -79,20 +82,18 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
-  /** Back to the operating point (recomputed for the present values). */
-  reset(): void;
 }
-export type ModelFactory = (design: Design, baseRateHz: number, factor: OversamplingFactor) => SlotModel;
+/** Instantiates a plan (on the audio thread: no compile, no DC solve). */
+export type ModelFactory = (plan: SlotPlan) => SlotModel;
+/** Compiles a design into a plan (off the audio thread, or in handle() for tools and tests). */
+export type Planner = (design: Design, baseRateHz: number, factor: OversamplingFactor) => SlotPlan;
 
 const tubesOf = (d: Design): TubePart[] => d.parts.filter((p): p is TubePart => p.kind === 'tube');
 
-/** The default model: the design's circuit at factor x the base rate (src/dsp/render/oversampled.ts). */
-export const circuitModel: ModelFactory = (design, baseRateHz, factor) => {
-  const oc = new OversampledCircuit(designCircuit(design), baseRateHz, factor);
-  const tubes = tubesOf(design);
-  oc.engine.setProbes([tubes[0]?.nodes.grid ?? design.output.node, ...tubes.map((t) => t.nodes.plate)]);
-  const dcOf = (): number => oc.engine.operatingPoint().nodes[oc.engine.outputNodeName] ?? 0;
-  let dc = dcOf();
+/** The default model: the plan's circuit at factor x the base rate (src/dsp/render/oversampled.ts). */
+export const planModel: ModelFactory = (plan) => {
+  const oc = instantiateSlotPlan(plan);
+  const dc = plan.outputDcVolts;
   return {
     processSample: (v) => oc.processSample(v),
     processRange: (src, dst, off, len) => oc.processRange(src, dst, off, len),
@@ -102,9 +103,11 @@ export const circuitModel: ModelFactory = (design, baseRateHz, factor) => {
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
-    reset: () => { oc.reset(); dc = dcOf(); },
   };
 };
+
+/** Live plans: the design at the live tube functions (tables). */
+export const livePlanner: Planner = (design, baseRateHz, factor) => buildSlotPlan(design, baseRateHz, factor);
 
 /** Linear per-sample ramp. */
 class Ramp {
@@ -163,7 +166,13 @@ interface Glide {
 class SlotState {
   design: Design | null = null;
   model: SlotModel | null = null;
+  /** The plan the model was made from (fault recovery instantiates it again). */
+  plan: SlotPlan | null = null;
   pending: Design | null = null;
+  /** Plan for `pending` (always set with it; built for an earlier state of `pending` if values changed since). */
+  pendingPlan: SlotPlan | null = null;
+  /** Request id of the message that made `pending` ('loaded' carries it). */
+  pendingRequest: number | undefined = undefined;
   pendingClear = false;
   glides: Glide[] = [];
   glideById = new Map<string, Glide>();
@@ -192,6 +201,8 @@ export interface DualSlotOptions {
   /** Receives reports. The meter report object is reused between calls: copy it to keep it. */
   readonly post?: (m: FromProcessor) => void;
   readonly createModel?: ModelFactory;
+  /** Builds plans for messages that bring none (default livePlanner); never called inside process(). */
+  readonly planner?: Planner;
   /** Glide times (defaults SMOOTHING_SECONDS, COMPONENT_SMOOTHING_SECONDS; 0: values jump, for comparison). */
   readonly smoothingSeconds?: number;
   readonly componentSmoothingSeconds?: number;
@@ -202,6 +213,23 @@ export interface DualSlotOptions {
 function isObject(x: unknown): x is Record<string, unknown> {
   return typeof x === 'object' && x !== null;
 }
+/**
+ * Bring a model made from `planned` to the values of `d` (same parts and wiring; edits made after
+ * the plan was built): one batched value change, switches and tube samples. Not per block.
+ */
+function applyDesignValues(model: SlotModel, planned: Design, d: Design): void {
+  const before = new Map(planned.parts.map((p) => [p.id, p]));
+  const updates: ValueUpdate[] = [];
+  for (const p of d.parts) {
+    const was = before.get(p.id);
+    if (was && JSON.stringify(was) === JSON.stringify(p)) continue;
+    if (p.kind === 'switch') model.setSwitch(p.id, p.closed);
+    else if (p.kind === 'tube') model.setTubeSample(p.id, p.sample);
+    else updates.push(...partValueUpdates(p));
+  }
+  if (updates.length > 0) model.setValues(updates);
+}
+
 const isSlot = (x: unknown): x is Slot => x === 'A' || x === 'B';
 const finite = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
 const errMsg = (e: unknown): string => (e instanceof Error ? e.message : String(e));
@@ -213,6 +241,7 @@ export class DualSlotEngine {
   private readonly nowMs: () => number;
   private readonly safetyMute: boolean;
   private readonly createModel: ModelFactory;
+  private readonly planner: Planner;
   private readonly slots: readonly [SlotState, SlotState];
   private readonly xfadeSamples: number;
   private readonly glideSamples: number;
@@ -252,12 +281,13 @@ export class DualSlotEngine {
     if (!(finite(fs) && fs >= 8000 && fs <= 384000)) throw new Error(`sample rate must be between 8000 and 384000 Hz (got ${String(fs)})`);
     this.sampleRateHz = fs;
     const f = options.factor ?? DEFAULT_LIVE_FACTOR;
-    if (!isOversamplingFactor(f)) throw new Error(`oversampling factor must be 1, 2, 4, 8, 16 or 32 (got ${String(f)})`);
+    if (!isOversamplingFactor(f)) throw new Error(`oversampling factor must be 1, 2, 4, 8, 16, 32, 64 or 128 (got ${String(f)})`);
     this.factorNow = f;
     this.post = options.post ?? (() => {});
     this.nowMs = options.nowMs ?? (() => Date.now());
     this.safetyMute = options.safetyMute ?? true;
-    this.createModel = options.createModel ?? circuitModel;
+    this.createModel = options.createModel ?? planModel;
+    this.planner = options.planner ?? livePlanner;
     this.slots = [new SlotState('A'), new SlotState('B')];
     this.xfadeSamples = Math.round(CROSSFADE_SECONDS * fs);
     this.glideSamples = Math.round((options.smoothingSeconds ?? SMOOTHING_SECONDS) * fs);
@@ -287,7 +317,9 @@ export class DualSlotEngine {
     return Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
   }
 
-  private error(message: string): void { this.post({ type: 'error', message }); }
+  private error(message: string, requestId?: number): void {
+    this.post(requestId === undefined ? { type: 'error', message } : { type: 'error', message, requestId });
+  }
 
   /** A message from the main thread (validated; bad ones are answered with an 'error' report). */
   handle(msg: unknown): void {
@@ -298,13 +330,48 @@ export class DualSlotEngine {
     try {
       this.applyUnsafe(msg, immediate);
     } catch (e) {
-      this.error(e instanceof DesignError ? `design rejected: ${e.message}` : errMsg(e));
+      const id = isObject(msg) && typeof msg.requestId === 'number' ? msg.requestId : undefined;
+      this.error(e instanceof DesignError ? `design rejected: ${e.message}` : errMsg(e), id);
+    }
+  }
+
+  /** The factor the slots will run at once pending changes are applied. */
+  private get targetFactor(): OversamplingFactor { return this.pendingFactor ?? this.factorNow; }
+
+  /** A received plan checked against this processor (or one built here for `design`). */
+  private planFor(design: Design, plan: unknown, factor: OversamplingFactor): SlotPlan {
+    if (plan === undefined) return this.planner(design, this.sampleRateHz, factor);
+    const p = validateSlotPlan(plan);
+    if (p.baseRateHz !== this.sampleRateHz || p.factor !== factor) {
+      throw new Error(`plan is for ${p.baseRateHz} Hz at ${p.factor}x, the processor runs ${this.sampleRateHz} Hz at ${factor}x`);
+    }
+    return p;
+  }
+
+  /** A slot to be swapped to `design` from `plan` at the next block boundary (or at once). */
+  private schedule(s: SlotState, design: Design, plan: SlotPlan, immediate: boolean, requestId: number | undefined): void {
+    s.pendingClear = false;
+    if (immediate) { this.build(s, design, plan, requestId); return; }
+    s.pending = design;
+    s.pendingPlan = plan;
+    s.pendingRequest = requestId;
+  }
+
+  /** Plans for both slots' present designs at `factor` (from the message, or built here). */
+  private plansFor(plans: SlotPlans | undefined, factor: OversamplingFactor): void {
+    if (plans !== undefined && !isObject(plans)) throw new Error('plans must be an object { A?, B? }');
+    for (const s of this.slots) {
+      const d = s.pending ?? s.design;
+      if (!d) continue;
+      const given: unknown = plans?.[s.name];
+      s.pendingPlan = this.planFor(d, given, factor);
+      s.pending = d;
     }
   }
 
   private applyUnsafe(raw: unknown, immediate: boolean): void {
     if (!isObject(raw) || typeof raw.type !== 'string') throw new Error('message must be an object with a "type"');
-    const msg = raw as ToProcessor;
+    const msg = raw as unknown as ToProcessor;
     const needSlot = (s: unknown): SlotState => {
       if (!isSlot(s)) throw new Error(`${msg.type}: slot must be "A" or "B" (got ${JSON.stringify(s)})`);
       return this.slot(s);
@@ -313,14 +380,13 @@ export class DualSlotEngine {
       case 'load-design': {
         const s = needSlot(msg.slot);
         const d = validateDesign(msg.design);
-        s.pendingClear = false;
-        if (immediate) this.build(s, d);
-        else s.pending = d;
+        this.schedule(s, d, this.planFor(d, msg.plan, this.targetFactor), immediate, msg.requestId);
         return;
       }
       case 'clear-slot': {
         const s = needSlot(msg.slot);
         s.pending = null;
+        s.pendingPlan = null;
         if (immediate) this.clear(s);
         else s.pendingClear = true;
         return;
@@ -328,7 +394,7 @@ export class DualSlotEngine {
       case 'set-part': {
         const s = needSlot(msg.slot);
         if (!isObject(msg.part) || typeof msg.part.id !== 'string') throw new Error('set-part: "part" must be a part with an "id"');
-        this.setPart(s, msg.part, immediate);
+        this.setPart(s, msg.part, immediate, msg.plan, msg.requestId);
         return;
       }
       case 'set-tube-sample': {
@@ -337,13 +403,15 @@ export class DualSlotEngine {
         const tube = base?.parts.find((p) => p.id === msg.tubeId);
         if (!tube || tube.kind !== 'tube') throw new Error(`set-tube-sample: slot ${s.name} has no tube "${String(msg.tubeId)}"`);
         if (!finite(msg.sample)) throw new Error('set-tube-sample: sample must be a number');
-        this.setPart(s, { ...tube, sample: msg.sample }, immediate);
+        this.setPart(s, { ...tube, sample: msg.sample }, immediate, undefined, msg.requestId);
         return;
       }
       case 'set-quality': {
-        if (!isOversamplingFactor(msg.factor)) throw new Error(`set-quality: factor must be 1, 2, 4, 8, 16 or 32 (got ${JSON.stringify(msg.factor)})`);
-        if (immediate) this.rebuildAll(msg.factor);
-        else if (msg.factor !== this.factorNow || this.pendingFactor !== null) this.pendingFactor = msg.factor;
+        if (!isOversamplingFactor(msg.factor)) throw new Error(`set-quality: factor must be 1, 2, 4, 8, 16, 32, 64 or 128 (got ${JSON.stringify(msg.factor)})`);
+        if (msg.factor === this.targetFactor && msg.factor === this.factorNow) return;
+        this.plansFor(msg.plans, msg.factor);
+        this.pendingFactor = msg.factor;
+        if (immediate) this.rebuildAll();
         return;
       }
       case 'monitor': {
@@ -389,15 +457,16 @@ export class DualSlotEngine {
         this.mute.to(msg.muted ? 0 : 1, immediate ? 0 : this.muteSamples);
         return;
       case 'reset':
-        if (immediate) this.resetAll();
-        else this.pendingReset = true;
+        this.plansFor(msg.plans, this.targetFactor);
+        this.pendingReset = true;
+        if (immediate) this.rebuildAll();
         return;
       default:
         throw new Error(`unknown message type ${JSON.stringify((msg as { type: unknown }).type)}`);
     }
   }
 
-  private setPart(s: SlotState, part: Part, immediate: boolean): void {
+  private setPart(s: SlotState, part: Part, immediate: boolean, plan: unknown, requestId: number | undefined): void {
     const base = s.pending ?? s.design;
     if (!base) throw new Error(`set-part: slot ${s.name} has no design (load one first)`);
     const old = base.parts.find((p) => p.id === part.id);
@@ -406,6 +475,8 @@ export class DualSlotEngine {
     if (JSON.stringify(old.nodes) !== JSON.stringify(part.nodes)) throw new Error(`set-part: ${part.id} changes its nodes; load a design to rewire`);
     const next = withPart(base, part);
     validateDesign(next);
+    const retyped = part.kind === 'tube' && old.kind === 'tube' && old.type !== part.type;
+    if (retyped) { this.schedule(s, next, this.planFor(next, plan, this.targetFactor), immediate, requestId); return; }
     if (s.pending) { s.pending = next; return; }
     s.design = next;
     const model = s.model;
@@ -415,11 +486,6 @@ export class DualSlotEngine {
         model.setSwitch(part.id, part.closed);
         return;
       case 'tube':
-        if (old.kind === 'tube' && old.type !== part.type) {
-          if (immediate) this.build(s, next);
-          else s.pending = next;
-          return;
-        }
         this.glideTo(s, part.id, part.sample, 0, immediate);
         return;
       case 'pot':
@@ -487,15 +553,21 @@ export class DualSlotEngine {
     if (linear) model.setValues(s.allUpdates);
   }
 
-  private build(s: SlotState, d: Design): boolean {
+  /**
+   * Swap a slot to a model instantiated from `plan` (no compile, no DC solve). If `design` has
+   * values the plan was not built with (edits since), they are applied as a value change.
+   */
+  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true): boolean {
     let model: SlotModel;
     try {
-      model = this.createModel(d, this.sampleRateHz, this.factorNow);
+      model = this.createModel(plan);
+      if (d !== plan.design) applyDesignValues(model, plan.design, d);
     } catch (e) {
-      this.error(`slot ${s.name}: could not compile "${d.name}": ${errMsg(e)}`);
+      this.error(`slot ${s.name}: could not start "${d.name}": ${errMsg(e)}`, requestId);
       return false;
     }
     s.model = model;
+    s.plan = plan;
     s.design = d;
     s.dc = model.outputDcVolts;
     s.faultReported = false;
@@ -518,12 +590,16 @@ export class DualSlotEngine {
     const tubes = tubesOf(d);
     s.tubeIds = tubes.map((t) => t.id);
     s.plateVolts = tubes.map(() => 0);
-    this.post({ type: 'loaded', slot: s.name, designName: d.name, factor: this.factorNow, latencySamples: model.latencySamples, tubeIds: s.tubeIds.slice() });
+    if (announce) {
+      const loaded: FromProcessor = { type: 'loaded', slot: s.name, designName: d.name, factor: this.factorNow, latencySamples: model.latencySamples, tubeIds: s.tubeIds.slice() };
+      this.post(requestId === undefined ? loaded : { ...loaded, requestId });
+    }
     return true;
   }
 
   private clear(s: SlotState): void {
     s.model = null;
+    s.plan = null;
     s.design = null;
     s.glides = [];
     s.glideById = new Map();
@@ -533,28 +609,38 @@ export class DualSlotEngine {
     s.pendingClear = false;
   }
 
-  private rebuildAll(f: OversamplingFactor): void {
-    this.factorNow = f;
-    this.dryDelay = this.latencyFor(f);
-    this.dryRing.fill(0);
+  /** Apply a pending quality change or reset: every slot with a pending plan is swapped. */
+  private rebuildAll(): void {
+    const f = this.pendingFactor ?? this.factorNow;
+    if (f !== this.factorNow) {
+      this.factorNow = f;
+      this.dryDelay = this.latencyFor(f);
+      this.dryRing.fill(0);
+    }
+    if (this.pendingReset) this.limiter.reset();
+    this.pendingFactor = null;
+    this.pendingReset = false;
     for (const s of this.slots) {
-      const d = s.pending ?? s.design;
+      const d = s.pending, plan = s.pendingPlan;
       s.pending = null;
-      if (d) this.build(s, d);
+      s.pendingPlan = null;
+      if (d && plan) this.build(s, d, plan, s.pendingRequest);
+      s.pendingRequest = undefined;
     }
   }
 
-  private resetAll(): void {
-    for (const s of this.slots) this.recover(s);
-    this.limiter.reset();
-  }
-
-  /** Back to the operating point; false (and the slot emptied) if that fails. */
+  /**
+   * After a NaN/Inf: the slot's plan instantiated again (its operating point), with the present
+   * values applied; false (and the slot emptied) if that fails.
+   */
   private recover(s: SlotState): boolean {
-    if (!s.model) return true;
+    const plan = s.plan, d = s.design;
+    if (!s.model || !plan || !d) return true;
     try {
-      s.model.reset();
-      s.dc = s.model.outputDcVolts;
+      const model = this.createModel(plan);
+      applyDesignValues(model, plan.design, d);
+      s.model = model;
+      s.dc = model.outputDcVolts;
       for (const g of s.glides) { g.active = false; g.from = g.to = g.value; }
       return true;
     } catch (e) {
@@ -569,24 +655,26 @@ export class DualSlotEngine {
     return g.value > 0 || g.target > 0;
   }
 
-  /** Block-boundary work: pending loads, quality changes, resets. */
+  /** Block-boundary work: pending loads, quality changes, resets (plans instantiated, nothing compiled). */
   private boundary(): void {
     const gf = this.globalFade;
     if (this.pendingFactor !== null || this.pendingReset) {
       if (gf.value === 0 && !gf.moving) {
-        if (this.pendingFactor !== null) this.rebuildAll(this.pendingFactor);
-        if (this.pendingReset) this.resetAll();
-        this.pendingFactor = null;
-        this.pendingReset = false;
+        this.rebuildAll();
         gf.to(1, this.xfadeSamples);
       } else if (gf.target !== 0) gf.to(0, this.xfadeSamples);
+      return;
     }
     for (const s of this.slots) {
-      if (s.pending || s.pendingClear) {
+      if ((s.pending && s.pendingPlan) || s.pendingClear) {
         if (s.fade.target !== 0) s.fade.to(0, this.audible(s) && s.model ? this.xfadeSamples : 0);
         if (s.fade.value === 0 && !s.fade.moving) {
           if (s.pendingClear) this.clear(s);
-          else if (s.pending) { const d = s.pending; s.pending = null; this.build(s, d); }
+          else if (s.pending && s.pendingPlan) {
+            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest;
+            s.pending = null; s.pendingPlan = null; s.pendingRequest = undefined;
+            this.build(s, d, plan, id);
+          }
           s.fade.to(1, this.audible(s) ? this.xfadeSamples : 0);
         }
       }

@@ -9,8 +9,8 @@ import {
   korenPentodeInto, korenTriodeInto,
   type GridCurrentParams, type KorenPentodeParams, type KorenTriodeParams,
 } from './models.ts';
-import { CompiledGridLaw, isInitialVelocity, type DeviceGridLaw } from './grid-laws.ts';
-import { gridTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
+import { CompiledGridLaw, type DeviceGridLaw } from './grid-laws.ts';
+import { gridLawTable, pentodeTables, triodeTables, type HermiteTable, type PentodeTables, type TriodeTables } from './tables.ts';
 
 const NO_GRID: GridCurrentParams = { gg: 0, cg: 1, xi: 1, ig0: 0 };
 
@@ -18,8 +18,8 @@ export type TubeFunctions = 'exact' | 'table';
 
 /**
  * What both tube devices share: plate-law parameters, the grid law (compiled once), the sample
- * factor and the optional grid table. The Hermite grid table covers the Dempwolf-Zolzer law only;
- * the initial-velocity law is one exp below its onset and is always evaluated exactly.
+ * factor and the optional grid table ('table': whatever the law, tabulated through the generic
+ * one-dimensional path of tables.ts; accuracy in tests/live-tables.test.ts).
  */
 abstract class TubeDeviceBase<P extends KorenTriodeParams> {
   readonly params: P;
@@ -36,13 +36,15 @@ abstract class TubeDeviceBase<P extends KorenTriodeParams> {
     this.sample = sample;
     this.functions = functions;
     this.gridLaw = grid ? new CompiledGridLaw(grid) : null;
-    this.gridTab = functions === 'table' && grid && !isInitialVelocity(grid) ? gridTable(grid) : null;
+    // 'table': any grid law through the generic one-dimensional path (tables.ts gridLawTable)
+    const law = this.gridLaw;
+    this.gridTab = functions === 'table' && grid && law ? gridLawTable(JSON.stringify(grid), (x, xo, out, o) => law.into(x, xo, out, o)) : null;
   }
 
   /** Grid current and slope at x[0] = Vgk into w[o], w[o+1]. */
   protected gridInto(x: Float64Array, w: Float64Array, o: number): void {
     const g = this.gridLaw;
-    if (g === null) { w[o] = 0; w[o + 1] = 0; } else if (!this.gridTab || !this.gridTab.lookup(x[0]!, w, o)) g.into(x, 0, w, o);
+    if (g === null) { w[o] = 0; w[o + 1] = 0; } else if (!this.gridTab || !this.gridTab.lookupFrom(x, 0, w, o)) g.into(x, 0, w, o);
   }
 }
 
@@ -64,7 +66,7 @@ export class TriodeDevice extends TubeDeviceBase<KorenTriodeParams> implements R
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
     const w = this.w, x = this.x;
     x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = this.sample;
-    if (!this.tables || !this.tableTriode(x[0]!, x[1]!)) korenTriodeInto(this.params, x, 0, w, 0);
+    if (!this.tables || !this.tableTriode()) korenTriodeInto(this.params, x, 0, w, 0);
     this.gridInto(x, w, 3);
     i[o] = w[3]!;
     i[o + 1] = w[0]!;
@@ -74,12 +76,13 @@ export class TriodeDevice extends TubeDeviceBase<KorenTriodeParams> implements R
   }
 
   /** Table path into w[0..2]; false when outside the tables (caller uses the exact equations). */
-  private tableTriode(vgk: number, vpk: number): boolean {
-    const t = this.tables!, w = this.w, p = this.params;
+  private tableTriode(): boolean {
+    const t = this.tables!, w = this.w, p = this.params, x = this.x;
+    const vgk = x[0]!, vpk = x[1]!;
     if (!(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; return true; }
     const s = Math.sqrt(p.kvb + vpk * vpk);
-    const z = p.kp * (1 / p.mu + vgk / s);
-    if (!t.w.lookup(vpk, w, 5) || !t.g.lookup(z, w, 3)) return false;
+    w[7] = p.kp * (1 / p.mu + vgk / s); // z, read by the table from the array (no boxing)
+    if (!t.w.lookupFrom(x, 1, w, 5) || !t.g.lookupFrom(w, 7, w, 3)) return false;
     const W = this.sample * w[5]!, dW = this.sample * w[6]!, G = w[3]!, dG = w[4]!;
     w[0] = W * G;
     w[1] = W * dG * (p.kp / s);
@@ -106,7 +109,7 @@ export class PentodeDevice extends TubeDeviceBase<KorenPentodeParams> implements
   evaluate(v: Float64Array, o: number, i: Float64Array, d: Float64Array, dOff: number): void {
     const w = this.w, x = this.x;
     x[0] = v[o]!; x[1] = v[o + 1]!; x[2] = v[o + 2]!; x[3] = this.sample;
-    if (!this.tables || !this.tablePentode(x[0]!, x[1]!, x[2]!)) korenPentodeInto(this.params, x, 0, w, 0);
+    if (!this.tables || !this.tablePentode()) korenPentodeInto(this.params, x, 0, w, 0);
     this.gridInto(x, w, 7);
     i[o] = w[7]!;
     i[o + 1] = w[0]!;
@@ -117,16 +120,18 @@ export class PentodeDevice extends TubeDeviceBase<KorenPentodeParams> implements
   }
 
   /** Table path into w[0..6] (korenPentodeInto layout); false when outside the tables. */
-  private tablePentode(vgk: number, vpk: number, vsk: number): boolean {
-    const t = this.tables!, w = this.w, p = this.params, sc = this.sample;
+  private tablePentode(): boolean {
+    const t = this.tables!, w = this.w, p = this.params, sc = this.sample, x = this.x;
+    const vgk = x[0]!, vpk = x[1]!, vsk = x[2]!;
     const base = vgk + vsk / p.mu;
     if (base > 0) {
-      if (!t.s.lookup(base, w, 9)) return false;
+      w[15] = base;
+      if (!t.s.lookupFrom(w, 15, w, 9)) return false;
       w[4] = sc * w[9]!; w[5] = sc * w[10]!; w[6] = (sc * w[10]!) / p.mu;
     } else { w[4] = 0; w[5] = 0; w[6] = 0; }
     if (!(vsk > 0) || !(vpk > 0)) { w[0] = 0; w[1] = 0; w[2] = 0; w[3] = 0; return true; }
-    const z = p.kp * (1 / p.mu + vgk / vsk);
-    if (!t.w.lookup(vsk, w, 9) || !t.g.lookup(z, w, 11) || !t.a.lookup(vpk, w, 13)) return false;
+    w[15] = p.kp * (1 / p.mu + vgk / vsk); // z
+    if (!t.w.lookupFrom(x, 2, w, 9) || !t.g.lookupFrom(w, 15, w, 11) || !t.a.lookupFrom(x, 1, w, 13)) return false;
     const W = sc * w[9]!, dW = sc * w[10]!, G = w[11]!, dG = w[12]!, A = w[13]!, dA = w[14]!;
     const WG = W * G;
     w[0] = WG * A;

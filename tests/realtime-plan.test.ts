@@ -1,0 +1,165 @@
+// Engines built off the audio thread (src/dsp/circuit/plan.ts) and the processor's use of them
+// (src/dsp/realtime/dual-slot-engine.ts): process() instantiates plans, never compiles a circuit
+// or solves a DC point; replies are matched to requests by id.
+import { afterEach, describe, expect, it } from 'vitest';
+import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
+import { designCircuit, designToNetlist, withPart, type Design, type Part, type TubePart } from '../src/dsp/circuit/design.ts';
+import { CircuitEngine } from '../src/dsp/circuit/engine.ts';
+import { LinearNetworkCompiler } from '../src/dsp/wdf/root-network.ts';
+import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, planTransferables } from '../src/dsp/circuit/plan.ts';
+import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
+import { DualSlotEngine, livePlanner, type Planner } from '../src/dsp/realtime/dual-slot-engine.ts';
+import type { FromProcessor, ToProcessor } from '../src/dsp/realtime/messages.ts';
+import { solveOperatingPoint } from './reference/mna-reference.ts';
+
+const FS = 48000;
+const PT = TEMPLATES['pentode-triode']!;
+const TT = TEMPLATES['triode-triode']!;
+const SP = TEMPLATES['single-pentode']!;
+
+function tube(d: Design, id: string): TubePart {
+  const p = d.parts.find((q) => q.id === id);
+  if (!p || p.kind !== 'tube') throw new Error(`no tube ${id}`);
+  return p;
+}
+
+describe('slot plans', () => {
+  it('a plan that crossed a thread (structured clone) runs exactly like an engine compiled in place', () => {
+    for (const d of [PT, TT, SP]) {
+      for (const tubeFunctions of ['exact', 'table'] as const) {
+        const plan = structuredClone(buildSlotPlan(d, FS, 4, { tubeFunctions }));
+        const fromPlan = instantiateSlotPlan(validateSlotPlan(plan));
+        const direct = new OversampledCircuit(designCircuit(d), FS, 4, undefined, { tubeFunctions });
+        for (let k = 0; k < 2000; k++) {
+          const x = 0.8 * Math.sin((2 * Math.PI * 440 * k) / FS);
+          expect(fromPlan.processSample(x)).toBe(direct.processSample(x));
+        }
+      }
+    }
+  });
+
+  it('carries the DC operating point of the independent nodal solver (exact laws, within 0.1 %)', () => {
+    // tests/reference/mna-reference.ts: written from the netlist spec only (full-Newton MNA)
+    for (const d of [PT, TT, SP]) {
+      const plan = buildSlotPlan(d, FS, 4, { tubeFunctions: 'exact' });
+      const ref = solveOperatingPoint(designToNetlist(d));
+      for (const [node, v] of Object.entries(ref.nodes)) {
+        const got = plan.engine.operatingPoint.nodes[node];
+        expect(got, node).toBeDefined();
+        expect(Math.abs(got! - v)).toBeLessThanOrEqual(1e-3 * Math.max(1, Math.abs(v)));
+      }
+    }
+  });
+
+  it('refuses malformed plans with a one-line reason', () => {
+    const plan = buildSlotPlan(TT, FS, 2);
+    expect(() => validateSlotPlan({ ...plan, kind: 'x' })).toThrow(/not a slot plan: "kind"/);
+    const m = plan.engine.matrices;
+    const short = { ...plan, engine: { ...plan.engine, matrices: { ...m, F: m.F.subarray(1) } } };
+    expect(() => validateSlotPlan(short)).toThrow(/wrong size/);
+    const nan = m.E.slice(); nan[0] = Number.NaN;
+    expect(() => validateSlotPlan({ ...plan, engine: { ...plan.engine, matrices: { ...m, E: nan } } })).toThrow(/not finite/);
+    expect(planTransferables(plan).length).toBe(7 + plan.tables.length);
+    expect(plan.tables.length).toBeGreaterThan(0);
+  });
+});
+
+describe('the processor only instantiates plans', () => {
+  const restore: (() => void)[] = [];
+  afterEach(() => { for (const r of restore.splice(0)) r(); });
+
+  /** Count calls of a prototype method made while `inside(this)` is true. */
+  function countInside<T extends object>(proto: T, name: keyof T & string, inside: (self: object) => boolean): { n: number } {
+    const c = { n: 0 };
+    const orig = proto[name] as unknown as (...a: unknown[]) => unknown;
+    (proto as Record<string, unknown>)[name] = function (this: object, ...a: unknown[]) {
+      if (inside(this)) c.n++;
+      return orig.apply(this, a);
+    };
+    restore.push(() => { (proto as Record<string, unknown>)[name] = orig; });
+    return c;
+  }
+
+  it('design loads, tube changes, quality changes and resets: no DC solve, no matrix compile, no plan built inside process()', () => {
+    let inProcess = false;
+    // a DC solve is an operatingPoint() call with no cached point (the engine's private `op`)
+    const dcSolves = countInside(CircuitEngine.prototype, 'operatingPoint', (self) => inProcess && Reflect.get(self, 'op') === null);
+    const compiles = countInside(LinearNetworkCompiler.prototype, 'compile', () => inProcess);
+    let plansInProcess = 0, plansOutside = 0;
+    const planner: Planner = (d, fs, f) => { if (inProcess) plansInProcess++; else plansOutside++; return livePlanner(d, fs, f); };
+    const posted: FromProcessor[] = [];
+    const e = new DualSlotEngine({ sampleRateHz: FS, planner, meterHz: 0, post: (m) => posted.push(m) });
+    const out = new Float32Array(128), inp = new Float32Array(128);
+    const run = (blocks: number) => {
+      for (let b = 0; b < blocks; b++) {
+        for (let k = 0; k < 128; k++) inp[k] = 0.3 * Math.sin(k * 0.05 + b);
+        inProcess = true;
+        e.process(inp, out, 128);
+        inProcess = false;
+      }
+    };
+    const session: ToProcessor[] = [
+      { type: 'load-design', slot: 'A', design: PT, requestId: 1 },
+      { type: 'load-design', slot: 'B', design: TT, requestId: 2 },
+      { type: 'set-part', slot: 'A', part: { ...tube(PT, 'V2'), type: '12AT7' }, requestId: 3 },
+      { type: 'set-part', slot: 'B', part: { ...tube(TT, 'V2'), type: '12AU7' }, requestId: 4 },
+      { type: 'set-quality', factor: 2, requestId: 5 },
+      { type: 'monitor', target: 'B' },
+      { type: 'load-design', slot: 'B', design: SP, requestId: 6 },
+      { type: 'set-quality', factor: 4, requestId: 7 },
+      { type: 'reset', requestId: 8 },
+    ];
+    for (const m of session) { e.handle(m); run(6); }
+    run(20);
+    expect(posted.filter((m) => m.type === 'error')).toEqual([]);
+    expect(posted.filter((m) => m.type === 'loaded').length).toBeGreaterThanOrEqual(6);
+    expect(plansOutside).toBeGreaterThanOrEqual(6);
+    expect(plansInProcess).toBe(0);
+    expect(dcSolves.n).toBe(0);
+    expect(compiles.n).toBe(0);
+    expect(e.factor).toBe(4);
+    expect(e.design('B')?.name).toBe(SP.name);
+  });
+
+  it('a plan from another thread is used as sent; a plan for another rate or factor is refused', () => {
+    const posted: FromProcessor[] = [];
+    let built = 0;
+    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m), planner: (d, fs, f) => { built++; return livePlanner(d, fs, f); } });
+    const plan = structuredClone(buildSlotPlan(TT, FS, 4));
+    e.handle({ type: 'load-design', slot: 'A', design: TT, plan, requestId: 11 });
+    e.handle({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, 44100, 4), requestId: 12 });
+    e.handle({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, FS, 2), requestId: 13 });
+    e.process(new Float32Array(128), new Float32Array(128), 128);
+    expect(built).toBe(0);
+    const errs = posted.flatMap((m) => (m.type === 'error' ? [m] : []));
+    expect(errs.map((m) => m.requestId)).toEqual([12, 13]);
+    expect(errs[0]!.message).toMatch(/plan is for 44100 Hz at 4x, the processor runs 48000 Hz at 4x/);
+    expect(posted.filter((m) => m.type === 'loaded').map((m) => (m.type === 'loaded' ? m.requestId : -1))).toEqual([11]);
+  });
+
+  it('edits made while a load is pending are applied to the instantiated plan', () => {
+    // reference: the same design compiled directly with the edit (the engine's own DC solve)
+    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, smoothingSeconds: 0, componentSmoothingSeconds: 0 });
+    e.handle({ type: 'load-design', slot: 'A', design: TT });
+    const r = TT.parts.find((p) => p.kind === 'resistor')!;
+    const edit: Part = { ...r, ohms: (r.kind === 'resistor' ? r.ohms : 1) * 1.5 } as Part;
+    e.handle({ type: 'set-part', slot: 'A', part: edit });
+    expect(e.design('A')).toEqual(withPart(TT, edit));
+  });
+});
+
+describe('request ids', () => {
+  it('a refused set-part on B answers B\'s id and leaves A\'s pending load to complete with its own', () => {
+    const posted: FromProcessor[] = [];
+    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m) });
+    e.handle({ type: 'load-design', slot: 'B', design: TT, requestId: 1 });
+    e.process(new Float32Array(128), new Float32Array(128), 128);
+    posted.length = 0;
+    e.handle({ type: 'load-design', slot: 'A', design: PT, requestId: 2 });
+    e.handle({ type: 'set-part', slot: 'B', part: { ...tube(TT, 'V1'), nodes: { plate: 'x', grid: 'y', cathode: 'z' } }, requestId: 3 });
+    for (let b = 0; b < 4; b++) e.process(new Float32Array(128), new Float32Array(128), 128);
+    const err = posted.find((m) => m.type === 'error');
+    expect(err).toMatchObject({ type: 'error', requestId: 3 });
+    expect(posted.find((m) => m.type === 'loaded')).toMatchObject({ type: 'loaded', slot: 'A', requestId: 2 });
+  });
+});
