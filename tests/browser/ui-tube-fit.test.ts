@@ -51,10 +51,10 @@ describe('tube file import', () => {
     const p = await fresh();
     await p.page.getByTestId('demo-select').selectOption('boiler-fifths');
     await p.page.getByText(/Boiler Fifths · 5\.0 s/).waitFor();
-    await expect.poll(() => p.page.evaluate(() => { const v = (window as unknown as Win).__valvewright; return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A); })).toBe(true);
+    await expect.poll(() => p.page.evaluate(() => { const v = (window as unknown as Win).__valvewright; return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A); }), { timeout: 60_000 }).toBe(true);
     const before = await render(p);
     await p.page.getByLabel('import tube file').setInputFiles({ name: 'HID.json', mimeType: 'application/json', buffer: Buffer.from(tubeFile) });
-    await expect.poll(() => p.page.getByTestId('tube-fit-point').count()).toBe(pointCount);
+    await expect.poll(() => p.page.getByTestId('tube-fit-point').count(), { timeout: 30_000 }).toBe(pointCount);
     expect(await p.page.locator('[data-testid="tube-fit-plot"] polyline').count()).toBe(3); // Vgk 0, -1, -2
     await expect.poll(() => p.page.getByTestId('tube-fit-summary').textContent()).toMatch(/HID63-UI \(triode.*12 points/);
     await p.page.getByTestId('tube-fit-panel').screenshot({ path: join(SCREENSHOT_DIR, 'tube-fit-panel.png') });
@@ -63,14 +63,14 @@ describe('tube file import', () => {
       const v = (window as unknown as Win).__valvewright;
       const s = v.slots().A;
       return s.parts.find((x) => x.id === 'V2')?.type === 'HID63-UI' && v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(s);
-    })).toBe(true);
+    }), { timeout: 60_000 }).toBe(true);
     // the audio thread compiled the design with the imported type: an offline render comes back finite
     // (and it sounds different from the 12AX7 it replaced)
     const out = await render(p);
     expect(Math.max(...out.map(Math.abs))).toBeGreaterThan(1e-3);
     const diff = Math.sqrt(out.reduce((acc, x, i) => acc + (x - before[i]!) ** 2, 0) / out.length);
     expect(diff).toBeGreaterThan(1e-4);
-    await expect.poll(() => p.page.getByText('V2 · HID63-UI').count()).toBeGreaterThan(0);
+    await expect.poll(() => p.page.getByText('V2 · HID63-UI').count(), { timeout: 30_000 }).toBeGreaterThan(0);
     expect(p.consoleErrors).toEqual([]);
   });
   it('a file that is not a tube file is refused with one clear line', async () => {
