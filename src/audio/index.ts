@@ -110,6 +110,8 @@ export interface AudioEngine {
   setQuality(factor: OversamplingFactor): void;
   setInputCalibration(voltsAtFullScale: number): void;
   setOutputScale(slot: Slot, voltsAtFullScale: number): void;
+  /** Live A/B loudness match (B follows A by its measured loudness; the meter report carries the offset). */
+  setLoudnessMatch(on: boolean): void;
   setOutputLevel(db: number): void;
   setLimiter(enabled: boolean): void;
   setMuted(muted: boolean): void;
@@ -347,6 +349,11 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   let stream: MediaStream | null = null;
   let streamNode: MediaStreamAudioSourceNode | null = null;
   let splitter: ChannelSplitterNode | null = null;
+  // the live input before its mute gain: the input meter reads it while live input is muted, so
+  // the interface gain can be set before anything is heard
+  const inputTap = raw.createAnalyser();
+  inputTap.fftSize = 2048;
+  const tapBuf = new Float32Array(inputTap.fftSize);
   let liveChannels = 0;
   let liveMuted = true;
 
@@ -387,6 +394,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     setQuality(factor) { state.factor = factor; send({ type: 'set-quality', factor }); },
     setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
     setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
+    setLoudnessMatch(on) { send({ type: 'set-loudness-match', on }); },
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
     setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
     setMuted(muted) {
@@ -473,6 +481,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       liveChannels = channels;
       if (channel === 'mix') {
         Tone.connect(streamNode, liveGain);
+        streamNode.connect(inputTap);
         if (takeNode) streamNode.connect(takeNode);
       } else {
         // one channel of the interface on its own (a guitar on input 2 would otherwise come in
@@ -480,6 +489,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
         splitter = raw.createChannelSplitter(2);
         streamNode.connect(splitter);
         Tone.connect(splitter, liveGain, channel - 1, 0);
+        splitter.connect(inputTap, channel - 1, 0);
         if (takeNode) splitter.connect(takeNode, channel - 1, 0);
       }
       liveMuted = true;
@@ -550,7 +560,12 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     onReport(l) { listeners.add(l); return () => listeners.delete(l); },
     get latestMeter() { return latestMeter; },
     levels() {
-      const r = { inputVolts: peakIn, outputDbfs: peakOutDb };
+      let tapped = 0;
+      if (stream && liveMuted) {
+        inputTap.getFloatTimeDomainData(tapBuf);
+        for (let k = 0; k < tapBuf.length; k++) { const a = Math.abs(tapBuf[k]!); if (a > tapped) tapped = a; }
+      }
+      const r = { inputVolts: Math.max(peakIn, tapped * state.inputVolts), outputDbfs: peakOutDb };
       peakIn = 0; peakOutDb = -200;
       return r;
     },

@@ -1,14 +1,14 @@
 // AudioPort over the real-time engine of src/audio (Tone.js graph around the circuit worklet).
 // The engine is created on the first call that needs sound (a user gesture); settings made
 // before that are kept and applied then.
-import { designCircuit, type Design, type Part } from '../dsp/circuit/design.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, designCircuit, withVolumeFull, type Design, type Part } from '../dsp/circuit/design.ts';
+import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
 import type { Take } from '../audio/take.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
-import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
 
 const SLOTS: readonly Slot[] = ['A', 'B'];
@@ -31,16 +31,20 @@ export class EnginePort implements AudioPort {
   private creating: Promise<AudioEngine> | null = null;
   private designs: Partial<Record<Slot, Design>> = {};
   private sent: Partial<Record<Slot, Design>> = {};
+  /**
+   * Each slot's output scale: its design with the volume fully clockwise (so the knob is heard),
+   * levelled at 1 kHz. The live match then measures and takes out what is left between them.
+   */
   private scales: Partial<Record<Slot, number>> = {};
   private monitor: Monitor = 'A';
   private matched = true;
-  private calibration = 0.2;
-  private factor: OversamplingFactor = 2;
+  private calibration = DEFAULT_INPUT_VOLTS_AT_FULL_SCALE;
+  private factor: OversamplingFactor = DEFAULT_LIVE_FACTOR;
   private clip: SourceClip | null = null;
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, matchGainDb: 0, outputLufs: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
   private readonly guard = new OverloadGuard(this.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private sendsInFlight = 0;
@@ -66,6 +70,7 @@ export class EnginePort implements AudioPort {
       this.creating = createAudioEngine({ factor: this.factor, inputVoltsAtFullScale: this.calibration }).then(async (e) => {
         this.engine = e;
         e.setMonitor(this.monitor);
+        e.setLoudnessMatch(this.matched);
         // the engine suspends its context when idle: show it (and the load as unknown)
         e.onIdleChange((idle) => { if (idle !== this.status.idle) this.emit(idle ? { idle: true, loadFraction: null } : { idle: false }); });
         e.onReport((m) => {
@@ -75,7 +80,10 @@ export class EnginePort implements AudioPort {
           else if (m.type === 'meter') {
             const now = performance.now();
             this.observeLoad(m.loadFraction, now);
-            if (now - this.lastStatusMs > 500) { this.lastStatusMs = now; this.emit({ loadFraction: m.loadFraction, playing: e.playing }); }
+            if (now - this.lastStatusMs > 500) {
+              this.lastStatusMs = now;
+              this.emit({ loadFraction: m.loadFraction, playing: e.playing, offsetDb: m.matchOffsetDb ?? null, matchGainDb: m.matchGainDb ?? 0, outputLufs: m.outputLufs ?? null });
+            }
           }
         });
         for (const s of SLOTS) await this.sendDesign(s);
@@ -110,20 +118,15 @@ export class EnginePort implements AudioPort {
   }
 
   private outputScale(slot: Slot): number {
-    const own = this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(this.designs[slot]!), 48000, this.calibration));
-    if (this.matched || slot === 'A') return own;
-    return this.scales.A ?? own;
+    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.calibration));
   }
 
-  /** Re-estimate both slots' output scalings (loudness match) a little after edits. */
+  /** Re-estimate both slots' output scales a little after edits (the live match follows the sound itself). */
   private releveling(): void {
     if (this.levelTimer) clearTimeout(this.levelTimer);
     this.levelTimer = setTimeout(() => {
       this.levelTimer = null;
       this.scales = {};
-      for (const s of SLOTS) if (this.designs[s]) this.outputScale(s);
-      const a = this.scales.A, b = this.scales.B;
-      this.emit({ offsetDb: a && b ? offsetDb(a, b) : null });
       if (this.engine) for (const s of SLOTS) if (this.designs[s]) this.engine.setOutputScale(s, this.outputScale(s));
     }, 250);
   }
@@ -139,7 +142,7 @@ export class EnginePort implements AudioPort {
   }
 
   setMonitor(target: Monitor): void { this.monitor = target; this.engine?.setMonitor(target); }
-  setLoudnessMatch(on: boolean): void { this.matched = on; this.releveling(); }
+  setLoudnessMatch(on: boolean): void { this.matched = on; this.engine?.setLoudnessMatch(on); }
   setInputCalibration(v: number): void { if (this.calibration === v) return; this.calibration = v; this.engine?.setInputCalibration(v); this.releveling(); }
   setQuality(f: OversamplingFactor): void {
     this.factor = f;
