@@ -130,7 +130,7 @@ describe('operating points of whole stages', () => {
 });
 
 // The 6AN8P model posted in the diyAudio "Vacuum Tube SPICE Models" thread (p. 141; traced with
-// D. Nizhegorodov's paint_kip): its plate-current core written out here from the published
+// the paint_kip tracer of dmitrynizh.com): its plate-current core written out here from the published
 // equation and numbers (MU 45, EX 1.391, KG1 621.41, KP 126.12, KVB 7.2, VCT 0.2134, KNEE 17.21).
 const published6an8Plate = (vgk: number, vpk: number, vsk: number) => {
   const e1 = (vsk / 126.12) * Math.log1p(Math.exp(126.12 * (1 / 45 + (0.2134 + vgk) / Math.sqrt(7.2 + vsk * vsk))));
