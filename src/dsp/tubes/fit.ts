@@ -5,7 +5,7 @@
 //   triode:  Koren triode (mu, ex, kg1, kp, kvb) to (Vgk, Vpk, Ip)
 //   pentode: Koren pentode (mu, ex, kg1, kg2, kp, kvb) to (Vgk, Vpk, Vsk, Ip) and, where given, Is
 //   grid:    initial-velocity law (gg, xi, cathodeKelvin, onsetVolts) to the rows that give Ig
-import { BOLTZMANN_VOLTS_PER_KELVIN, type InitialVelocityLaw } from './grid-laws.ts';
+import { compileInitialVelocity, initialVelocityGridInto, type InitialVelocityLaw } from './grid-laws.ts';
 import { IV_DEFAULT_GRID } from './library.ts';
 import { korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes, type KorenPentodeParams, type KorenTriodeParams } from './models.ts';
 
@@ -232,10 +232,12 @@ export function fitPentode(points: readonly FitPoint[], randomStarts = 40, kg2De
   };
 }
 
-/** The initial-velocity law at Vgk (same equations as grid-laws.ts, written out for the fit). */
+const ivIn = new Float64Array(1), ivOut = new Float64Array(2);
+/** The initial-velocity law at Vgk (grid-laws.ts, the one implementation of its equations). */
 export function initialVelocityAmps(g: Omit<InitialVelocityLaw, 'name'>, vgk: number): number {
-  const vt = BOLTZMANN_VOLTS_PER_KELVIN * g.cathodeKelvin, xv = g.xi * vt, u = vgk - g.onsetVolts;
-  return u <= 0 ? g.gg * Math.pow(xv, g.xi) * Math.exp(u / vt) : g.gg * Math.pow(u + xv, g.xi);
+  ivIn[0] = vgk;
+  initialVelocityGridInto(compileInitialVelocity(g), ivIn, 0, ivOut, 0);
+  return ivOut[0]!;
 }
 
 /** Fit the initial-velocity grid law to the rows that give Ig (at least 4, spanning the onset for a meaningful temperature). */
