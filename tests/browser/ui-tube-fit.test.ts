@@ -71,8 +71,11 @@ describe('tube file import', () => {
     const diff = Math.sqrt(out.reduce((acc, x, i) => acc + (x - before[i]!) ** 2, 0) / out.length);
     expect(diff).toBeGreaterThan(1e-4);
     await expect.poll(() => p.page.getByText('V2 · HID63-UI').count(), { timeout: 30_000 }).toBeGreaterThan(0);
+    // the part editor shows the imported type as V2's type
+    await p.page.locator('[data-part="V2"]').click();
+    await expect.poll(() => p.page.getByLabel('Type').inputValue(), { timeout: 30_000 }).toBe('HID63-UI');
     expect(p.consoleErrors).toEqual([]);
-  });
+  }, 240_000);
   it('a file that is not a tube file is refused with one clear line', async () => {
     const p = await fresh();
     await p.page.getByLabel('import tube file').setInputFiles({ name: 'bad.json', mimeType: 'application/json', buffer: Buffer.from('{"schema":"valvewright.design.v1"}') });
