@@ -7,7 +7,8 @@ import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/ro
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { RootAverager, type AveragingOptions } from '../wdf/averaged-root.ts';
 import { GridLawLimiter, PlateLawLimiter, type StepLimiter } from '../wdf/junction-limit.ts';
-import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
+import type { PentodeDevice, TriodeDevice, TubeFunctions } from '../tubes/devices.ts';
+import { tubeDevice } from '../tubes/registry.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
 
@@ -179,6 +180,24 @@ function checkValueRanges(circuit: EngineCircuit | Netlist): void {
   }
 }
 
+/**
+ * Junction limiting for a tube's root ports (wdf/junction-limit.ts): its grid law's exponential
+ * tail and its Koren plate law's softplus tail. `offset`: its grid port; plate next, screen after.
+ */
+function tubeLimiters(e: NetTube, offset: number): StepLimiter[] {
+  const out: StepLimiter[] = [];
+  const gl = e.gridCurrent;
+  if (gl && gl.name === 'dempwolf-zolzer' && gl.gg > 0) out.push(new GridLawLimiter(offset, gl.cg * gl.xi));
+  else if (gl && gl.name === 'initial-velocity') {
+    // Vt = k T / q (Boltzmann constant and elementary charge, exact in SI since 2019)
+    out.push(new GridLawLimiter(offset, 1 / ((1.380649e-23 * gl.cathodeKelvin) / 1.602176634e-19), gl.onsetVolts));
+  }
+  const mo = e.model;
+  if (e.kind === 'pentode' && e.model.name === 'koren-pentode') out.push(new PlateLawLimiter(offset, offset + 2, true, mo.kp, mo.mu, mo.kvb, mo.ex));
+  else if (e.kind === 'triode' && e.model.name === 'koren-triode') out.push(new PlateLawLimiter(offset, offset + 1, false, mo.kp, mo.mu, mo.kvb, mo.ex));
+  return out;
+}
+
 interface TubeSlot {
   readonly el: NetTube;
   readonly device: TriodeDevice | PentodeDevice;
@@ -306,21 +325,9 @@ export class CircuitEngine {
         const k = idx(e.nodes.cathode);
         const offset = this.nlPorts.length;
         this.nlPorts.push({ a: idx(e.nodes.grid), b: k }, { a: idx(e.nodes.plate), b: k });
-        let device: TriodeDevice | PentodeDevice;
-        if (e.kind === 'pentode') {
-          this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
-          device = new PentodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
-        } else device = new TriodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
-        const gl = e.gridCurrent;
-        if (gl && gl.name === 'dempwolf-zolzer' && gl.gg > 0) this.limiters.push(new GridLawLimiter(offset, gl.cg * gl.xi));
-        else if (gl && gl.name === 'initial-velocity') {
-          // Vt = k T / q (Boltzmann constant and elementary charge, exact in SI since 2019)
-          this.limiters.push(new GridLawLimiter(offset, 1 / ((1.380649e-23 * gl.cathodeKelvin) / 1.602176634e-19), gl.onsetVolts));
-        }
-        const mo = e.model;
-        this.limiters.push(e.kind === 'pentode'
-          ? new PlateLawLimiter(offset, offset + 2, true, mo.kp, mo.mu, mo.kvb, mo.ex)
-          : new PlateLawLimiter(offset, offset + 1, false, mo.kp, mo.mu, mo.kvb, mo.ex));
+        if (e.kind === 'pentode') this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
+        const device = tubeDevice(e, tubeFunctions);
+        this.limiters.push(...tubeLimiters(e, offset));
         const slot = { el: e, device, offset };
         this.tubes.push(slot);
         if (!this.tubeById.has(e.id)) this.tubeById.set(e.id, slot);
