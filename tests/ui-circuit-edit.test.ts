@@ -5,6 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { designCircuit, designToNetlist, validateDesign, type CapacitorPart, type Design, type Part, type ResistorPart } from '../src/dsp/circuit/design.ts';
 import { CircuitEngine } from '../src/dsp/circuit/engine.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
+import { TUBE_LIBRARY } from '../src/dsp/tubes/library.ts';
 import { gainAt } from '../src/dsp/analysis/ac.ts';
 import { tubeSmallSignal } from '../src/dsp/analysis/linear.ts';
 import type { NetTube } from '../src/dsp/circuit/netlist.ts';
@@ -112,13 +113,16 @@ describe('circuit edits', () => {
   });
 
   it('a fitted tube carried by the design behaves as the library tube with the same parameters', () => {
-    // Koren's published 12AX7 fit (mu 100, ex 1.4, kg1 1060, kp 600, kvb 300; from memory), as a
-    // tube file named MY-12AX7 (valvewright.tube.v1): the same equations, so the same operating point
+    // Koren's published 12AX7 fit (mu 100, ex 1.4, kg1 1060, kp 600, kvb 300; from memory) with the
+    // library's grid law, as a tube file named MY-12AX7 (valvewright.tube.v1): the same equations as
+    // the library's 12AX7, so the same operating point
     const file = {
       schema: 'valvewright.tube.v1' as const, type: 'MY-12AX7', kind: 'triode' as const, like: '12AX7', points: [], source: 'test',
       model: { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
-      gridCurrent: { name: 'initial-velocity' as const, gg: 0.00031, xi: 1.5, cathodeKelvin: 1050, onsetVolts: -0.49 },
+      gridCurrent: TUBE_LIBRARY['12AX7']!.gridCurrent,
     };
+    const lib = TUBE_LIBRARY['12AX7']!.model;
+    expect([lib.mu, lib.ex, lib.kg1, lib.kp, lib.kvb]).toEqual([100, 1.4, 1060, 600, 300]);
     const d = stageByEdits();
     const withFile = ok(replaceTubes(d, [file]));
     const v1 = withFile.parts.find((p) => p.id === 'V1')!;

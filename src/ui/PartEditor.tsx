@@ -5,6 +5,7 @@ import { taperFraction, type Design, type Part, type PotPart, type Taper, type T
 import { formatValue, parseValue, type ValueUnit } from '../dsp/parts/values.ts';
 import { snapToSeries, type ESeries } from '../dsp/parts/eseries.ts';
 import { TUBE_LIBRARY, TUBE_SAMPLES, tubeType } from '../dsp/tubes/library.ts';
+import { fittedTubeNames } from '../dsp/circuit/edit.ts';
 import type { PartsRow } from '../dsp/analysis/parts-list.ts';
 
 export interface ValueFieldProps {
@@ -123,7 +124,9 @@ const pf = (farads: number): string => `${Number((farads * 1e12).toPrecision(3))
 
 function TubeControls({ part, fitted, onChange }: { part: TubePart; fitted: readonly string[]; onChange: (p: Part) => void }): ReactElement {
   const t = tubeType(part.type);
-  const sameKind = [...Object.values(TUBE_LIBRARY), ...fitted.map((n) => tubeType(n))].filter((x) => x.kind === t.kind);
+  // the library, the design's fitted tubes and the part's own type (an imported user type shows too)
+  const names = [...new Set([...Object.keys(TUBE_LIBRARY), ...fitted, part.type])];
+  const sameKind = names.map((n) => tubeType(n)).filter((x) => x.kind === t.kind);
   const sampleName = (Object.entries(TUBE_SAMPLES).find(([, v]) => Math.abs(v - part.sample) < 1e-9)?.[0]) ?? 'custom';
   return (
     <div>
@@ -180,7 +183,7 @@ export function PartEditor({ design, part, rating, sheetPending, onChange, onSup
         </>
       )}
       {part?.kind === 'pot' && <PotControls part={part} onChange={(p) => { onChange(p); }} />}
-      {part?.kind === 'tube' && <TubeControls part={part} fitted={(design.tubes ?? []).map((x) => x.type)} onChange={(p) => { onChange(p); }} />}
+      {part?.kind === 'tube' && <TubeControls part={part} fitted={fittedTubeNames(design)} onChange={(p) => { onChange(p); }} />}
       {part?.kind === 'switch' && (
         <label className="inline-label"><input type="checkbox" checked={part.closed} onChange={(e) => onChange({ ...part, closed: e.target.checked })} /> closed</label>
       )}

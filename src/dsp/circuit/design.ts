@@ -1,7 +1,7 @@
 // A design is data: parts with values, a B+ supply, tubes from the library, the guitar input and
 // the output load. It compiles to the engine's circuit and to the netlist interchange form.
 import { registerUserTube, tubeType, type TubeType } from '../tubes/library.ts';
-import { userTubeType, type UserTubeFile } from '../tubes/user-tube.ts';
+import { TubeFileError, userTubeType } from '../tubes/user-tube.ts';
 import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
@@ -72,11 +72,11 @@ export interface Design {
   /** Where the user nudged parts on the schematic: offsets from the automatic layout, by part id (drawing only). */
   readonly sheet?: SheetPlacement;
   /**
-   * Fitted tubes the design uses (valvewright.tube.v1 files, as `tube fit` writes them). They are
-   * registered as tube types wherever the design is validated, so every thread that receives the
-   * design (workspace, workers, audio worklet) knows them.
+   * User tube files (valvewright.tube.v1, from `tube fit --out`) this design's parts may name by
+   * type: carried in the design so that it is self-contained (the audio thread, a saved file, a
+   * shared link). Validating the design registers them (tubes/library.ts, registerUserTube).
    */
-  readonly tubes?: readonly UserTubeFile[];
+  readonly userTubes?: readonly unknown[];
 }
 
 export interface SheetPlacement {
@@ -141,10 +141,12 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   // 0 = no filter capacitor (a netlist's ideal or resistive source); otherwise a real capacitor
   if (d.supply.filterFarads !== 0) checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
   if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
-  if (d.tubes !== undefined) {
-    if (!Array.isArray(d.tubes)) throw new DesignError('design "tubes" must be a list of fitted tube files (valvewright.tube.v1)');
-    d.tubes.forEach((t, i) => {
-      try { registerUserTube(userTubeType(t, `design tube ${i + 1}`)); } catch (err) { throw new DesignError((err as Error).message); }
+  if (d.userTubes !== undefined) {
+    if (!Array.isArray(d.userTubes)) throw new DesignError('design "userTubes" must be a list of user tube files');
+    d.userTubes.forEach((u, i) => {
+      try { registerUserTube(userTubeType(u, `userTubes[${i}]`)); } catch (e) {
+        throw new DesignError(e instanceof TubeFileError ? e.message : `userTubes[${i}]: ${(e as Error).message}`);
+      }
     });
   }
   const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);

@@ -5,6 +5,7 @@
 // a grid with no DC path yet: the wiring check reports those and the sheet plays once they are fixed).
 import { DESIGN_SCHEMA, GROUND, LOAD_ID, SUPPLY_FILTER_ID, SUPPLY_ID, validateDesign, type Design, type Part, type TubePart } from './design.ts';
 import { tubeType } from '../tubes/library.ts';
+import { userTubeType } from '../tubes/user-tube.ts';
 
 export type EditResult = { readonly ok: true; readonly design: Design } | { readonly ok: false; readonly reason: string };
 
@@ -275,9 +276,14 @@ export function moveTerminalNode(d: Design, which: 'input' | 'output', node: str
   return checked(d, { ...d, input: { ...d.input, node } });
 }
 
-/** Set the fitted tubes the design carries (each validated and registered by the design check). */
-export function replaceTubes(d: Design, tubes: Design['tubes'] & object): EditResult {
-  return checked(d, { ...d, tubes });
+/** Set the fitted tube files the design carries (each validated and registered by the design check). */
+export function replaceTubes(d: Design, userTubes: readonly unknown[]): EditResult {
+  return checked(d, { ...d, userTubes });
+}
+
+/** Type names of the fitted tubes a design carries (files that do not read are left out). */
+export function fittedTubeNames(d: Design): string[] {
+  return (d.userTubes ?? []).flatMap((u, i) => { try { return [userTubeType(u, `userTubes[${i}]`).name]; } catch { return []; } });
 }
 
 /**

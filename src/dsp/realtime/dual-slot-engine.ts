@@ -83,6 +83,9 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
+  /** Solver counters since the model was built (CircuitEngine.fallbackSamples / failedSamples). */
+  readonly fallbackSamples?: number;
+  readonly failedSamples?: number;
 }
 /** Instantiates a plan (on the audio thread: no compile, no DC solve). */
 export type ModelFactory = (plan: SlotPlan) => SlotModel;
@@ -104,6 +107,8 @@ export const planModel: ModelFactory = (plan) => {
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
+    get fallbackSamples() { return oc.engine.fallbackSamples; },
+    get failedSamples() { return oc.engine.failedSamples; },
   };
 };
 
@@ -274,7 +279,7 @@ export class DualSlotEngine {
   private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
     limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
-    matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
+    solverFallbackSamples: 0, solverFailedSamples: 0, matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
   };
   /** Live A/B loudness match, measured from the slots' own sound (analysis/loudness-match.ts). */
   private readonly match: LoudnessMatch;
@@ -851,15 +856,20 @@ export class DualSlotEngine {
     r.matchGainDb = this.match.gainDb;
     r.outputLufs = lo > -200 ? lo : null;
     const traces = r.slotTraces;
+    let fallbacks = 0, failed = 0;
     for (let k = 0; k < 2; k++) {
       const s = this.slots[k]!, m = s.model;
       if (!m) { traces[k] = null; continue; }
+      fallbacks += m.fallbackSamples ?? 0;
+      failed += m.failedSamples ?? 0;
       const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
       t.gridVolts = pv[0] ?? 0;
       t.plateVolts = pl;
       traces[k] = t;
     }
+    r.solverFallbackSamples = fallbacks;
+    r.solverFailedSamples = failed;
     if (traced.model) {
       r.gridVolts = traced.trace.gridVolts;
       r.plateVolts = traced.plateVolts;

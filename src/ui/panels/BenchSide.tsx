@@ -8,6 +8,7 @@ import { modelDesign, SheetService, type WorstCaseView } from '../model/worst-ca
 import { editPart, editSupplyVolts, findPart } from '../model/workspace.ts';
 import { PartEditor } from '../PartEditor.tsx';
 import { OperatingPanel } from '../OperatingPanel.tsx';
+import { TubeFitPanel } from '../TubeFitPanel.tsx';
 import { useDebounced } from '../store/hooks.ts';
 import { useWorkspace } from '../store/context.ts';
 import { playableProblem } from '../store/workspace-store.ts';
@@ -81,6 +82,7 @@ export function BenchSide({ bench }: { bench: Bench }): ReactElement {
       )}
       {/* the findings are listed under the schematic, where they point at the parts */}
       <OperatingPanel report={bench.report} failure={bench.failure} findings={[]} slot={active} supply={supply ? { loadedVolts: supply.loadedVolts, unloadedVolts: supply.unloadedVolts } : null} />
+      <TubeFitPanel design={design} onDesign={(d) => dispatch({ type: 'edit-design', design: d })} />
     </div>
   );
 }

@@ -4,10 +4,10 @@
 import { useId, useState, type ReactElement } from 'react';
 import type { Design, Part } from '../../dsp/circuit/design.ts';
 import {
-  addPart, appendStage, designNodes, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
+  addPart, appendStage, designNodes, fittedTubeNames, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, removePart, renameNode, terminalsOf, type EditResult, type PartKind,
 } from '../../dsp/circuit/edit.ts';
 import { TUBE_LIBRARY, tubeType } from '../../dsp/tubes/library.ts';
-import { userTubeType, type UserTubeFile } from '../../dsp/tubes/user-tube.ts';
+import { userTubeType } from '../../dsp/tubes/user-tube.ts';
 import { useWorkspace } from '../store/context.ts';
 
 const KIND_NAMES: Record<PartKind, string> = { resistor: 'resistor', capacitor: 'capacitor', pot: 'pot', switch: 'switch', tube: 'tube' };
@@ -55,8 +55,7 @@ export function AddPartTool(): ReactElement {
     try { doc = JSON.parse(await f.text()); } catch (err) { edit({ ok: false, reason: `${f.name} is not valid JSON (${(err as Error).message})` }); return; }
     let name: string;
     try { name = userTubeType(doc, f.name).name; } catch (err) { edit({ ok: false, reason: (err as Error).message }); return; }
-    const file = doc as UserTubeFile;
-    const tubes = [...(design.tubes ?? []).filter((t) => t.type !== file.type), file];
+    const tubes = [...(design.userTubes ?? []).filter((u, i) => { try { return userTubeType(u, `userTubes[${i}]`).name !== name; } catch { return true; } }), doc];
     if (edit(replaceTubes(design, tubes), `Fitted tube ${name} (from ${f.name}) is now offered and saved with the design.`) === null) setTube(name);
   };
   const place = () => {
@@ -80,7 +79,7 @@ export function AddPartTool(): ReactElement {
           <label className="inline-label">Type
             <select value={tube} data-testid="add-tube-type" onChange={(e) => setTube(e.target.value)}>
               {Object.values(TUBE_LIBRARY).map((t) => <option key={t.name} value={t.name}>{t.name} ({t.kind})</option>)}
-              {(design.tubes ?? []).map((t) => <option key={`fit-${t.type}`} value={t.type}>{t.type} (fitted {t.kind})</option>)}
+              {fittedTubeNames(design).filter((n) => !TUBE_LIBRARY[n]).map((n) => <option key={`fit-${n}`} value={n}>{n} (fitted {tubeType(n).kind})</option>)}
             </select>
           </label>
           <label className="button" title="A tube file written by valvewright tube fit (valvewright.tube.v1): it travels with the design">Fitted tube…<input type="file" accept=".json,application/json" className="visually-hidden" data-testid="add-fitted-tube" onChange={(e) => { const f = e.target.files?.[0]; if (f) void loadFitted(f); e.target.value = ''; }} /></label>
@@ -101,7 +100,7 @@ export function StageTool(): ReactElement {
   const [after, setAfter] = useState('');
   const [tube, setTube] = useState('12AX7');
   const from = after || design.output.node;
-  const triodes = [...Object.values(TUBE_LIBRARY).map((t) => t.name), ...(design.tubes ?? []).map((t) => t.type)].filter((n) => tubeType(n).kind === 'triode');
+  const triodes = [...new Set([...Object.keys(TUBE_LIBRARY), ...fittedTubeNames(design)])].filter((n) => tubeType(n).kind === 'triode');
   return (
     <fieldset className="tool" aria-label="Add a stage">
       <legend>Add a stage</legend>
