@@ -40,11 +40,14 @@ import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import type { FromProcessor, MeterReport, Monitor, ProcessorInit, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
+import type { SlotPlan } from '../dsp/circuit/plan.ts';
 import { buildGraph, type Graph } from './graph.ts';
 import { ScopeBuffer } from './scope.ts';
 import takeWorkletUrl from '../../worklets/take.worklet.ts?worker&url';
 import { TAKE_PROCESSOR_NAME } from '../dsp/realtime/take-messages.ts';
 import { TakeRecorder, type Take } from './take.ts';
+import { Planner } from './planner.ts';
+import { Outbox, PendingReplies, type LoadedInfo } from './requests.ts';
 
 export { ScopeBuffer } from './scope.ts';
 export { buildGraph, loadWorklet, type Graph } from './graph.ts';
@@ -83,7 +86,7 @@ export interface AudioEngineOptions {
   readonly inputVoltsAtFullScale?: number;
 }
 
-export interface LoadedInfo { readonly slot: Slot; readonly designName: string; readonly latencySamples: number; readonly tubeIds: readonly string[] }
+export type { LoadedInfo } from './requests.ts';
 export interface SourceInfo { readonly durationSeconds: number; readonly sampleRateHz: number; readonly channels: number }
 export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
 export type CabinetSource = string | ArrayBuffer | { readonly samples: Float32Array; readonly sampleRateHz: number } | null;
@@ -114,6 +117,8 @@ export interface AudioEngine {
   setLimiter(enabled: boolean): void;
   setMuted(muted: boolean): void;
   reset(): void;
+  /** Messages still waiting for a plan from the planner (or behind one): 0 once every edit has reached the processor. */
+  readonly sending: number;
   loadFile(bytes: ArrayBuffer | Blob): Promise<SourceInfo>;
   setSource(samples: Float32Array, sampleRateHz: number): SourceInfo;
   play(): Promise<void>;
@@ -261,7 +266,12 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     recorder.onTruncated = (t) => takeEnded?.(t);
   }
   const listeners = new Set<(m: FromProcessor) => void>();
-  const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
+  // Designs reach the processor as plans built off the audio thread (planner.ts); messages keep
+  // their order while a plan is built (requests.ts), and replies are matched by request id.
+  const planner = new Planner();
+  const replies = new PendingReplies();
+  const report = (m: FromProcessor): void => { for (const l of listeners) l(m); };
+  const outbox = new Outbox((m) => graph.send(m));
   let latestMeter: MeterReport | null = null;
   /** The processor muted its output for safety and waits for the user (see 'safety-muted'). */
   let safetyHeld = false;
@@ -286,15 +296,9 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       // until the user unmutes the live input or stops it.
       safetyHeld = true;
       if (stream) engine.setLiveMuted(true);
-    } else if (m.type === 'loaded') {
-      processingLatencySamples[m.slot] = m.latencySamples;
-      const i = waiting.findIndex((w) => w.slot === m.slot);
-      if (i >= 0) waiting.splice(i, 1)[0]!.resolve({ slot: m.slot, designName: m.designName, latencySamples: m.latencySamples, tubeIds: m.tubeIds });
-    } else if (m.type === 'error') {
-      const i = waiting.findIndex((w) => m.message.startsWith(`slot ${w.slot}:`) || m.message.startsWith('design rejected'));
-      if (i >= 0) waiting.splice(i, 1)[0]!.reject(new Error(m.message));
-    }
-    for (const l of listeners) l(m);
+    } else if (m.type === 'loaded') processingLatencySamples[m.slot] = m.latencySamples;
+    replies.settle(m);
+    report(m);
   };
   // Idle: a context made here is suspended IDLE_SUSPEND_SECONDS after the last sound or message
   // (nothing playing, live input off), so an open workspace takes no audio-thread time while the
@@ -316,7 +320,29 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   };
   /** Resumed once by a user gesture (play, live input): before that a resume would be refused. */
   let everStarted = false;
-  const send = (m: ToProcessor) => { graph.send(m); wake(); };
+  const send = (m: ToProcessor | Promise<ToProcessor | null>) => { outbox.send(m); wake(); };
+  /**
+   * `make(plan)` once the planner has compiled `design` at the present factor. If it cannot be
+   * compiled, nothing is sent: request `id` fails and the listeners get the error as the
+   * processor would have reported it.
+   */
+  const sendPlanned = (slot: Slot, design: Design, id: number, make: (plan: SlotPlan) => ToProcessor): void => {
+    send(planner.plan(design, fs, state.factor).then(make, (e: unknown) => {
+      const message = `slot ${slot}: ${e instanceof Error ? e.message : String(e)}`;
+      replies.fail(id, new Error(message));
+      report({ type: 'error', message, requestId: id });
+      return null;
+    }));
+  };
+  /** Plans for both slots' present designs at the present factor (a slot whose plan fails goes without: the processor reports why). */
+  const withPlans = async <M extends ToProcessor>(m: M): Promise<M> => {
+    const plans: { A?: SlotPlan; B?: SlotPlan } = {};
+    await Promise.all((['A', 'B'] as const).map(async (slot) => {
+      const d = state.designs[slot];
+      if (d) try { plans[slot] = await planner.plan(d, fs, state.factor); } catch { /* reported by the processor */ }
+    }));
+    return { ...m, plans };
+  };
 
   // File player.
   const player = new Tone.Player({ context: ctx, loop: false });
@@ -367,16 +393,21 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       const scale = opts?.outputVoltsAtFullScale ?? estimateOutputVoltsAtFullScale(designCircuit(d), fs, state.inputVolts);
       state.designs[slot] = d;
       state.outputScale[slot] = scale;
-      const done = new Promise<LoadedInfo>((resolve, reject) => waiting.push({ slot, resolve, reject }));
-      send({ type: 'load-design', slot, design: d });
+      const { id, reply } = replies.open();
+      sendPlanned(slot, d, id, (plan) => ({ type: 'load-design', slot, design: d, plan, requestId: id }));
       send({ type: 'set-output-scale', slot, voltsAtFullScale: scale });
-      return done;
+      return reply;
     },
     clearSlot(slot) { delete state.designs[slot]; send({ type: 'clear-slot', slot }); },
     setPart(slot, part) {
       const d = state.designs[slot];
-      if (d) state.designs[slot] = { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) };
-      send({ type: 'set-part', slot, part });
+      const old = d?.parts.find((p) => p.id === part.id);
+      const next = d ? { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) } : undefined;
+      if (next) state.designs[slot] = next;
+      const id = replies.id();
+      // a new tube type is a new circuit: compiled off the audio thread, swapped in by the processor
+      if (next && old?.kind === 'tube' && part.kind === 'tube' && old.type !== part.type) sendPlanned(slot, next, id, (plan) => ({ type: 'set-part', slot, part, plan, requestId: id }));
+      else send({ type: 'set-part', slot, part, requestId: id });
     },
     setTubeSample(slot, tubeId, sample) {
       const d = state.designs[slot];
@@ -384,7 +415,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       send({ type: 'set-tube-sample', slot, tubeId, sample });
     },
     setMonitor(target) { state.monitor = target; send({ type: 'monitor', target }); },
-    setQuality(factor) { state.factor = factor; send({ type: 'set-quality', factor }); },
+    setQuality(factor) { state.factor = factor; send(withPlans({ type: 'set-quality', factor })); },
     setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
     setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
@@ -395,7 +426,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       graph.output.gain.cancelScheduledValues(ctx.currentTime);
       graph.output.gain.rampTo(muted ? 0 : 1, 0.002);
     },
-    reset() { send({ type: 'reset' }); },
+    reset() { send(withPlans({ type: 'reset' })); },
+    get sending() { return outbox.pending; },
     async loadFile(bytes) {
       const ab = bytes instanceof ArrayBuffer ? bytes : await bytes.arrayBuffer();
       return useBuffer(await decode(ab));
@@ -580,7 +612,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       player.dispose();
       liveGain.dispose();
       graph.dispose();
-      for (const w of waiting.splice(0)) w.reject(new Error('audio engine disposed'));
+      planner.dispose();
+      replies.rejectAll(new Error('audio engine disposed'));
       // Tone's Context.dispose closes the native context too: only for a context made here.
       if (!options.context) {
         ctx.dispose();

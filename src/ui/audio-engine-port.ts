@@ -165,7 +165,7 @@ export class EnginePort implements AudioPort {
   /** The design the port holds for a slot (what the engine plays once settled). */
   design(slot: Slot): Design | undefined { return this.designs[slot]; }
   /** No design send in flight and no re-levelling pending: what plays is what the workspace shows. */
-  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null; }
+  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null && (this.engine?.sending ?? 0) === 0; }
 
   setSource(clip: SourceClip): void {
     this.clip = clip;

@@ -161,6 +161,35 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
 }
 
 /**
+ * Replies matched by request id through the real-time engine: slot B loaded, then slot A's load
+ * sent together with a refused set-part on B (a resistor of negative value); then a tube type
+ * change on A and a quality change, both compiled by the plan worker. Returns what the load
+ * resolved with (or its error), every error report and the 'loaded' reports after the load.
+ */
+async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][number], retypedA: Design['parts'][number]):
+  Promise<{ loadA: string; errors: { message: string; requestId: number | null }[]; loadedAfter: { slot: string; factor: number; requestId: number | null }[] }> {
+  const audio = await createAudioEngine({ idleSuspendSeconds: 60 });
+  const reports: FromProcessor[] = [];
+  audio.onReport((m) => reports.push(structuredClone(m)));
+  await audio.loadDesign('B', b);
+  const pendingA = audio.loadDesign('A', a);
+  audio.setPart('B', badPartB);
+  let loadA: string;
+  try { loadA = `resolved ${(await pendingA).slot} ${(await pendingA).designName}`; } catch (e) { loadA = `rejected: ${(e as Error).message}`; }
+  const from = reports.length;
+  audio.setPart('A', retypedA);
+  audio.setQuality(2);
+  const loadedCount = () => reports.slice(from).filter((m) => m.type === 'loaded').length;
+  await until(() => loadedCount() >= 3, 'the retyped slot and both slots at 2x loaded');
+  await audio.dispose();
+  return {
+    loadA,
+    errors: reports.flatMap((m) => (m.type === 'error' ? [{ message: m.message, requestId: m.requestId ?? null }] : [])),
+    loadedAfter: reports.slice(from).flatMap((m) => (m.type === 'loaded' ? [{ slot: m.slot, factor: m.factor, requestId: m.requestId ?? null }] : [])),
+  };
+}
+
+/**
  * A scripted editing session through the worklet in an OfflineAudioContext. Each event's
  * messages are posted at its render quantum (the context suspended there); messages that need a
  * compiled design get a plan built here first, as the workspace's plan worker does (not on the
@@ -226,4 +255,4 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
   return { editMs, quietMs, renderMs, errors };
 }
 
-Object.assign(window, { vw: { editSession, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });
+Object.assign(window, { vw: { editSession, requestIdRun, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });
