@@ -43,7 +43,7 @@ import { designCircuit, validateDesign, type Design, type Part } from '../dsp/ci
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import type { FromProcessor, MeterReport, Monitor, ProcessorInit, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
-import type { SlotPlan } from '../dsp/circuit/plan.ts';
+import { planTransferables, withoutSentTables, type SlotPlan } from '../dsp/circuit/plan.ts';
 import { buildGraph, type Graph } from './graph.ts';
 import type { ScopeBuffer } from './scope.ts';
 import takeWorkletUrl from '../../worklets/take.worklet.ts?worker&url';
@@ -207,7 +207,13 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   // their order while a plan is built (requests.ts), and replies are matched by request id.
   const planner = new Planner();
   const replies = new PendingReplies();
-  const outbox = new Outbox((m) => graph.send(m));
+  // Plans go out without the tube tables this processor already has, their buffers transferred
+  // (not copied): the processor's message handler runs on the audio thread.
+  const sentTables = new Set<string>();
+  const outbox = new Outbox((m) => {
+    const plans = m.type === 'load-design' || m.type === 'set-part' ? [m.plan] : m.type === 'set-quality' || m.type === 'reset' ? [m.plans?.A, m.plans?.B] : [];
+    graph.send(m, [...new Set(plans.flatMap((p) => (p ? planTransferables(p) : [])))]);
+  });
   const idle: IdlePolicy = new IdlePolicy(raw, !options.context, (): boolean => player.playing || live.on, options.idleSuspendSeconds ?? IDLE_SUSPEND_SECONDS);
   const player = new FilePlayer(ctx, graph.input, () => idle.wake());
   const send = (m: ToProcessor | Promise<ToProcessor | null>) => { outbox.send(m); idle.wake(); };
@@ -241,7 +247,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
    * processor would have reported it.
    */
   const sendPlanned = (slot: Slot, design: Design, id: number, make: (plan: SlotPlan) => ToProcessor): void => {
-    send(planner.plan(design, fs, state.factor).then(make, (e: unknown) => {
+    send(planner.plan(design, fs, state.factor).then((plan) => make(withoutSentTables(plan, sentTables)), (e: unknown) => {
       const message = `slot ${slot}: ${e instanceof Error ? e.message : String(e)}`;
       replies.fail(id, new Error(message));
       meters.receive({ type: 'error', message, requestId: id });
@@ -255,6 +261,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       const d = state.designs[slot];
       if (d) try { plans[slot] = await planner.plan(d, fs, state.factor); } catch { /* reported by the processor */ }
     }));
+    // tables stripped in slot order once both are here (the posting order)
+    for (const slot of ['A', 'B'] as const) { const p = plans[slot]; if (p) plans[slot] = withoutSentTables(p, sentTables); }
     return { ...m, plans };
   };
 

@@ -4,7 +4,7 @@ import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
 import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
 import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions, type LiveLatency } from '../../src/audio/index.ts';
 import { withPart, type Design } from '../../src/dsp/circuit/design.ts';
-import { buildSlotPlan } from '../../src/dsp/circuit/plan.ts';
+import { buildSlotPlan as buildPlan, planTransferables, withoutSentTables, type SlotPlan } from '../../src/dsp/circuit/plan.ts';
 import type { ToProcessor, Slot } from '../../src/dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../../src/dsp/oversampling/oversampler.ts';
 
@@ -197,7 +197,7 @@ async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][numb
  * timed from resume to the next suspension: one quantum of processing plus the suspend/resume
  * hand-over between threads.
  */
-async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[]):
+async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[], window = 8):
   Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
   const Q = 128;
   const ctx = new OfflineAudioContext(1, input.length, rateHz);
@@ -213,6 +213,13 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
   const designs: Partial<Record<Slot, Design>> = {};
   let factor = (init.factor ?? 4) as OversamplingFactor;
   for (const m of init.initial ?? []) if (m.type === 'load-design') designs[m.slot] = m.design;
+  // as the workspace sends plans (src/audio/index.ts): each tube table once, buffers transferred
+  const sent = new Set<string>();
+  const buildSlotPlan = (d: Design, fs: number, f: OversamplingFactor): SlotPlan => withoutSentTables(buildPlan(d, fs, f), sent);
+  const transfers = (m: ToProcessor): Transferable[] => {
+    const plans = m.type === 'load-design' || m.type === 'set-part' ? [m.plan] : m.type === 'set-quality' || m.type === 'reset' ? [m.plans?.A, m.plans?.B] : [];
+    return [...new Set(plans.flatMap((p) => (p ? planTransferables(p) : [])))];
+  };
   const withPlan = (m: ToProcessor): ToProcessor => {
     if (m.type === 'load-design') { designs[m.slot] = m.design; return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) }; }
     if (m.type === 'set-part') {
@@ -229,11 +236,11 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
     return m;
   };
   const editMs: number[] = [], quietMs: number[] = [];
-  const WINDOW = 8; // quanta timed after each event (fades, swaps and glide steps land there)
+  const WINDOW = window; // quanta timed after each event (warm-up, fades, swaps and glide steps land there)
   const timed = (quantum: number, into: number[], messages: ToProcessor[]) => {
     let t0 = 0;
     void ctx.suspend((quantum * Q) / rateHz).then(() => {
-      for (const m of messages) node.port.postMessage(withPlan(m));
+      for (const m of messages) { const p = withPlan(m); node.port.postMessage(p, transfers(p)); }
       // the messages reach the processor before the next quantum (one port, in order)
       t0 = performance.now();
       void ctx.resume();

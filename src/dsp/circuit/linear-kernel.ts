@@ -10,6 +10,7 @@
 // loops took 49 % of the profile. The coefficients are read from their arrays on every call,
 // so a component change (which rewrites them) needs no new code. The code holds only numbers
 // and indices computed here.
+import { compileKernelSource } from '../wdf/newton-kernel.ts';
 
 /** Sizes of one engine's maps. */
 export interface LinearShape {
@@ -69,7 +70,7 @@ export function compileLinearStage1(s: LinearShape): LinearStage1 {
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
   // a named function (profiles show it by name rather than as anonymous)
-  return new Function(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`)() as LinearStage1;
+  return compileKernelSource<LinearStage1>(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`);
 }
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
@@ -87,5 +88,5 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
   L.push(`const out = ${o.join(' + ')};`);
   L.push('dst[j] = out - out === 0 ? out : 0;');
-  return new Function(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`)() as LinearStage2;
+  return compileKernelSource<LinearStage2>(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`);
 }

@@ -26,6 +26,7 @@ import {
 } from '../circuit/design.ts';
 import type { ValueUpdate } from '../circuit/engine.ts';
 import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, type SlotPlan } from '../circuit/plan.ts';
+import { importTables } from '../tubes/tables.ts';
 import { isOversamplingFactor } from '../render/oversampled.ts';
 import { PeakLimiter } from '../render/limiter.ts';
 import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
@@ -82,6 +83,27 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
+  /**
+   * Back to the operating point (state only; values stay). With it, a new model is warmed up on a
+   * test signal over a few blocks before it is heard (see WARM_BASE_SAMPLES), then reset.
+   */
+  reset?(): void;
+}
+
+/**
+ * Base-rate samples a new model runs on a test signal before it is swapped in, a few per block
+ * (WARM_CHUNK_MAX at most, fewer while a block's warming takes over WARM_BUDGET_MS): its
+ * generated kernels start interpreted and the engine's shared code deoptimises on a new circuit
+ * shape, which in one go cost 10-36 ms in the first blocks of a new shape (bench/edit-quanta.bench.ts).
+ */
+export const WARM_BASE_SAMPLES = 512;
+const WARM_CHUNK_MAX = 32;
+const WARM_BUDGET_MS = 0.3;
+/** The warm-up signal: 0.5 V peak at 220 Hz plus 0.2 V at 1.3 kHz (at 48 kHz), so Newton and the averaged root take their real paths. */
+function warmSignal(): Float64Array {
+  const x = new Float64Array(WARM_BASE_SAMPLES + WARM_CHUNK_MAX);
+  for (let k = 0; k < x.length; k++) x[k] = 0.5 * Math.sin((2 * Math.PI * 220 * k) / 48000) + 0.2 * Math.sin((2 * Math.PI * 1300 * k) / 48000);
+  return x;
 }
 /** Instantiates a plan (on the audio thread: no compile, no DC solve). */
 export type ModelFactory = (plan: SlotPlan) => SlotModel;
@@ -103,6 +125,7 @@ export const planModel: ModelFactory = (plan) => {
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
+    reset: () => oc.reset(),
   };
 };
 
@@ -174,6 +197,23 @@ class SlotState {
   /** Request id of the message that made `pending` ('loaded' carries it). */
   pendingRequest: number | undefined = undefined;
   pendingClear = false;
+  /** A model made from pendingPlan, being warmed up before the swap (null: not made yet). */
+  warm: SlotModel | null = null;
+  /** The design whose values `warm` carries. */
+  warmDesign: Design | null = null;
+  /** Base samples `warm` has run; the chunk it runs next block. */
+  warmDone = 0;
+  warmChunk = 1;
+  /** A new pending plan: any model warming for the old one is dropped. */
+  setPending(design: Design | null, plan: SlotPlan | null): void {
+    this.pending = design;
+    this.pendingPlan = plan;
+    this.warm = null;
+    this.warmDesign = null;
+    this.warmDone = 0;
+    this.warmChunk = 1;
+  }
+  get warmed(): boolean { return this.warm !== null && this.warmDone >= WARM_BASE_SAMPLES; }
   glides: Glide[] = [];
   glideById = new Map<string, Glide>();
   allUpdates: MutableUpdate[] = [];
@@ -275,6 +315,9 @@ export class DualSlotEngine {
     limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
   };
   private readonly noPlates: number[] = [];
+  /** Warm-up signal and its discarded output (see WARM_BASE_SAMPLES). */
+  private readonly warmIn = warmSignal();
+  private readonly warmOut = new Float64Array(WARM_BASE_SAMPLES + WARM_CHUNK_MAX);
 
   constructor(options: DualSlotOptions) {
     const fs = options.sampleRateHz;
@@ -342,6 +385,8 @@ export class DualSlotEngine {
   private planFor(design: Design, plan: unknown, factor: OversamplingFactor): SlotPlan {
     if (plan === undefined) return this.planner(design, this.sampleRateHz, factor);
     const p = validateSlotPlan(plan);
+    // its tables are kept whatever becomes of the plan: the main thread sends each table once
+    importTables(p.tables);
     if (p.baseRateHz !== this.sampleRateHz || p.factor !== factor) {
       throw new Error(`plan is for ${p.baseRateHz} Hz at ${p.factor}x, the processor runs ${this.sampleRateHz} Hz at ${factor}x`);
     }
@@ -352,8 +397,7 @@ export class DualSlotEngine {
   private schedule(s: SlotState, design: Design, plan: SlotPlan, immediate: boolean, requestId: number | undefined): void {
     s.pendingClear = false;
     if (immediate) { this.build(s, design, plan, requestId); return; }
-    s.pending = design;
-    s.pendingPlan = plan;
+    s.setPending(design, plan);
     s.pendingRequest = requestId;
   }
 
@@ -364,8 +408,7 @@ export class DualSlotEngine {
       const d = s.pending ?? s.design;
       if (!d) continue;
       const given: unknown = plans?.[s.name];
-      s.pendingPlan = this.planFor(d, given, factor);
-      s.pending = d;
+      s.setPending(d, this.planFor(d, given, factor));
     }
   }
 
@@ -385,8 +428,7 @@ export class DualSlotEngine {
       }
       case 'clear-slot': {
         const s = needSlot(msg.slot);
-        s.pending = null;
-        s.pendingPlan = null;
+        s.setPending(null, null);
         if (immediate) this.clear(s);
         else s.pendingClear = true;
         return;
@@ -557,11 +599,12 @@ export class DualSlotEngine {
    * Swap a slot to a model instantiated from `plan` (no compile, no DC solve). If `design` has
    * values the plan was not built with (edits since), they are applied as a value change.
    */
-  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true): boolean {
+  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true, warmed?: { model: SlotModel; design: Design }): boolean {
     let model: SlotModel;
     try {
-      model = this.createModel(plan);
-      if (d !== plan.design) applyDesignValues(model, plan.design, d);
+      model = warmed ? warmed.model : this.createModel(plan);
+      const from = warmed ? warmed.design : plan.design;
+      if (d !== from) applyDesignValues(model, from, d);
     } catch (e) {
       this.error(`slot ${s.name}: could not start "${d.name}": ${errMsg(e)}`, requestId);
       return false;
@@ -621,10 +664,9 @@ export class DualSlotEngine {
     this.pendingFactor = null;
     this.pendingReset = false;
     for (const s of this.slots) {
-      const d = s.pending, plan = s.pendingPlan;
-      s.pending = null;
-      s.pendingPlan = null;
-      if (d && plan) this.build(s, d, plan, s.pendingRequest);
+      const d = s.pending, plan = s.pendingPlan, warm = s.warm, warmDesign = s.warmDesign;
+      s.setPending(null, null);
+      if (d && plan) this.build(s, d, plan, s.pendingRequest, true, warm && warmDesign ? { model: warm, design: warmDesign } : undefined);
       s.pendingRequest = undefined;
     }
   }
@@ -655,10 +697,53 @@ export class DualSlotEngine {
     return g.value > 0 || g.target > 0;
   }
 
-  /** Block-boundary work: pending loads, quality changes, resets (plans instantiated, nothing compiled). */
+  /**
+   * A pending plan's model: made (one per block at most), then warmed a few samples per block
+   * until WARM_BASE_SAMPLES, then reset to its operating point. True once it is ready to swap in.
+   */
+  private prepare(s: SlotState, mayMake: boolean): boolean {
+    const plan = s.pendingPlan, d = s.pending;
+    if (!plan || !d) return true;
+    if (!s.warm) {
+      if (!mayMake) return false;
+      try {
+        const model = this.createModel(plan);
+        if (d !== plan.design) applyDesignValues(model, plan.design, d);
+        s.warm = model;
+        s.warmDesign = d;
+        // a model that cannot be reset is not warmed (it would be heard off its operating point)
+        if (!model.reset) s.warmDone = WARM_BASE_SAMPLES;
+      } catch (e) {
+        this.error(`slot ${s.name}: could not start "${d.name}": ${errMsg(e)}`, s.pendingRequest);
+        s.setPending(null, null);
+        s.pendingRequest = undefined;
+        return true;
+      }
+      return false;
+    }
+    if (s.warmDone >= WARM_BASE_SAMPLES) return true;
+    const n = Math.min(s.warmChunk, WARM_BASE_SAMPLES - s.warmDone);
+    const t0 = this.nowMs();
+    s.warm.processRange(this.warmIn, this.warmOut, s.warmDone, n);
+    const dt = this.nowMs() - t0;
+    s.warmDone += n;
+    s.warmChunk = dt > WARM_BUDGET_MS ? Math.max(1, s.warmChunk >> 1) : Math.min(WARM_CHUNK_MAX, s.warmChunk * 2);
+    if (s.warmDone < WARM_BASE_SAMPLES) return false;
+    s.warm.reset?.();
+    return true;
+  }
+
+  /** Block-boundary work: pending loads, quality changes, resets (plans instantiated and warmed, nothing compiled). */
   private boundary(): void {
     const gf = this.globalFade;
+    let made = false, ready = true;
+    for (const s of this.slots) {
+      const had = s.warm !== null;
+      if (!this.prepare(s, !made)) ready = false;
+      if (!had && s.warm !== null) made = true;
+    }
     if (this.pendingFactor !== null || this.pendingReset) {
+      if (!ready) return;
       if (gf.value === 0 && !gf.moving) {
         this.rebuildAll();
         gf.to(1, this.xfadeSamples);
@@ -666,14 +751,14 @@ export class DualSlotEngine {
       return;
     }
     for (const s of this.slots) {
-      if ((s.pending && s.pendingPlan) || s.pendingClear) {
+      if ((s.pending && s.pendingPlan && s.warmed) || s.pendingClear) {
         if (s.fade.target !== 0) s.fade.to(0, this.audible(s) && s.model ? this.xfadeSamples : 0);
         if (s.fade.value === 0 && !s.fade.moving) {
           if (s.pendingClear) this.clear(s);
-          else if (s.pending && s.pendingPlan) {
-            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest;
-            s.pending = null; s.pendingPlan = null; s.pendingRequest = undefined;
-            this.build(s, d, plan, id);
+          else if (s.pending && s.pendingPlan && s.warm && s.warmDesign) {
+            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest, warmed = { model: s.warm, design: s.warmDesign };
+            s.setPending(null, null); s.pendingRequest = undefined;
+            this.build(s, d, plan, id, true, warmed);
           }
           s.fade.to(1, this.audible(s) ? this.xfadeSamples : 0);
         }

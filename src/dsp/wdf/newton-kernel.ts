@@ -19,6 +19,27 @@
  */
 export type NewtonStepKernel = (F: Float64Array, p: Float64Array, v: Float64Array, i: Float64Array, d: Float64Array, r: Float64Array) => boolean;
 
+const kernelCache = new Map<string, unknown>();
+/** Distinct kernel sources kept (a few per circuit shape); beyond it the cache starts over. */
+const KERNEL_CACHE_SIZE = 64;
+
+/**
+ * The function a generated source defines, compiled once per distinct source: engines of the
+ * same shape (every reload, tube change or quality change of a design) share one function, so a
+ * new engine starts with code the JIT has already optimised instead of interpreting fresh code
+ * on the audio thread. The kernels hold no state (everything comes in through their arguments).
+ */
+export function compileKernelSource<K>(source: string): K {
+  let k = kernelCache.get(source);
+  if (k === undefined) {
+    if (kernelCache.size >= KERNEL_CACHE_SIZE) kernelCache.clear();
+    // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see compileNewtonStep)
+    k = new Function(source)() as unknown;
+    kernelCache.set(source, k);
+  }
+  return k as K;
+}
+
 /** Smallest accepted |pivot| / max |entry below it| before falling back to row exchanges. */
 export const PIVOT_RATIO = 1e-3;
 
@@ -68,8 +89,7 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
   }
   for (let k = 0; k < m; k++) L.push(`r[${k}] = r${k};`);
   L.push('return true;');
-  // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see above)
-  return new Function(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`)() as NewtonStepKernel;
+  return compileKernelSource<NewtonStepKernel>(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`);
 }
 
 /** i += D·δ (D sparse in the pattern's order, δ = r[0..m-1]): the currents after an accepted step, to first order. */
@@ -85,6 +105,5 @@ export function compileCurrentUpdate(m: number, nzRow: Int32Array, nzCol: Int32A
     for (let z = 0; z < nzRow.length; z++) if (nzRow[z] === row) terms.push(`s += d[${z}] * r[${nzCol[z]!}];`);
     if (terms.length) L.push(`{ let s = i[${row}]; ${terms.join(' ')} i[${row}] = s; }`);
   }
-  // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see compileNewtonStep)
-  return new Function(`return function currentUpdate(i, d, r) {\n${L.join('\n')}\n};`)() as CurrentUpdateKernel;
+  return compileKernelSource<CurrentUpdateKernel>(`return function currentUpdate(i, d, r) {\n${L.join('\n')}\n};`);
 }
