@@ -356,8 +356,15 @@ export class DualSlotEngine {
 
   private slot(s: Slot): SlotState { return s === 'A' ? this.slots[0] : this.slots[1]; }
 
+  /** Dry-path delay at factor f (memoised: designing the half-bands is not work for process()). */
+  private readonly latencies = new Map<OversamplingFactor, number>();
   private latencyFor(f: OversamplingFactor): number {
-    return Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
+    let d = this.latencies.get(f);
+    if (d === undefined) {
+      d = Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
+      this.latencies.set(f, d);
+    }
+    return d;
   }
 
   private error(message: string, requestId?: number): void {
@@ -452,6 +459,7 @@ export class DualSlotEngine {
         if (!isOversamplingFactor(msg.factor)) throw new Error(`set-quality: factor must be 1, 2, 4, 8, 16, 32, 64 or 128 (got ${JSON.stringify(msg.factor)})`);
         if (msg.factor === this.targetFactor && msg.factor === this.factorNow) return;
         this.plansFor(msg.plans, msg.factor);
+        this.latencyFor(msg.factor); // here, not in the block that swaps
         this.pendingFactor = msg.factor;
         if (immediate) this.rebuildAll();
         return;
@@ -727,7 +735,9 @@ export class DualSlotEngine {
     s.warm.processRange(this.warmIn, this.warmOut, s.warmDone, n);
     const dt = this.nowMs() - t0;
     s.warmDone += n;
-    s.warmChunk = dt > WARM_BUDGET_MS ? Math.max(1, s.warmChunk >> 1) : Math.min(WARM_CHUNK_MAX, s.warmChunk * 2);
+    // next chunk: what fits the budget at this chunk's cost per sample (at most double; a clock
+    // too coarse to see the chunk doubles it)
+    s.warmChunk = dt > 0 ? Math.max(1, Math.min(WARM_CHUNK_MAX, 2 * n, Math.floor((WARM_BUDGET_MS * n) / dt))) : Math.min(WARM_CHUNK_MAX, 2 * n);
     if (s.warmDone < WARM_BASE_SAMPLES) return false;
     s.warm.reset?.();
     return true;
