@@ -99,24 +99,28 @@ describe('tone network', () => {
     const t = identifyToneNetwork(c)!;
     expect(t.drivenFrom).toBe('p2');
     expect([...t.partIds].sort()).toEqual(['C5', 'C6', 'R8', 'TONE', 'VOL', 'load'].sort());
-    // alone (ideal source at p2) it equals the ladder worked by hand with complex impedances (circuit theory)
-    const r = toneNetworkAc(c, t);
+    // alone (from a source of Rs at p2) it equals the ladder worked by hand with complex impedances (circuit theory)
     const parts = TRIODE_INTO_TRIODE.parts;
+    const val = (id: string) => { const p = parts.find((q) => q.id === id)!; return p.kind === 'resistor' ? p.ohms : p.kind === 'capacitor' ? p.farads : NaN; };
     const tone = potResistors(parts.find((p) => p.id === 'TONE') as PotPart), vol = potResistors(parts.find((p) => p.id === 'VOL') as PotPart);
     type Z = [number, number];
     const add = (a: Z, b: Z): Z => [a[0] + b[0], a[1] + b[1]];
     const mul = (a: Z, b: Z): Z => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
     const div = (a: Z, b: Z): Z => { const d = b[0] ** 2 + b[1] ** 2; return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d]; };
     const par = (a: Z, b: Z): Z => div(mul(a, b), add(a, b));
-    r.frequenciesHz.forEach((f, i) => {
-      const w = 2 * Math.PI * f;
-      const zc = (farads: number): Z => [0, -1 / (w * farads)];
-      const lower = par([vol.lowerOhms, 0], [1e6, 0]); // volume lower half || 1 M load
-      const shunt = par(add([tone.upperOhms, 0], zc(10e-9)), add([vol.upperOhms, 0], lower));
-      const series = add(zc(22e-9), [22e3, 0]);
-      const h = mul(div(shunt, add(series, shunt)), div(lower, add([vol.upperOhms, 0], lower)));
-      expect(r.magnitudeDb[i]!).toBeCloseTo(20 * Math.log10(Math.hypot(h[0], h[1])), 4);
-      expect(r.phaseDeg[i]!).toBeCloseTo((Math.atan2(h[1], h[0]) * 180) / Math.PI, 3);
-    });
+    for (const sourceOhms of [0, 38e3]) {
+      const r = toneNetworkAc(c, t, { sourceOhms });
+      r.frequenciesHz.forEach((f, i) => {
+        const w = 2 * Math.PI * f;
+        const zc = (farads: number): Z => [0, -1 / (w * farads)];
+        // VOL: end 1 at ground, so its first half (VOL.1) is wiper to ground, in parallel with the 1 M load
+        const toGround = par([vol.upperOhms, 0], [TRIODE_INTO_TRIODE.output.loadOhms, 0]);
+        const shunt = par(add([tone.upperOhms, 0], zc(val('C6'))), add([vol.lowerOhms, 0], toGround));
+        const series = add(add(zc(val('C5')), [val('R8'), 0]), [sourceOhms, 0]);
+        const h = mul(div(shunt, add(series, shunt)), div(toGround, add([vol.lowerOhms, 0], toGround)));
+        expect(r.magnitudeDb[i]!).toBeCloseTo(20 * Math.log10(Math.hypot(h[0], h[1])), 4);
+        expect(r.phaseDeg[i]!).toBeCloseTo((Math.atan2(h[1], h[0]) * 180) / Math.PI, 3);
+      });
+    }
   });
 });

@@ -164,7 +164,8 @@ describe('a glided engine equals a fresh engine with the final values', () => {
  * --expose-gc and a 1 MB semi-space (--max-semi-space-size=1), so every MB allocated forces a
  * minor collection. `body` calls `measure(run)`, which counts the minor collections (Node.js
  * perf_hooks 'gc' entries, detail.kind 1 = minor, Node.js documentation) while `run` runs and
- * returns them with the heap growth; `body` prints one JSON line.
+ * returns them with the young generation's growth (v8.getHeapSpaceStatistics, 'new_space'); with
+ * no minor collection in between, that growth is what `run` allocated. `body` prints one JSON line.
  * Why a child: the test runner's module transform routes every imported call through an accessor
  * and V8 boxes doubles it would not box in the bundle; heapUsed differences in the runner's own
  * heap with the default semi-space read 0-180 kB for the same loop from run to run.
@@ -177,15 +178,19 @@ async function inChild<T>(imports: string, body: string): Promise<T> {
     writeFileSync(entry, `${imports}
       const gc = (globalThis as unknown as { gc: () => void }).gc;
       const { PerformanceObserver } = await import('node:perf_hooks');
+      const { getHeapSpaceStatistics } = await import('node:v8');
+      // bytes in the young generation only: what the code allocates (optimised code, feedback and
+      // other compiler output land in other spaces and would make heapUsed jump run to run)
+      const newSpaceBytes = () => getHeapSpaceStatistics().find((x) => x.space_name === 'new_space')!.space_used_size;
       const tick = () => new Promise((r) => setTimeout(r, 30));
       async function measure(run: () => void): Promise<{ minorCollections: number; heapGrowthBytes: number }> {
         let minor = 0;
         const obs = new PerformanceObserver((list) => { for (const en of list.getEntries()) if ((en as unknown as { detail?: { kind?: number } }).detail?.kind === 1) minor++; });
         obs.observe({ entryTypes: ['gc'] });
         gc(); await tick(); minor = 0;
-        const h0 = process.memoryUsage().heapUsed;
+        const h0 = newSpaceBytes();
         run();
-        const h1 = process.memoryUsage().heapUsed;
+        const h1 = newSpaceBytes();
         await tick();
         obs.disconnect();
         return { minorCollections: minor, heapGrowthBytes: h1 - h0 };

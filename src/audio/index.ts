@@ -81,7 +81,7 @@ export interface AudioEngineOptions {
   /** Meter reports kept by the scope (default 300, 10 s at 30 Hz). */
   readonly scopeCapacity?: number;
   readonly fftSize?: number;
-  /** Input calibration to start with, volts at full scale (overrides the settings'; default 0.2). */
+  /** Input calibration to start with, volts at full scale (overrides the settings'; default DEFAULT_INPUT_VOLTS_AT_FULL_SCALE). */
   readonly inputVoltsAtFullScale?: number;
   /** The settings to start from and keep up to date (the workspace holds them; default: new ones). */
   readonly settings?: AudioSettings;
@@ -109,6 +109,8 @@ export interface AudioEngine {
   setQuality(factor: OversamplingFactor): void;
   setInputCalibration(voltsAtFullScale: number): void;
   setOutputScale(slot: Slot, voltsAtFullScale: number): void;
+  /** Live A/B loudness match (B follows A by its measured loudness; the meter report carries the offset). */
+  setLoudnessMatch(on: boolean): void;
   setOutputLevel(db: number): void;
   setLimiter(enabled: boolean): void;
   setMuted(muted: boolean): void;
@@ -199,7 +201,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   if (options.inputVoltsAtFullScale !== undefined) state.inputVolts = options.inputVoltsAtFullScale;
   // the processor starts from the settings' factor, levels and monitor (designs come as plans)
   const initial = state.messages().filter((m) => m.type !== 'load-design');
-  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial }, options.fftSize ?? 4096);
+  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: [...initial, { type: 'set-loudness-match', on: state.loudnessMatch }] }, options.fftSize ?? 4096);
   const meters = new Meters(graph, options.scopeCapacity ?? 300);
   const takes = await TakeDeck.attach(raw, takeWorkletUrl, TAKE_PROCESSOR_NAME);
   const cabinet = new Cabinet(graph, raw);
@@ -300,6 +302,7 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     setQuality(factor) { state.factor = factor; send(withPlans({ type: 'set-quality', factor })); },
     setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
     setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
+    setLoudnessMatch(on) { state.loudnessMatch = on; send({ type: 'set-loudness-match', on }); },
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
     setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
     setMuted(muted) {
@@ -352,7 +355,9 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     loadCabinet: (src) => cabinet.load(src),
     onReport: (l) => meters.onReport(l),
     get latestMeter(): MeterReport | null { return meters.latestMeter; },
-    levels: () => meters.levels(),
+    // while live input is muted the input meter reads the device before its mute gain, so the
+    // interface gain can be set before anything is heard
+    levels: () => meters.levels(live.peakWhileMuted() * state.inputVolts),
     spectrum: (into) => meters.spectrum(into, fs),
     get scope(): ScopeBuffer { return meters.scope; },
     async renderOffline(o) {

@@ -27,6 +27,9 @@ export class LiveInput {
   private splitter: ChannelSplitterNode | null = null;
   private channelCount = 0;
   private muted = true;
+  /** The device's signal before the mute gain: the input meter reads it while live input is muted. */
+  private readonly tap: AnalyserNode;
+  private readonly tapBuf: Float32Array<ArrayBuffer>;
 
   /**
    * @param started called once the device runs (still muted), before it is connected
@@ -36,6 +39,18 @@ export class LiveInput {
     private readonly started: () => Promise<void>, private readonly stopped: () => void) {
     this.gain = new Tone.Gain({ context: ctx, gain: 0 });
     this.gain.connect(input);
+    this.tap = raw.createAnalyser();
+    this.tap.fftSize = 2048;
+    this.tapBuf = new Float32Array(this.tap.fftSize);
+  }
+
+  /** Peak (full scale 1) of the last 2048 input samples while the input runs muted; 0 otherwise. */
+  peakWhileMuted(): number {
+    if (!this.stream || !this.muted) return 0;
+    this.tap.getFloatTimeDomainData(this.tapBuf);
+    let peak = 0;
+    for (let k = 0; k < this.tapBuf.length; k++) { const a = Math.abs(this.tapBuf[k]!); if (a > peak) peak = a; }
+    return peak;
   }
 
   get state(): 'off' | 'muted' | 'on' { return !this.stream ? 'off' : this.muted ? 'muted' : 'on'; }
@@ -82,6 +97,7 @@ export class LiveInput {
     const tap = this.take.node;
     if (channel === 'mix') {
       Tone.connect(node, this.gain);
+      node.connect(this.tap);
       if (tap) node.connect(tap);
     } else {
       // one channel of the interface on its own (a guitar on input 2 would otherwise come in
@@ -90,6 +106,7 @@ export class LiveInput {
       this.splitter = splitter;
       node.connect(splitter);
       Tone.connect(splitter, this.gain, channel - 1, 0);
+      splitter.connect(this.tap, channel - 1, 0);
       if (tap) splitter.connect(tap, channel - 1, 0);
     }
     this.muted = true;

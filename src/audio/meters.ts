@@ -33,9 +33,9 @@ export class Meters {
 
   get latestMeter(): MeterReport | null { return this.latest; }
 
-  /** Peaks since the last call. */
-  levels(): { inputVolts: number; outputDbfs: number } {
-    const r = { inputVolts: this.peakIn, outputDbfs: this.peakOutDb };
+  /** Peaks since the last call (`inputVolts` at least `otherInputVolts`: a meter of the live input's own). */
+  levels(otherInputVolts = 0): { inputVolts: number; outputDbfs: number } {
+    const r = { inputVolts: Math.max(this.peakIn, otherInputVolts), outputDbfs: this.peakOutDb };
     this.peakIn = 0;
     this.peakOutDb = -200;
     return r;

@@ -1,25 +1,24 @@
 // The workspace's audio settings, held once: the engine writes every setting it sends here, the
 // workspace's port reads them (and sets them before the engine exists), and an offline render
 // or a new processor starts from the messages that make them.
-import type { Design } from '../dsp/circuit/design.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, type Design } from '../dsp/circuit/design.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
-
-/** Input calibration before the user sets one, volts at full scale. */
-export const DEFAULT_INPUT_VOLTS = 0.2;
 
 export class AudioSettings {
   factor: OversamplingFactor = DEFAULT_LIVE_FACTOR;
   /** The designs sent to the processor (with every edit applied). */
   designs: Partial<Record<Slot, Design>> = {};
-  inputVolts = DEFAULT_INPUT_VOLTS;
+  inputVolts = DEFAULT_INPUT_VOLTS_AT_FULL_SCALE;
   outputScale: Partial<Record<Slot, number>> = {};
   levelDb = 0;
   limiter = true;
   monitor: Monitor = 'A';
   /** The output mute chosen through setMuted (the processor's; the live input has its own). */
   outputMuted = false;
+  /** Live A/B loudness match (B follows A by its measured loudness). Not replayed offline: a render levels each slot by its own scale. */
+  loudnessMatch = true;
 
   /** The messages that bring a fresh processor to these settings (designs without plans: offline renders only). */
   messages(): ToProcessor[] {

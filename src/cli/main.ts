@@ -38,6 +38,32 @@ function usage(io: CommandIO): void {
   io.out('precautions your local codes and licensed practice require; this tool does not make a circuit safe.');
 }
 
+/** The usage line of each command (every command answers --help, exit 0). */
+async function usageOf(name: string): Promise<string> {
+  switch (name) {
+    case 'render': return (await import('./commands/render.ts')).RENDER_USAGE;
+    case 'op': return (await import('./commands/op.ts')).OP_USAGE;
+    case 'netlist': return (await import('./commands/netlist.ts')).NETLIST_USAGE;
+    case 'pair': return (await import('./commands/pair.ts')).PAIR_USAGE;
+    case 'bench': return 'usage: valvewright bench [--json] [--seconds S] [--template T] [--tubes exact|table] [--in-process]';
+    case 'check': return (await import('./commands/check.ts')).CHECK_USAGE;
+    case 'supply': return (await import('./commands/supply.ts')).SUPPLY_USAGE;
+    case 'spread': return (await import('./commands/spread.ts')).SPREAD_USAGE;
+    case 'ac': return (await import('./commands/ac.ts')).AC_USAGE;
+    case 'parts': return (await import('./commands/parts.ts')).PARTS_USAGE;
+    case 'spice': return (await import('./commands/spice.ts')).SPICE_USAGE;
+    case 'loudness': return 'usage: valvewright loudness FILE [--json]';
+    default: return `usage: valvewright ${name} [options]`;
+  }
+}
+
+const SET_HELP = [
+  '--set PART.FIELD=VALUE (repeatable) changes a value without editing the file: VOL.position=0.8 (0 = end 1,',
+  '  1 = end 2, clockwise), R3.ohms=220k or 4k7 (SI or RKM), C6.farads=10n, V1.sample=1.2, V1.type=12AT7,',
+  '  S1.closed=false, B+.volts=300, load.ohms=1M. A netlist takes its elements\' ohms, farads and volts.',
+];
+const EXIT_HELP = 'exit status: 0 done (no errors found), 1 an error (bad input, or a check that found an error), 2 bad command';
+
 /** Take every global `--tubes FILE` out of argv and register the user tube files it names. */
 async function loadUserTubes(argv: readonly string[]): Promise<string[]> {
   const rest: string[] = [];
@@ -63,6 +89,14 @@ export async function main(argv0: readonly string[], io: CommandIO = { out: (l) 
   if (!name || name === '--help' || name === '-h' || name === 'help') { usage(io); return name ? 0 : 2; }
   const cmd = COMMANDS[name];
   if (!cmd) { io.err(`valvewright: unknown command "${name}" (commands: ${Object.keys(COMMANDS).join(', ')})`); return 2; }
+  // tubes and tube print their own help
+  if ((rest.includes('--help') || rest.includes('-h')) && name !== 'tubes' && name !== 'tube') {
+    io.out(await usageOf(name));
+    io.out(`  ${cmd.summary}`);
+    if (/--set/.test(await usageOf(name))) for (const l of SET_HELP) io.out(l);
+    io.out(EXIT_HELP);
+    return 0;
+  }
   try {
     return await (await cmd.load())(rest, io);
   } catch (e) {

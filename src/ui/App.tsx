@@ -1,11 +1,14 @@
 // The audition workspace: schematic and part editor, operating point, listening, plots.
 import { useCallback, useEffect, useMemo, useRef, useState, type ReactElement } from 'react';
-import type { Design, Part } from '../dsp/circuit/design.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, validateDesign, type Design, type Part } from '../dsp/circuit/design.ts';
+import { parseNetlist, NETLIST_SCHEMA } from '../dsp/circuit/netlist.ts';
+import { netlistToDesign } from '../dsp/circuit/netlist-design.ts';
 import { TEMPLATES } from '../dsp/circuit/templates.ts';
 import type { Monitor, Slot } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { DEFAULT_LIVE_FACTOR, LIVE_FACTORS } from '../dsp/realtime/dual-slot-engine.ts';
-import { checkWiring, type Finding } from '../dsp/analysis/wiring-check.ts';
+import type { Finding } from '../dsp/analysis/wiring-check.ts';
+import { modelDesign, SheetService, type WorstCaseView } from './model/worst-case.ts';
 import { probeNodes } from './model/probes.ts';
 import { EnginePort } from './audio-engine-port.ts';
 import { calibrationProblem, dbuToPeakVolts, parseDbu } from './model/calibration.ts';
@@ -36,7 +39,7 @@ const QUALITY_LABELS: Partial<Record<OversamplingFactor, string>> = {
   8: '8× (aliases about −72 / −77 dB; heavy)',
 };
 
-interface OpState { report: OperatingReport | null; failure: string | null; findings: Finding[] }
+interface OpState { report: OperatingReport | null; failure: string | null }
 
 function useDebounced<T>(value: T, ms: number): T {
   const [v, setV] = useState(value);
@@ -56,12 +59,13 @@ export function App(): ReactElement {
   const [active, setActive] = useState<Slot>(() => parseWorkspace(localStorage.getItem(STORAGE_KEY))?.active ?? 'A');
   const [monitor, setMonitorState] = useState<Monitor>(active);
   const [selected, setSelected] = useState<string | null>(null);
-  const [message, setMessage] = useState<{ text: string; bad: boolean } | null>(null);
+  const [message, setMessage] = useState<{ text: string; bad: boolean; action?: { label: string; run: () => void } } | null>(null);
   const [status, setStatus] = useState<AudioStatus | null>(null);
   const [clips, setClips] = useState<DemoClip[]>([]);
   const [clip, setClip] = useState<SourceClip | null>(null);
   const [clipName, setClipName] = useState('');
-  const [calibration, setCalibration] = useState(0.2);
+  const [calibration, setCalibration] = useState(DEFAULT_INPUT_VOLTS_AT_FULL_SCALE);
+  const [keepValues, setKeepValues] = useState(false);
   const [loop, setLoop] = useState<LoopRegion | null>(null);
   const [matched, setMatched] = useState(true);
   const [quality, setQuality] = useState<OversamplingFactor>(DEFAULT_LIVE_FACTOR);
@@ -74,7 +78,7 @@ export function App(): ReactElement {
   const [dragging, setDragging] = useState(false);
   const design = slots[active];
   const part = selected ? findPart(design, selected) ?? null : null;
-  const say = (text: string, bad = false) => setMessage({ text, bad });
+  const say = (text: string, bad = false, action?: { label: string; run: () => void }) => setMessage({ text, bad, ...(action ? { action } : {}) });
 
   // shared link in the hash wins over the autosave (into slot A, undoable)
   useEffect(() => {
@@ -86,7 +90,8 @@ export function App(): ReactElement {
     return port.subscribe(setStatus);
   }, [port]);
 
-  useEffect(() => { port.setDesign('A', slots.A); port.setDesign('B', slots.B); }, [port, slots]);
+  // the model runs each slot's design with its power-supply estimate as B+ (as the command line does)
+  useEffect(() => { port.setDesign('A', modelDesign(slots.A)); port.setDesign('B', modelDesign(slots.B)); }, [port, slots]);
   useEffect(() => { localStorage.setItem(STORAGE_KEY, serializeWorkspace({ slots, active })); }, [slots, active]);
   useEffect(() => { port.setMonitor(monitor); }, [port, monitor]);
   useEffect(() => { port.setLoudnessMatch(matched); }, [port, matched]);
@@ -108,12 +113,20 @@ export function App(): ReactElement {
   // operating point of the slot on screen, recomputed shortly after edits
   const opDesign = useDebounced(design, 40);
   const op: OpState = useMemo(() => {
-    const r = computeOperatingReport(opDesign);
-    if (!r.ok) return { report: null, failure: `No operating point: ${r.reason}`, findings: [] };
-    let findings: Finding[] = [];
-    try { findings = checkWiring(opDesign, { warmNodes: r.op.nodes }).filter((f) => f.severity !== 'note'); } catch { /* findings are advisory */ }
-    return { report: r.report, failure: null, findings };
+    const r = computeOperatingReport(modelDesign(opDesign));
+    if (!r.ok) return { report: null, failure: `No operating point: ${r.reason}` };
+    return { report: r.report, failure: null };
   }, [opDesign]);
+  // the worst-case sheet (warm idle, cold start at the unloaded B+, maximum input): the one
+  // `check` and `parts` print; it takes a few hundred ms, so it follows edits after a pause
+  // (in a worker: sheet.worker.ts)
+  const sheetDesign = useDebounced(design, 300);
+  const [sheet, setSheet] = useState<{ design: Design; view: WorstCaseView } | null>(null);
+  const sheets = useMemo(() => new SheetService((d, view) => setSheet(view ? { design: d, view } : null)), []);
+  useEffect(() => () => sheets.dispose(), [sheets]);
+  useEffect(() => { sheets.request(sheetDesign); }, [sheets, sheetDesign]);
+  const sheetNow = sheet && sheet.design === design ? sheet.view : null;
+  const findings: Finding[] = sheetNow ? sheetNow.result.findings.filter((f) => f.severity !== 'note') : [];
   useEffect(() => {
     const w = window as unknown as { __vwReadyMs?: number };
     if (op.report && w.__vwReadyMs === undefined) w.__vwReadyMs = performance.now();
@@ -121,7 +134,7 @@ export function App(): ReactElement {
 
   const respA = useDebounced(slots.A, 150), respB = useDebounced(slots.B, 150);
   const responses = useMemo(() => {
-    const one = (d: Design): Responses => { const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
+    const one = (d0: Design): Responses => { const d = modelDesign(d0); const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
     const a = one(respA);
     return { A: a, B: respB === respA ? a : one(respB) };
   }, [respA, respB]);
@@ -141,10 +154,14 @@ export function App(): ReactElement {
   };
   const switchSlot = (s: Monitor) => { setMonitorState(s); if (s !== 'dry') setActive(s); };
 
+  // a clip never changes the input calibration by itself: a demo clip's own figure is offered
   const loadClip = async (c: SourceClip, name: string) => {
     setClip(c); setClipName(name); setLoop(null); port.setLoop(null);
-    if (c.voltsAtFullScale) setCalibration(c.voltsAtFullScale);
     port.setSource(c);
+    const v = c.voltsAtFullScale;
+    if (v && Math.abs(v - calibration) > 1e-9 * v) {
+      say(`${name} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibration)}.`, false, { label: `Set the calibration to ${formatVolts(v)}`, run: () => { setCalibration(v); say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`); } });
+    }
   };
   // a recorded take becomes the clip: the same playing through A, B and dry, and the client pack
   const takeToClip = (c: SourceClip | null) => {
@@ -170,7 +187,20 @@ export function App(): ReactElement {
     } catch { say(`${f.name}: the browser could not decode this as audio`, true); }
   };
   const openDesignFile = async (f: File) => {
-    const r = importDesignText(await f.text(), f.name);
+    const text = await f.text();
+    let doc: unknown = null;
+    try { doc = JSON.parse(text); } catch { /* importDesignText says why */ }
+    if (typeof doc === 'object' && doc !== null && (doc as { schema?: unknown }).schema === NETLIST_SCHEMA) {
+      // a netlist (ours or another tool's) is a circuit too: it becomes a design, saying what it lacks
+      try {
+        const conv = netlistToDesign(parseNetlist(doc), f.name.replace(/\.json$/i, ''));
+        const d = validateDesign(conv.design);
+        commit(withSlot(slots, active, d));
+        say(`Imported the netlist ${f.name} into slot ${active}. A netlist lacks some of a design: ${conv.lost.join('; ')}.`);
+      } catch (err) { say(`${f.name}: ${(err as Error).message} — your current design was kept.`, true); }
+      return;
+    }
+    const r = importDesignText(text, f.name);
     if (!r.ok) { say(`${r.reason} — your current design was kept.`, true); return; }
     commit(withSlot(slots, active, r.design));
     say(`Imported "${r.design.name}" into slot ${active}.`);
@@ -186,11 +216,12 @@ export function App(): ReactElement {
     a.href = URL.createObjectURL(blob); a.download = designFileName(design); a.click();
     setTimeout(() => URL.revokeObjectURL(a.href), 1000);
   };
+  // the link goes to the clipboard, not the address bar: a reload must not bring back this
+  // snapshot over later edits
   const share = async () => {
     const h = await encodeDesignHash(design);
-    window.history.replaceState(null, '', `#${h}`);
-    const url = location.href;
-    try { await navigator.clipboard.writeText(url); say('Link to this design copied; it is also in the address bar.'); } catch { say('Link to this design is in the address bar.'); }
+    const url = `${location.origin}${location.pathname}${location.search}#${h}`;
+    try { await navigator.clipboard.writeText(url); say('Link to this design copied to the clipboard.'); } catch { say(`Copy this link to share the design: ${url}`); }
   };
   const chooseCabinet = async (key: string, file?: File) => {
     setCabinet(key);
@@ -231,9 +262,11 @@ export function App(): ReactElement {
   };
   useEffect(() => { const h = (e: KeyboardEvent) => keyRef.current(e); window.addEventListener('keydown', h); return () => window.removeEventListener('keydown', h); }, []);
 
+  // test hook: only in development builds or a page opened with ?vw-test (the browser tests)
   useEffect(() => {
+    if (!import.meta.env.DEV && !new URLSearchParams(location.search).has('vw-test')) return;
     const w = window as unknown as Record<string, unknown>;
-    w.__valvewright = { port, slots: () => history.present, active: () => active };
+    w.__valvewright = { port, slots: () => history.present, active: () => active, sheet: () => (sheetNow ? sheetNow.result : null) };
   });
 
   const changed = useMemo(() => new Set(differingParts(slots.A, slots.B)), [slots]);
@@ -248,21 +281,27 @@ export function App(): ReactElement {
       <header className="top">
         <h1>Valvewright <span className="sub">audition bench</span></h1>
         <label className="inline-label">Starting circuit
-          <select value={templateKey} onChange={(e) => { const t = TEMPLATES[e.target.value]; if (!t) return; const r = applyTemplate(design, t); commit(withSlot(slots, active, r.design)); say(`Slot ${active} is now "${t.name}"; kept values of ${r.kept.length} shared parts.`); setSelected(null); }}>
+          <select value={templateKey} data-testid="template-select" onChange={(e) => {
+            const t = TEMPLATES[e.target.value]; if (!t) return;
+            if (keepValues) { const r = applyTemplate(design, t); commit(withSlot(slots, active, r.design)); say(`Slot ${active} is now "${t.name}" with your values of ${r.kept.length} shared parts kept.`); }
+            else { commit(withSlot(slots, active, t)); say(`Slot ${active} is now "${t.name}", exactly as the command line has it.`); }
+            setSelected(null);
+          }}>
             {templateKey === '' && <option value="">{design.name}</option>}
             {Object.entries(TEMPLATES).map(([k, t]) => <option key={k} value={k}>{t.name}</option>)}
           </select>
         </label>
+        <label className="inline-label" title="When choosing a starting circuit, keep your values of the parts it shares with the present one"><input type="checkbox" checked={keepValues} onChange={(e) => setKeepValues(e.target.checked)} /> keep my values</label>
         <div className="toolbar" role="toolbar" aria-label="Design file">
           <button type="button" onClick={() => setHistory(undo)} disabled={!canUndo(history)} title="Ctrl+Z">Undo</button>
           <button type="button" onClick={() => setHistory(redo)} disabled={!canRedo(history)} title="Ctrl+Shift+Z">Redo</button>
           <button type="button" onClick={exportDesign}>Export JSON</button>
-          <label className="button">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
+          <label className="button" title="A design file, or a netlist-v1 file">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
           <button type="button" onClick={() => void share()}>Copy link</button>
           <button type="button" onClick={() => setCaution('first-run')}>Safety</button>
         </div>
       </header>
-      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} <button type="button" className="link" onClick={() => setMessage(null)} aria-label="Dismiss message">×</button></p>}
+      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} {message.action && <button type="button" onClick={message.action.run} data-testid="message-action">{message.action.label}</button>} <button type="button" className="link" onClick={() => setMessage(null)} aria-label="Dismiss message">×</button></p>}
 
       <main className="grid">
         <section className="panel circuit" aria-labelledby="circuit-h">
@@ -271,8 +310,8 @@ export function App(): ReactElement {
         </section>
 
         <div className="side">
-          <PartEditor design={design} part={part} stress={op.report?.parts.find((p) => p.id === selected)} onChange={onPart} onSupplyVolts={onSupply} />
-          <OperatingPanel report={op.report} failure={op.failure} findings={op.findings} slot={active} />
+          <PartEditor design={design} part={part} rating={sheetNow?.rows.find((r) => r.ref === selected) ?? null} sheetPending={!sheetNow} onChange={onPart} onSupplyVolts={onSupply} />
+          <OperatingPanel report={op.report} failure={op.failure} findings={findings} slot={active} supply={sheetNow?.result.supply ? { loadedVolts: sheetNow.result.supply.loadedVolts, unloadedVolts: sheetNow.result.supply.unloadedVolts } : null} />
         </div>
 
         <section className="panel listen" aria-labelledby="listen-h">
@@ -306,7 +345,8 @@ export function App(): ReactElement {
             </div>
             <button type="button" onClick={() => { commit(copySlot(slots, 'A')); say('Copied slot A to slot B.'); }}>Copy A → B</button>
             <label className="inline-label"><input type="checkbox" checked={matched} onChange={(e) => setMatched(e.target.checked)} /> loudness-matched</label>
-            <span className="offset" data-testid="offset">{status?.offsetDb != null ? `B is ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB against A${matched ? ' (matched out)' : ''}` : 'level offset: —'}</span>
+            <span className="offset" data-testid="offset" title="Measured from the sound both slots make (BS.1770 K-weighting, last 3 s); the output loudness is measured the same way on what you hear">{status?.offsetDb != null ? `B is ${status.offsetDb >= 0 ? '+' : ''}${status.offsetDb.toFixed(1)} dB against A${matched ? ` (B gain ${status.matchGainDb >= 0 ? '+' : ''}${status.matchGainDb.toFixed(1)} dB)` : ''}` : 'level offset: — (play something)'}</span>
+            <span className="offset" data-testid="output-lufs">output {status?.outputLufs != null ? `${status.outputLufs.toFixed(1)} LUFS` : '—'} (3 s)</span>
           </div>
           <div className="row">
             <label className="inline-label">Cabinet
@@ -365,7 +405,7 @@ export function App(): ReactElement {
           <ScopePlot trace={() => port.scope(active)} position={() => port.positionSeconds()} duration={dur} chosen={chosenScope} />
           <div className="plots">
             <ResponsePlot title="Whole circuit, small signal at the operating point" series={[{ name: 'A', curve: responses.A.whole, cls: 'a' }, { name: 'B', curve: responses.B.whole, cls: 'b' }]} note={responses.A.whole ? null : responses.A.reason} />
-            <ResponsePlot title="Tone network" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }]} note={responses.A.tone ? `parts: ${responses.A.toneParts.join(', ')}` : responses.A.reason} />
+            <ResponsePlot title="Tone network as the circuit drives and loads it" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }, { name: 'A from an ideal source', curve: responses.A.toneIdeal, cls: 'ideal' }]} note={responses.A.tone ? toneNote(responses.A) : responses.A.reason} />
             <SpectrumPlot read={(into) => port.spectrum(into)} />
           </div>
         </section>
@@ -374,6 +414,13 @@ export function App(): ReactElement {
       {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); setCaution(null); }} onCancel={caution === 'live' ? () => setCaution(null) : undefined} />}
     </div>
   );
+}
+
+/** What the tone plot shows: parts, the source impedance and the control's corners at both ends. */
+function toneNote(r: Responses): string {
+  const e = r.toneEnds;
+  const hz = (f: number | null) => (f === null ? 'none below 200 kHz' : f >= 1000 ? `${(f / 1000).toFixed(1)} kHz` : `${f.toFixed(0)} Hz`);
+  return `parts ${r.toneParts.join(', ')}${r.toneSourceOhms !== null ? `; driven through ${(r.toneSourceOhms / 1e3).toFixed(0)} k` : ''}${e ? `; ${e.potId} corner ${hz(e.atPosition0Hz)} at 0, ${hz(e.atPosition1Hz)} at 10` : ''}`;
 }
 
 /** Sets the calibration from an interface's maximum input level (spec sheets give it in dBu). */

@@ -81,7 +81,7 @@ export function Meters({ port, voltsAtFullScale }: { port: AudioPort; voltsAtFul
   }, [port, voltsAtFullScale]);
   return (
     <div className="meters">
-      <div className="meter"><span className="meter-label">Circuit input</span><span className="meter-track"><span ref={inBar} className="meter-fill" /></span><span ref={inText} className="meter-num" aria-live="off">—</span><span className="meter-scale">1 mV … 3 V <span ref={clipMark} className="clip-mark" data-testid="input-clip" hidden title="The source reached full scale: the interface (or the file) clips, and the circuit hears a flattened wave. Lower the interface gain, then set the calibration to match.">input at full scale</span></span></div>
+      <div className="meter"><span className="meter-label">Circuit input</span><span className="meter-track"><span ref={inBar} className="meter-fill" /></span><span ref={inText} className="meter-num" aria-live="off" data-testid="input-level">—</span><span className="meter-scale">1 mV … 3 V <span ref={clipMark} className="clip-mark" data-testid="input-clip" hidden title="The source reached full scale: the interface (or the file) clips, and the circuit hears a flattened wave. Lower the interface gain, then set the calibration to match.">input at full scale</span></span></div>
       <div className="meter"><span className="meter-label">Output</span><span className="meter-track"><span ref={outBar} className="meter-fill out" /></span><span ref={outText} className="meter-num" aria-live="off">—</span><span className="meter-scale">−60 … 0 dBFS</span></div>
     </div>
   );

@@ -3,11 +3,12 @@ import type { ReactElement } from 'react';
 import type { OperatingReport } from './model/operating.ts';
 import type { Finding } from '../dsp/analysis/wiring-check.ts';
 
-export function OperatingPanel({ report, failure, findings, slot }: { report: OperatingReport | null; failure: string | null; findings: readonly Finding[]; slot: string }): ReactElement {
+export function OperatingPanel({ report, failure, findings, slot, supply }: { report: OperatingReport | null; failure: string | null; findings: readonly Finding[]; slot: string; supply: { loadedVolts: number; unloadedVolts: number } | null }): ReactElement {
   return (
     <section className="panel op" aria-labelledby="op-h">
       <h2 id="op-h">Operating point <span className="sub">slot {slot}, at rest</span></h2>
       {failure && <p className="warn" role="alert">{failure}</p>}
+      {supply && <p className="fine" data-testid="supply-bplus">B+ from the power-supply section: {supply.loadedVolts.toFixed(1)} V loaded, {supply.unloadedVolts.toFixed(1)} V unloaded (the cold start sees the unloaded figure)</p>}
       {report && (
         <>
           {report.warnings.length > 0 && (
@@ -16,7 +17,7 @@ export function OperatingPanel({ report, failure, findings, slot }: { report: Op
             </ul>
           )}
           {findings.length > 0 && (
-            <ul className="findings" aria-label="Wiring findings">
+            <ul className="findings" aria-label="Wiring and worst-case findings">
               {findings.map((f) => <li key={f.code + f.message} className={f.severity}>{f.severity}: {f.message}</li>)}
             </ul>
           )}

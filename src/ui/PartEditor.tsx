@@ -5,7 +5,7 @@ import { taperFraction, type Design, type Part, type PotPart, type Taper, type T
 import { formatValue, parseValue, type ValueUnit } from '../dsp/parts/values.ts';
 import { snapToSeries, type ESeries } from '../dsp/parts/eseries.ts';
 import { TUBE_LIBRARY, TUBE_SAMPLES, tubeType } from '../dsp/tubes/library.ts';
-import type { PartStress } from './model/operating.ts';
+import type { PartsRow } from '../dsp/analysis/parts-list.ts';
 
 export interface ValueFieldProps {
   readonly label: string;
@@ -150,12 +150,14 @@ function TubeControls({ part, onChange }: { part: TubePart; onChange: (p: Part) 
 export interface PartEditorProps {
   readonly design: Design;
   readonly part: Part | null;
-  readonly stress: PartStress | undefined;
+  /** The part's row of the worst-case sheet (as `valvewright parts` prints it); null while it is worked out. */
+  readonly rating: PartsRow | null;
+  readonly sheetPending: boolean;
   readonly onChange: (part: Part) => string | null;
   readonly onSupplyVolts: (volts: number) => string | null;
 }
 
-export function PartEditor({ design, part, stress, onChange, onSupplyVolts }: PartEditorProps): ReactElement {
+export function PartEditor({ design, part, rating, sheetPending, onChange, onSupplyVolts }: PartEditorProps): ReactElement {
   const [snap, setSnap] = useState<ESeries | 'off'>('off');
   const snapId = useId();
   return (
@@ -182,11 +184,16 @@ export function PartEditor({ design, part, stress, onChange, onSupplyVolts }: Pa
       {part?.kind === 'switch' && (
         <label className="inline-label"><input type="checkbox" checked={part.closed} onChange={(e) => onChange({ ...part, closed: e.target.checked })} /> closed</label>
       )}
-      {stress && (
-        <p className="stress">{stress.dcVolts !== undefined ? `DC across: ${stress.dcVolts.toFixed(1)} V` : `Dissipation: ${((stress.watts ?? 0) * 1e3).toFixed(1)} mW`} — {stress.suggestion}</p>
+      {part && part.kind !== 'tube' && part.kind !== 'switch' && (
+        rating ? (
+          <p className="stress" data-testid="part-rating">Worst case: <span data-testid="part-worst">{rating.worstCase}</span> — buy <strong data-testid="part-buy">{rating.buy}</strong> <span className="fine">(warm idle, cold start at the unloaded B+, maximum input: the sheet `check` and `parts` print)</span></p>
+        ) : <p className="stress fine">{sheetPending ? 'Working out the worst case…' : 'No worst-case figure for this part.'}</p>
       )}
+      {part?.kind === 'tube' && rating && <p className="stress" data-testid="part-rating">Worst case: <span data-testid="part-worst">{rating.worstCase}</span></p>}
       <hr />
-      <ValueField key={`bplus-${design.supply.volts}`} label="B+ supply" unit="volts" value={design.supply.volts} snap="off" onCommit={onSupplyVolts} testId="bplus-input" />
+      {design.powerSupply
+        ? <p className="fine" data-testid="bplus-from-supply">B+ comes from the design's power-supply section (transformer, rectifier, filter): the operating point shows its estimate. Change that section to change it.</p>
+        : <ValueField key={`bplus-${design.supply.volts}`} label="B+ supply" unit="volts" value={design.supply.volts} snap="off" onCommit={onSupplyVolts} testId="bplus-input" />}
     </section>
   );
 }

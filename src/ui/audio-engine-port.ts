@@ -1,14 +1,13 @@
 // AudioPort over the real-time engine of src/audio (Tone.js graph around the circuit worklet).
 // The engine is created on the first call that needs sound (a user gesture); settings made
 // before that are kept and applied then.
-import { designCircuit, type Design, type Part } from '../dsp/circuit/design.ts';
+import { designCircuit, withVolumeFull, type Design, type Part } from '../dsp/circuit/design.ts';
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import { AudioSettings, createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
 import type { Take } from '../audio/take.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
-import { offsetDb } from './model/meters.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
 
 const SLOTS: readonly Slot[] = ['A', 'B'];
@@ -33,13 +32,16 @@ export class EnginePort implements AudioPort {
   private designs: Partial<Record<Slot, Design>> = {};
   /** The audio settings, held once: the engine sends from and writes to this object. */
   private readonly settings = new AudioSettings();
+  /**
+   * Each slot's output scale: its design with the volume fully clockwise (so the knob is heard),
+   * levelled at 1 kHz. The live match then measures and takes out what is left between them.
+   */
   private scales: Partial<Record<Slot, number>> = {};
-  private matched = true;
   private clip: SourceClip | null = null;
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, live: 'off', message: null, qualityFactor: this.settings.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, matchGainDb: 0, outputLufs: null, live: 'off', message: null, qualityFactor: this.settings.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
   private readonly guard = new OverloadGuard(this.settings.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private sendsInFlight = 0;
@@ -74,7 +76,10 @@ export class EnginePort implements AudioPort {
           else if (m.type === 'meter') {
             const now = performance.now();
             this.observeLoad(m.loadFraction, now);
-            if (now - this.lastStatusMs > 500) { this.lastStatusMs = now; this.emit({ loadFraction: m.loadFraction, playing: e.playing }); }
+            if (now - this.lastStatusMs > 500) {
+              this.lastStatusMs = now;
+              this.emit({ loadFraction: m.loadFraction, playing: e.playing, offsetDb: m.matchOffsetDb ?? null, matchGainDb: m.matchGainDb ?? 0, outputLufs: m.outputLufs ?? null });
+            }
           }
         });
         for (const s of SLOTS) await this.sendDesign(s);
@@ -108,20 +113,15 @@ export class EnginePort implements AudioPort {
   }
 
   private outputScale(slot: Slot): number {
-    const own = this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(this.designs[slot]!), 48000, this.settings.inputVolts));
-    if (this.matched || slot === 'A') return own;
-    return this.scales.A ?? own;
+    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.settings.inputVolts));
   }
 
-  /** Re-estimate both slots' output scalings (loudness match) a little after edits. */
+  /** Re-estimate both slots' output scales a little after edits (the live match follows the sound itself). */
   private releveling(): void {
     if (this.levelTimer) clearTimeout(this.levelTimer);
     this.levelTimer = setTimeout(() => {
       this.levelTimer = null;
       this.scales = {};
-      for (const s of SLOTS) if (this.designs[s]) this.outputScale(s);
-      const a = this.scales.A, b = this.scales.B;
-      this.emit({ offsetDb: a && b ? offsetDb(a, b) : null });
       if (this.engine) for (const s of SLOTS) if (this.designs[s]) this.engine.setOutputScale(s, this.outputScale(s));
     }, 250);
   }
@@ -137,7 +137,7 @@ export class EnginePort implements AudioPort {
   }
 
   setMonitor(target: Monitor): void { this.settings.monitor = target; this.engine?.setMonitor(target); }
-  setLoudnessMatch(on: boolean): void { this.matched = on; this.releveling(); }
+  setLoudnessMatch(on: boolean): void { this.settings.loudnessMatch = on; this.engine?.setLoudnessMatch(on); }
   setInputCalibration(v: number): void { if (this.settings.inputVolts === v) return; this.settings.inputVolts = v; this.engine?.setInputCalibration(v); this.releveling(); }
   setQuality(f: OversamplingFactor): void {
     this.settings.factor = f;

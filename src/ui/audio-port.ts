@@ -23,8 +23,16 @@ export interface AudioStatus {
   readonly durationSeconds: number;
   /** Processor time over real time of the last render, or null before one. */
   readonly loadFraction: number | null;
-  /** Level of B relative to A (dB) at their output scalings; shown when loudness matching. */
+  /**
+   * Loudness of B against A (dB), measured from the sound both slots make over a 3 s window
+   * (null while either is silent): what a meter on the output reads when A and B are switched
+   * with the match off. With the match on, B's gain takes it out.
+   */
   readonly offsetDb: number | null;
+  /** The match gain on B now, dB (0 with the match off). */
+  readonly matchGainDb: number;
+  /** Loudness of what is heard (the output, after the limiter) over the same 3 s window, LUFS; null while silent. */
+  readonly outputLufs: number | null;
   readonly live: 'off' | 'muted' | 'on';
   readonly message: string | null;
   /** The live quality the engine runs at (the overload guard may lower it). */

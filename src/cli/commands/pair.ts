@@ -20,7 +20,9 @@ import {
   type PairGainPlan, type PairOutputFormat, type PairSideInfo, type PairVariant,
 } from '../../dsp/render/pair.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
-import { CliError, loadDesign, optNumber, optString, parseArgs } from '../args.ts';
+import { CliError, optNumber, optString, parseArgs } from '../args.ts';
+import { loadModelDesigns, setSpecs } from '../circuit-load.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE } from '../../dsp/circuit/design.ts';
 import { openWavFile, WavFileWriter, type WavFileReader } from '../wav-file.ts';
 import { renderInParallel } from '../pair-renders.ts';
 /**
@@ -35,7 +37,7 @@ import { renderInParallel } from '../pair-renders.ts';
 export const PAIR_DEFAULT_OVERSAMPLE: OversamplingFactor = 8;
 import type { CommandIO } from '../main.ts';
 
-export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
+export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--set PART.FIELD=VALUE ...] [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
 const BLOCK = 8192;
 const MAX_WRITE_PASSES = 4;
 
@@ -112,7 +114,7 @@ async function runThroughDi(
 }
 
 export async function runPair(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['dry', 'force', 'float', 'json', 'help'], ['input', 'design', 'out', 'target-lufs', 'peak-ceiling', 'oversample', 'input-volts', 'max-memory-mb']);
+  const a = parseArgs(argv, ['dry', 'force', 'float', 'json', 'help'], ['input', 'design', 'set', 'out', 'target-lufs', 'peak-ceiling', 'oversample', 'input-volts', 'max-memory-mb']);
   if (a.options.has('help')) {
     io.out(PAIR_USAGE);
     io.out('Renders two designs (or dry and one design) from the same DI, matches their integrated loudness');
@@ -131,14 +133,15 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
   if (dry && refs.length !== 1) throw new CliError(`--dry pairs the DI with one design: give exactly one --design (got ${refs.length})`);
   if (!dry && refs.length !== 2) throw new CliError(`give two designs (--design A --design B) or --dry and one --design (got ${refs.length} --design)`);
   const factor = optNumber(a, 'oversample', PAIR_DEFAULT_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128')) as OversamplingFactor;
-  const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
+  const inputVolts = optNumber(a, 'input-volts', DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   const ceilingDbtp = optNumber(a, 'peak-ceiling', -1, (x) => (x <= 0 && x >= -60 ? null : 'must be between -60 and 0 dBTP'));
   const targetLufs = a.options.has('target-lufs') ? optNumber(a, 'target-lufs', 0, (x) => (x < 0 && x > -70 ? null : 'must be between -70 and 0 LUFS')) : undefined;
   const maxMemoryMb = optNumber(a, 'max-memory-mb', 300, (x) => (x >= 0 ? null : 'must be zero or more'));
   const format: PairOutputFormat = a.options.has('float') ? FLOAT32 : PCM24;
   const force = a.options.has('force');
 
-  const designs = await Promise.all(refs.map(async (ref) => ({ design: await loadDesign(ref), ref })));
+  // --set values on each design that has the part; a power-supply section's estimate as B+
+  const designs = (await loadModelDesigns(refs, setSpecs(a))).map((design, i) => ({ design, ref: refs[i]! }));
   const reader = await openWavFile(inPath);
   try {
     const h = reader.header;

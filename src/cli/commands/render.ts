@@ -5,19 +5,24 @@ import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/overs
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
 import { CircuitEngine, type Antialiasing } from '../../dsp/circuit/engine.ts';
-import { CliError, loadCircuitArg, optNumber, optString, parseArgs } from '../args.ts';
+import { CliError, optNumber, optString, parseArgs } from '../args.ts';
+import { CIRCUIT_OPTIONS, loadCircuitSource, sourceNotes } from '../circuit-load.ts';
+import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, designCircuit, withVolumeFull } from '../../dsp/circuit/design.ts';
+import { TruePeakMeter } from '../../dsp/analysis/true-peak.ts';
 import { openWavFile, WavFileWriter } from '../wav-file.ts';
 import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
 import type { CommandIO } from '../main.ts';
 import { humForRender } from '../hum.ts';
 
-export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60]';
+export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60] [--json]';
+/** Output ceiling, dBTP (true peak, ITU-R BS.1770-4 Annex 2 meter: analysis/true-peak.ts). */
+export const RENDER_CEILING_DBTP = -1;
 const BLOCK = 8192;
 export const DEFAULT_RENDER_OVERSAMPLE = 8;
 const PROGRESS_INTERVAL_MS = 5000;
 
 export async function runRender(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['raw', 'json'], ['design', 'netlist', 'input', 'output', 'oversample', 'input-volts', 'hum', 'antialias']);
+  const a = parseArgs(argv, ['raw', 'json'], [...CIRCUIT_OPTIONS, 'input', 'output', 'oversample', 'input-volts', 'hum', 'antialias']);
   const inPath = optString(a, 'input');
   const outPath = optString(a, 'output');
   if (!inPath || !outPath) throw new CliError(`missing --input or --output (${RENDER_USAGE})`);
@@ -31,12 +36,15 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const antialiasing: Antialiasing | undefined = raw || aaRaw === 'off' ? 'off' : aaRaw === 'on' ? 'averaged' : undefined;
   const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128'));
   if (raw && a.options.has('oversample')) throw new CliError('--raw renders the plain circuit at the file\'s rate: drop --oversample');
-  const inputVolts = optNumber(a, 'input-volts', 1, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
+  const inputVolts = optNumber(a, 'input-volts', DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   if (raw && a.options.has('input-volts')) throw new CliError('--raw reads input samples as volts: drop --input-volts');
   const humText = optString(a, 'hum');
-  const loaded0 = await loadCircuitArg(a);
+  const loaded0 = await loadCircuitSource(a, { wiring: true, usage: RENDER_USAGE });
+  for (const l of sourceNotes(loaded0)) io.err(l);
   const withHum = humText === undefined ? null : humForRender(loaded0, humText, 1);
   const loaded = withHum ? withHum.loaded : loaded0;
+  // levelled against the design with its volume control fully clockwise, so the knob is heard
+  const levelRef = loaded.fromNetlist || !loaded.design ? loaded.circuit : designCircuit(withVolumeFull(loaded.design));
   const reader = await openWavFile(inPath);
   const h = reader.header;
   if (h.frameCount === 0) { await reader.close(); throw new CliError(`${inPath} has no audio frames`); }
@@ -44,8 +52,11 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const fs = h.sampleRate;
   const factorT = factor as OversamplingFactor;
   const model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
-  const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(loaded.circuit, fs, inputVolts);
-  const limiter = new PeakLimiter(fs, -1);
+  const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(levelRef, fs, inputVolts);
+  const limiter = new PeakLimiter(fs, RENDER_CEILING_DBTP);
+  // the limiter bounds sample peaks; the rendered output is kept (float) and trimmed so its true
+  // peak (inter-sample, 4x) stays under the ceiling too, then written
+  const kept: Float32Array[] = [];
   const writer = await WavFileWriter.create(outPath, fs, 1, raw ? { bitDepth: 32, float: true } : { bitDepth: 24, float: false });
   const chans = Array.from({ length: h.channelCount }, () => new Float32Array(BLOCK));
   const mono = new Float64Array(BLOCK);
@@ -54,6 +65,8 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const hum = withHum ? humForRender(loaded0, humText!, fs).hum : null;
   const humEngine = model instanceof CircuitEngine ? model : model.engine;
   let nonFinite = 0;
+  let trimGain = 1;
+  let outTruePeakDbtp: number | null = null;
   // progress on stderr every few seconds of a long render (128x runs at about 0.17x real time)
   const started = Date.now();
   let lastReport = started;
@@ -78,7 +91,12 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
         if (!Number.isFinite(y)) { y = 0; nonFinite++; }
         out[k] = raw ? y : limiter.process(y * outScale);
       }
-      await writer.write([out], n);
+      if (raw) await writer.write([out], n);
+      else kept.push(out.slice(0, n));
+    }
+    if (!raw) {
+      trimGain = await writeUnderTruePeakCeiling(kept, writer, RENDER_CEILING_DBTP);
+      outTruePeakDbtp = truePeakDbtp(kept, 1); // the blocks now hold what was written
     }
     await writer.finish();
   } catch (e) {
@@ -93,9 +111,40 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
     output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: engine.averagingDelaySamples > 0, raw,
     inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
+    // the model's B+ at its node at rest (the power-supply estimate where the design has one)
+    supplyVolts: loaded.fromNetlist || !loaded.design ? null : engine.operatingPoint().nodes[loaded.design.supply.node] ?? null,
+    ceilingDbtp: raw ? null : RENDER_CEILING_DBTP, truePeakTrimDb: raw ? null : 20 * Math.log10(trimGain), outputTruePeakDbtp: outTruePeakDbtp,
     newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,
   };
+  if (!raw) io.err(`input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`);
   if (a.options.has('json')) io.out(JSON.stringify(summary));
-  else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limiter at -1 dBFS`}) to ${outPath}`);
+  else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`);
   return 0;
+}
+
+/** True peak of the kept blocks times `gain`, dBTP, by the project's meter (BS.1770-4 Annex 2). */
+function truePeakDbtp(blocks: readonly Float32Array[], gain: number): number {
+  const m = new TruePeakMeter(1);
+  const tmp = new Float64Array(BLOCK);
+  for (const b of blocks) {
+    for (let k = 0; k < b.length; k++) tmp[k] = Math.fround(b[k]! * gain);
+    m.process([tmp], 0, b.length);
+  }
+  return m.truePeakDbtp();
+}
+
+/**
+ * Write the blocks scaled so the true peak stays at or under the ceiling (a static trim: the
+ * sample-peak limiter already holds the sample peaks; only inter-sample overshoot is left).
+ * Returns the gain applied. The writer quantises to 24 bits: a 0.01 dB margin covers that.
+ */
+async function writeUnderTruePeakCeiling(blocks: Float32Array[], writer: WavFileWriter, ceilingDbtp: number): Promise<number> {
+  const tp = truePeakDbtp(blocks, 1);
+  const limit = ceilingDbtp - 0.01;
+  const gain = tp > limit ? Math.pow(10, (limit - tp) / 20) : 1;
+  for (const b of blocks) {
+    if (gain !== 1) for (let k = 0; k < b.length; k++) b[k] = b[k]! * gain;
+    await writer.write([b], b.length);
+  }
+  return gain;
 }

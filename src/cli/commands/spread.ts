@@ -4,17 +4,19 @@ import { join } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { summariseSpread, tubeCaseDesign } from '../../dsp/analysis/spread.ts';
 import { CliError, optNumber, optString, parseArgs } from '../args.ts';
-import { designArg } from '../design-load.ts';
+import { CIRCUIT_OPTIONS, loadDesignSource, sourceNotes } from '../circuit-load.ts';
 import { spreadRunsParallel } from '../spread-workers.ts';
 import type { CommandIO } from '../main.ts';
 
-const USAGE = 'usage: valvewright spread --design FILE|TEMPLATE --runs N --seed S [--json] [--workers W] [--write-cases DIR]';
+export const SPREAD_USAGE = 'usage: valvewright spread (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] --runs N --seed S [--json] [--workers W] [--write-cases DIR]';
 
 export async function runSpread(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['json', 'help'], ['design', 'runs', 'seed', 'workers', 'write-cases']);
-  if (a.options.has('help')) { io.out(USAGE); return 0; }
-  const design = await designArg(a, USAGE);
-  if (!a.options.has('runs') || !a.options.has('seed')) throw new CliError(`give --runs and --seed (${USAGE})`);
+  const a = parseArgs(argv, ['json'], [...CIRCUIT_OPTIONS, 'runs', 'seed', 'workers', 'write-cases']);
+  const src = await loadDesignSource(a, { wiring: true, usage: SPREAD_USAGE });
+  for (const l of sourceNotes(src)) io.err(l);
+  // the model's design: the supply section's estimate as B+ where there is one
+  const design = src.design;
+  if (!a.options.has('runs') || !a.options.has('seed')) throw new CliError(`give --runs and --seed (${SPREAD_USAGE})`);
   const runs = optNumber(a, 'runs', 0, (x) => (Number.isInteger(x) && x >= 1 && x <= 100000 ? null : 'must be an integer 1..100000'));
   const seed = optNumber(a, 'seed', 0, (x) => (Number.isInteger(x) && x >= 0 && x <= 0xffffffff ? null : 'must be an integer 0..4294967295'));
   const workers = optNumber(a, 'workers', Math.min(4, availableParallelism()), (x) => (Number.isInteger(x) && x >= 1 && x <= 64 ? null : 'must be an integer 1..64'));

@@ -3,10 +3,10 @@ import { designSupply } from '../../dsp/analysis/design-supply.ts';
 import type { PowerSupplySection } from '../../dsp/circuit/design.ts';
 import type { RectifierTopology } from '../../dsp/analysis/supply.ts';
 import { CliError, optNumber, optString, parseArgs, type ParsedArgs } from '../args.ts';
-import { designArg } from '../design-load.ts';
+import { loadDesignSource } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
-const USAGE = 'usage: valvewright supply --design FILE|TEMPLATE [--json] [--secondary-volts V --secondary-amps A [--rectifier bridge|full-wave-ct|half-wave] [--mains 50|60] [--reservoir-farads F] [--heater-volts V --heater-amps A]]';
+export const SUPPLY_USAGE = 'usage: valvewright supply --design FILE|TEMPLATE [--set PART.FIELD=VALUE ...] [--json] [--secondary-volts V --secondary-amps A [--rectifier bridge|full-wave-ct|half-wave] [--mains 50|60] [--reservoir-farads F] [--heater-volts V --heater-amps A]]';
 
 function sectionFromFlags(a: ParsedArgs): PowerSupplySection | undefined {
   if (!a.options.has('secondary-volts')) return undefined;
@@ -25,9 +25,8 @@ function sectionFromFlags(a: ParsedArgs): PowerSupplySection | undefined {
 }
 
 export async function runSupply(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['json', 'help'], ['design', 'secondary-volts', 'secondary-amps', 'rectifier', 'mains', 'reservoir-farads', 'heater-volts', 'heater-amps']);
-  if (a.options.has('help')) { io.out(USAGE); return 0; }
-  const design = await designArg(a, USAGE);
+  const a = parseArgs(argv, ['json'], ['design', 'set', 'secondary-volts', 'secondary-amps', 'rectifier', 'mains', 'reservoir-farads', 'heater-volts', 'heater-amps']);
+  const design = (await loadDesignSource(a, { wiring: false, usage: SUPPLY_USAGE })).given;
   const section = sectionFromFlags(a);
   if (!section && !design.powerSupply) throw new CliError(`design "${design.name}" has no "powerSupply" section: add one or give --secondary-volts and --secondary-amps`);
   const s = designSupply(design, section);
@@ -39,11 +38,14 @@ export async function runSupply(argv: readonly string[], io: CommandIO): Promise
     nodes: e.nodes.map(({ rippleHarmonics: _h, ...rest }) => rest),
     warnings: e.warnings, notes: e.notes, iterations: s.iterations,
   };
-  if (a.options.has('json')) { io.out(JSON.stringify(out, null, 2)); return 0; }
+  // a FAIL (heater budget, a capacitor rated under the unloaded B+, a collapsing supply) exits 1
+  const failed = (e.heater !== null && !e.heater.pass) || e.warnings.some((w) => /overloaded|too low|collapses|heater voltage|dropping resistor/.test(w));
+  if (a.options.has('json')) { io.out(JSON.stringify({ ...out, pass: !failed }, null, 2)); return failed ? 1 : 0; }
   io.out(`supply of ${design.name}: unloaded ${s.unloadedVolts.toFixed(1)} V, loaded ${s.loadedVolts.toFixed(1)} V at ${(s.loadAmps * 1e3).toFixed(2)} mA`);
   io.out(`  ripple ${s.ripplePeakToPeakVolts.toPrecision(3)} V p-p at ${s.rippleHertz} Hz on the supply node (reservoir by I/(2fC): ${e.formulaRippleVolts.toPrecision(3)} V)`);
   io.out(`  model B+: ${s.design.supply.volts.toFixed(1)} V behind ${s.design.supply.ohms.toFixed(0)} ohms`);
   if (e.heater) io.out(`  heaters: ${e.heater.totalAmps.toFixed(2)} A of ${e.heater.windingAmps} A at ${e.heater.windingVolts} V${e.heater.pass ? '' : ' (FAIL)'}`);
   for (const w of e.warnings) io.out(`  warning: ${w}`);
-  return 0;
+  io.out(failed ? 'FAIL: see the warnings above' : 'pass');
+  return failed ? 1 : 0;
 }

@@ -143,3 +143,38 @@ export function toneNetworkAc(
   };
   return sweep(linearNetwork(sub, { tubes: 'removed' }), sub.output.node, options.frequenciesHz ?? logFrequencies());
 }
+
+/**
+ * Output impedance of the stage that drives a tone network (magnitude at `hertz`, ohms): the
+ * linearised circuit with the network disconnected, input EMF on, solved open and with a test
+ * resistor from the driving node to ground (Thevenin: Z = Rt·(Voc/Vl − 1)).
+ */
+export function drivingImpedanceOhms(circuit: EngineCircuit | Netlist, op: OperatingPoint, network: { readonly elementIds: readonly string[]; readonly drivenFrom: string }, hertz = 1000): number {
+  const ids = new Set(network.elementIds);
+  const rest = { ...circuit, elements: (circuit.elements as readonly EngineElement[]).filter((e) => !(ids.has(e.id) || ids.has(designId(e.id)))) } as EngineCircuit;
+  const w = 2 * Math.PI * hertz;
+  const open = linearNetwork(rest, { tubes: 'linearised', op });
+  const testOhms = 10e3;
+  const loaded: LinearNetwork = { ...open, admittances: [...open.admittances, { id: '<test>', a: network.drivenFrom, b: circuit.ground, siemens: 1 / testOhms, farads: 0 }] };
+  const vo = solveLinear(open, w), vl = solveLinear(loaded, w);
+  const n = network.drivenFrom;
+  const or = vo.re[n] ?? 0, oi = vo.im[n] ?? 0, lr = vl.re[n] ?? 0, li = vl.im[n] ?? 0;
+  const d = lr * lr + li * li;
+  if (!(d > 0)) return 0;
+  // Voc / Vl − 1, complex
+  const qr = (or * lr + oi * li) / d - 1, qi = (oi * lr - or * li) / d;
+  return testOhms * Math.hypot(qr, qi);
+}
+
+/**
+ * The tone network as the circuit drives and loads it: driven from the driving stage's output
+ * impedance (drivingImpedanceOhms), loaded by everything in the network (volume pot, output load).
+ */
+export function toneNetworkInCircuit(
+  circuit: EngineCircuit | Netlist, op: OperatingPoint,
+  network: { readonly elementIds: readonly string[]; readonly drivenFrom: string; readonly outputNode?: string },
+  frequenciesHz?: readonly number[],
+): { readonly sourceOhms: number; readonly response: AcResponse } {
+  const sourceOhms = drivingImpedanceOhms(circuit, op, network);
+  return { sourceOhms, response: toneNetworkAc(circuit, network, { sourceOhms, ...(frequenciesHz ? { frequenciesHz } : {}) }) };
+}

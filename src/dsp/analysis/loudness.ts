@@ -112,7 +112,33 @@ function checkSampleRate(sampleRateHz: number): void {
   }
 }
 
-function energyToLufs(meanSquareWeighted: number): number {
+/**
+ * K-weight x[from … to-1] (both stages, transposed direct form II, float64 state in
+ * state[at … at+3]) and add the sum of squares of the weighted signal to state[at+4]. The one
+ * filter loop of the file meter and the live match (loudness-match.ts); returns nothing, so a
+ * call boxes no number.
+ */
+export function kWeightedEnergy(k: KWeighting, state: Float64Array, at: number, x: ArrayLike<number>, from: number, to: number): void {
+  // indexed, not destructured: array destructuring runs an iterator, which allocates on the audio path
+  const sb = k.shelf.b, sa = k.shelf.a, hb = k.highPass.b, ha = k.highPass.a;
+  const b0 = sb[0], b1 = sb[1], b2 = sb[2], a1 = sa[1], a2 = sa[2];
+  const c0 = hb[0], c1 = hb[1], c2 = hb[2], d1 = ha[1], d2 = ha[2];
+  let s1 = state[at]!, s2 = state[at + 1]!, t1 = state[at + 2]!, t2 = state[at + 3]!, e = state[at + 4]!;
+  for (let j = from; j < to; j++) {
+    const v = x[j] ?? 0;
+    const u = b0 * v + s1;
+    s1 = b1 * v - a1 * u + s2;
+    s2 = b2 * v - a2 * u;
+    const y = c0 * u + t1;
+    t1 = c1 * u - d1 * y + t2;
+    t2 = c2 * u - d2 * y;
+    e += y * y;
+  }
+  state[at] = s1; state[at + 1] = s2; state[at + 2] = t1; state[at + 3] = t2; state[at + 4] = e;
+}
+
+/** Loudness of a K-weighted, channel-weighted mean square, LUFS (BS.1770-4 eq. 2). Shared with the live match. */
+export function energyToLufs(meanSquareWeighted: number): number {
   return meanSquareWeighted > 0 ? -0.691 + 10 * Math.log10(meanSquareWeighted) : -Infinity;
 }
 
@@ -154,7 +180,7 @@ export class LoudnessMeter {
   readonly channelCount: number;
   private readonly weights: Float64Array;
   private readonly k: KWeighting;
-  private readonly state: Float64Array; // 4 per channel: shelf s1 s2, high-pass s1 s2
+  private readonly state: Float64Array; // 5 per channel: shelf s1 s2, high-pass s1 s2, block energy
   private readonly acc: Float64Array;
   private readonly subEnergy = new GrowableF64(); // sum_i G_i sum_n y_i^2 per sub-block
   private readonly subLength = new GrowableF64(); // samples per sub-block
@@ -174,7 +200,7 @@ export class LoudnessMeter {
     this.channelCount = channelCount;
     this.weights = Float64Array.from(w);
     this.k = kWeightingCoefficients(sampleRateHz);
-    this.state = new Float64Array(4 * channelCount);
+    this.state = new Float64Array(5 * channelCount);
     this.acc = new Float64Array(channelCount);
     this.subLen = this.boundary(1);
     this.peaks = new TruePeakMeter(channelCount);
@@ -204,44 +230,19 @@ export class LoudnessMeter {
       const len = channels[c]?.length ?? 0;
       if (offset < 0 || offset + n > len) throw new Error(`channel ${c} has ${len} samples, need ${offset + n}`);
     }
-    const { shelf, highPass } = this.k;
-    const [b0, b1, b2] = shelf.b;
-    const a1 = shelf.a[1];
-    const a2 = shelf.a[2];
-    const [c0, c1, c2] = highPass.b;
-    const d1 = highPass.a[1];
-    const d2 = highPass.a[2];
     let i = offset;
     const end = offset + n;
+    const st = this.state;
     while (i < end) {
       const take = Math.min(end - i, this.subLen - this.subPos);
       for (let c = 0; c < this.channelCount; c++) {
-        const x = channels[c] as Float32Array | Float64Array;
-        const s = 4 * c;
-        // Transposed direct form II, both stages, float64 state.
-        let s1 = this.state[s] ?? 0;
-        let s2 = this.state[s + 1] ?? 0;
-        let t1 = this.state[s + 2] ?? 0;
-        let t2 = this.state[s + 3] ?? 0;
-        let e = 0;
-        for (let j = i; j < i + take; j++) {
-          const v = x[j] ?? 0;
-          const u = b0 * v + s1;
-          s1 = b1 * v - a1 * u + s2;
-          s2 = b2 * v - a2 * u;
-          const y = c0 * u + t1;
-          t1 = c1 * u - d1 * y + t2;
-          t2 = c2 * u - d2 * y;
-          e += y * y;
-        }
-        if (!Number.isFinite(e + s1 + s2 + t1 + t2)) {
+        const s = 5 * c;
+        st[s + 4] = 0;
+        kWeightedEnergy(this.k, st, s, channels[c] as Float32Array | Float64Array, i, i + take);
+        if (!Number.isFinite(st[s]! + st[s + 1]! + st[s + 2]! + st[s + 3]! + st[s + 4]!)) {
           throw new Error(`channel ${c} contains NaN or infinite samples near frame ${i}`);
         }
-        this.state[s] = s1;
-        this.state[s + 1] = s2;
-        this.state[s + 2] = t1;
-        this.state[s + 3] = t2;
-        this.acc[c] = (this.acc[c] ?? 0) + e;
+        this.acc[c] = (this.acc[c] ?? 0) + st[s + 4]!;
       }
       this.subPos += take;
       i += take;
@@ -373,7 +374,7 @@ function loudnessRange(shortTerm: Float64Array): number {
 
 /** Measures a whole signal. Mono is one channel; stereo/3-channel weights are 1.0. */
 export function measureLoudness(
-  channels: readonly Float32Array[] | readonly Float64Array[],
+  channels: readonly (Float32Array | Float64Array)[],
   sampleRateHz: number,
   options: LoudnessOptions = {},
 ): LoudnessReport {

@@ -26,7 +26,7 @@ export function partsRows(design: Design, sheet: RatingsSheet, findings: readonl
         const r = sheet.resistors.find((x) => x.id === p.id);
         rows.push({
           ref: p.id, kind: p.kind === 'pot' ? `pot (${p.taper})` : 'resistor', value: formatValue(p.ohms, 'ohms', { style: 'rkm' }), tolerance: pct(p.tolerance),
-          buy: r?.buyWatts != null ? `${r.buyWatts} W` : 'special part', worstCase: r ? `${r3(r.worstWatts)} W ${r.worstCondition}, ${r3(r.peakVolts)} V peak` : '',
+          buy: r?.buyWatts != null ? `${r.buyWatts} W, ${r.buyWorkingVolts} V working` : 'special part', worstCase: r ? `${r3(r.worstWatts)} W ${r.worstCondition}, ${r3(r.peakVolts)} V peak` : '',
           notes: notesFor(p.id, p.label),
         });
         break;

@@ -11,6 +11,29 @@ import type { Finding } from './wiring-check.ts';
 
 export type Condition = 'warm' | 'cold' | 'max-input';
 
+/**
+ * Largest continuous working voltage of a resistor by its power size, volts (common practice;
+ * figures from memory of common metal-film lines, 1/8 W to 1 W, and of metal-oxide / wirewound
+ * lines above): 1/8 W 150 V, 1/4 W 250 V, 1/2 W 350 V, 1 W 500 V, 2 W 500 V, 3 W 500 V,
+ * 5 W 750 V, 10 W 1000 V. A small resistor across a high voltage arcs over or drifts even when
+ * it dissipates little.
+ */
+export const RESISTOR_WORKING_VOLTS: readonly (readonly [watts: number, volts: number])[] = [
+  [0.125, 150], [0.25, 250], [0.5, 350], [1, 500], [2, 500], [3, 500], [5, 750], [10, 1000],
+];
+
+/** Working voltage of a resistor of this power size (the next size up when between sizes). */
+export function resistorWorkingVolts(ratedWatts: number): number {
+  for (const [w, v] of RESISTOR_WORKING_VOLTS) if (ratedWatts <= w * (1 + 1e-9)) return v;
+  return RESISTOR_WORKING_VOLTS[RESISTOR_WORKING_VOLTS.length - 1]![1];
+}
+
+/** Smallest resistor size whose working voltage covers the peak volts, or null when none does. */
+export function resistorSizeForVolts(peakVolts: number): number | null {
+  for (const [w, v] of RESISTOR_WORKING_VOLTS) if (peakVolts <= v) return w;
+  return null;
+}
+
 export interface RatingsOptions {
   /** Unloaded B+ EMF for the cold start (default: the design's supply EMF). */
   readonly unloadedSupplyVolts?: number;
@@ -46,7 +69,13 @@ export interface ResistorRating {
   readonly watts: ByCondition;
   readonly worstWatts: number; readonly worstCondition: Condition;
   readonly peakVolts: number;
+  /** Size to buy: the larger of what the power needs (derated) and what the peak voltage needs. */
   readonly buyWatts: number | null;
+  /** Size the dissipation alone needs (derated), and the size the peak voltage alone needs. */
+  readonly buyForPowerWatts: number | null;
+  readonly buyForVoltsWatts: number | null;
+  /** Working voltage of the size to buy (RESISTOR_WORKING_VOLTS). */
+  readonly buyWorkingVolts: number | null;
   readonly ratedWatts: number | null;
 }
 
@@ -177,7 +206,7 @@ export function ratingsSheet(design: Design, options: RatingsOptions = {}): Rati
   const capacitors: CapacitorRating[] = [];
   const resistors: ResistorRating[] = [];
   const capParts: { id: string; nodes: readonly [string, string]; farads: number; polarized: boolean; ratedVolts: number | null }[] = [
-    { id: 'B+.filter', nodes: [design.supply.node, circuit.ground], farads: design.supply.filterFarads, polarized: true, ratedVolts: null },
+    ...(design.supply.filterFarads > 0 ? [{ id: 'B+.filter', nodes: [design.supply.node, circuit.ground] as const, farads: design.supply.filterFarads, polarized: true, ratedVolts: null }] : []),
     ...design.parts.flatMap((p) => (p.kind === 'capacitor' ? [{ id: p.id, nodes: p.nodes, farads: p.farads, polarized: p.polarized ?? false, ratedVolts: p.ratedVolts ?? null }] : [])),
   ];
   for (const p of capParts) {
@@ -215,9 +244,16 @@ export function ratingsSheet(design: Design, options: RatingsOptions = {}): Rati
     const watts: ByCondition = { warm: ww, cold: wc, maxInput: wm };
     const { v, c } = worst(watts);
     const buy = nextResistorWattage(v, { derate: resDerate });
-    resistors.push({ id: p.id, ohms: p.ohms, watts, worstWatts: v, worstCondition: c, peakVolts: pk, buyWatts: buy.ok ? buy.rating : null, ratedWatts: p.ratedWatts });
+    const forVolts = resistorSizeForVolts(pk);
+    const buyWatts = buy.ok && forVolts !== null ? Math.max(buy.rating, forVolts) : null;
+    resistors.push({
+      id: p.id, ohms: p.ohms, watts, worstWatts: v, worstCondition: c, peakVolts: pk, buyWatts,
+      buyForPowerWatts: buy.ok ? buy.rating : null, buyForVoltsWatts: forVolts, buyWorkingVolts: buyWatts !== null ? resistorWorkingVolts(buyWatts) : null, ratedWatts: p.ratedWatts,
+    });
     const nodes = [...new Set(p.elements.flatMap((e) => [...e.nodes]))];
     if (!buy.ok) findings.push({ severity: 'error', code: 'resistor-power', parts: [p.id], nodes, message: `${p.id} dissipates ${r3(v)} W ${conditionText(c)}: ${buy.reason}` });
+    if (forVolts === null) findings.push({ severity: 'error', code: 'resistor-voltage', parts: [p.id], nodes, message: `${p.id} sees ${r3(pk)} V peak, above the working voltage of any common resistor: use resistors in series` });
+    else if (p.ratedWatts !== null && pk > resistorWorkingVolts(p.ratedWatts)) findings.push({ severity: 'error', code: 'resistor-voltage', parts: [p.id], nodes, message: `${p.id} is a ${p.ratedWatts} W part (about ${resistorWorkingVolts(p.ratedWatts)} V working voltage) but sees ${r3(pk)} V peak: it can arc over or drift; buy ${forVolts} W or larger (${resistorWorkingVolts(forVolts)} V)` });
     if (p.ratedWatts !== null) {
       if (v > p.ratedWatts) findings.push({ severity: 'error', code: 'resistor-power', parts: [p.id], nodes, message: `${p.id} is rated ${p.ratedWatts} W but dissipates ${r3(v)} W ${conditionText(c)}: it will overheat and drift or burn; buy ${buy.ok ? `${buy.rating} W` : 'a larger part'}` });
       else if (v > resDerate * p.ratedWatts) findings.push({ severity: 'warning', code: 'resistor-power', parts: [p.id], nodes, message: `${p.id} rated ${p.ratedWatts} W dissipates ${r3(v)} W ${conditionText(c)}, over ${resDerate * 100} % of its rating: it runs hot; buy ${buy.ok ? `${buy.rating} W` : 'a larger part'}` });

@@ -11,38 +11,9 @@
 
 import { nextCapacitorVoltageRating, nextResistorWattage, type RatingResult } from '../parts/ratings.ts';
 
-export type RectifierTopology = 'bridge' | 'full-wave-ct' | 'half-wave';
-
-export type RectifierSpec =
-  | {
-      readonly topology: RectifierTopology;
-      readonly diode: 'silicon';
-      /** Forward drop per diode, volts; default 1.0 (0.7-1 V, common practice). */
-      readonly dropVolts?: number;
-    }
-  | {
-      readonly topology: RectifierTopology;
-      readonly diode: 'tube';
-      /** Drop of one conducting rectifier section, volts, as stated by the data sheet at your current. */
-      readonly dropVolts: number;
-    };
-
-export interface SecondarySpec {
-  /**
-   * Rated RMS voltage at rated current. For 'full-wave-ct' this is each half
-   * (the "250" in 250-0-250).
-   */
-  readonly rmsVolts: number;
-  /** Rated RMS winding current, amperes (per half for 'full-wave-ct'). */
-  readonly ratedAmps: number;
-  /** Unloaded rise above rating as a fraction; default 0.07 (5-10 %, check-values.md). */
-  readonly regulationFraction?: number;
-  /**
-   * Secondary-referred winding resistance, ohms (per half for 'full-wave-ct').
-   * Default: regulationFraction × rmsVolts / ratedAmps.
-   */
-  readonly windingOhms?: number;
-}
+// The transformer and rectifier types live with the design (circuit/supply-types.ts).
+import type { RectifierSpec, RectifierTopology, SecondarySpec } from '../circuit/supply-types.ts';
+export type { RectifierSpec, RectifierTopology, SecondarySpec } from '../circuit/supply-types.ts';
 
 export interface FilterStage {
   /** Series dropping resistor from the previous node, ohms. */

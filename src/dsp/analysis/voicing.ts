@@ -1,9 +1,10 @@
 // Voicing: choose preferred values (IEC 60063 E12 / E24) for some tone-network parts so the
 // network's response meets a wanted corner frequency or a target curve.
-import type { EngineCircuit, EngineElement } from '../circuit/engine.ts';
+import { CircuitEngine, type EngineCircuit, type EngineElement, type OperatingPoint } from '../circuit/engine.ts';
+import { designCircuit, isVolumePot, withPart, type Design, type PotPart } from '../circuit/design.ts';
 import type { Netlist } from '../circuit/netlist.ts';
 import { seriesValuesBetween, snapToSeries, type ESeries } from '../parts/eseries.ts';
-import { logFrequencies, toneNetworkAc, type AcResponse } from './ac.ts';
+import { drivingImpedanceOhms, identifyToneNetwork, logFrequencies, toneNetworkAc, type AcResponse } from './ac.ts';
 import { linearNetwork, solveLinear } from './linear.ts';
 
 export type VoicingTarget =
@@ -34,7 +35,7 @@ export interface VoicingResult {
 }
 
 /** Half-power (-3.01 dB) point relative to the response's maximum over 20 Hz - 20 kHz. */
-function corner(mag: (hz: number) => number, response: 'low-pass' | 'high-pass'): number | null {
+export function corner(mag: (hz: number) => number, response: 'low-pass' | 'high-pass'): number | null {
   const f = logFrequencies(1, 200000, 241);
   const m = f.map(mag);
   let peakI = 0;
@@ -125,4 +126,44 @@ export function fitToneNetwork(circuit: EngineCircuit | Netlist, network: Voicin
     fitErrorUnit: target.kind === 'corner' ? 'fraction' : 'dB rms',
     insertionLossDb: -Math.max(...response.magnitudeDb), response, evaluated,
   };
+}
+
+export interface ToneControlEnds {
+  /** The tone pot (design part id) and the stage output impedance that drives the network. */
+  readonly potId: string;
+  readonly sourceOhms: number;
+  /** Treble-cut corner (-3 dB below the network's peak) at each end of the control; null above 200 kHz. */
+  readonly atPosition0Hz: number | null;
+  readonly atPosition1Hz: number | null;
+  /** Level at 10 kHz relative to 300 Hz at each end, dB (how much treble the control takes away). */
+  readonly tilt0Db: number;
+  readonly tilt1Db: number;
+}
+
+/**
+ * The tone control's range as the circuit drives and loads it: the corner frequency and the
+ * 10 kHz / 300 Hz tilt at both ends of the pot's travel. Null when the design has no tone
+ * network or no pot in it other than the volume control.
+ */
+export function toneControlEnds(design: Design, op?: OperatingPoint): ToneControlEnds | null {
+  const circuit = designCircuit(design);
+  const net = identifyToneNetwork(circuit);
+  if (!net) return null;
+  const pot = design.parts.find((p): p is PotPart => p.kind === 'pot' && net.partIds.includes(p.id) && !isVolumePot(p, design.output.node));
+  if (!pot) return null;
+  const o = op ?? new CircuitEngine(circuit, 48000).operatingPoint();
+  const at = (position: number) => {
+    const c = designCircuit(withPart(design, { ...pot, position }));
+    const n = identifyToneNetwork(c) ?? net;
+    const sourceOhms = drivingImpedanceOhms(c, o, n);
+    const sub: EngineCircuit = {
+      ground: c.ground, input: { node: n.drivenFrom, ohms: sourceOhms }, output: { node: n.outputNode },
+      elements: (c.elements as readonly EngineElement[]).filter((e) => n.elementIds.includes(e.id)),
+    };
+    const lin = linearNetwork(sub, { tubes: 'removed' });
+    const mag = (hz: number) => { const v = solveLinear(lin, 2 * Math.PI * hz); return Math.hypot(v.re[sub.output.node] ?? 0, v.im[sub.output.node] ?? 0); };
+    return { sourceOhms, fc: corner(mag, 'low-pass'), tilt: 20 * Math.log10(mag(10000) / mag(300)) };
+  };
+  const a = at(0), b = at(1);
+  return { potId: pot.id, sourceOhms: a.sourceOhms, atPosition0Hz: a.fc, atPosition1Hz: b.fc, tilt0Db: a.tilt, tilt1Db: b.tilt };
 }

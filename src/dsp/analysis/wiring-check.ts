@@ -1,9 +1,10 @@
 // Wiring check: faults a builder can see on the schematic, found from the topology (and, for
 // polarised capacitors, from the DC voltages). Each finding names parts and nodes and says why.
-import { designCircuit, GROUND, SUPPLY_ID, type Design } from '../circuit/design.ts';
+import { designCircuit, GROUND, isVolumePot, SUPPLY_ID, type Design } from '../circuit/design.ts';
+export { isVolumePot } from '../circuit/design.ts';
 import type { EngineCircuit, EngineElement } from '../circuit/engine.ts';
 import { NodeSets } from '../circuit/topology.ts';
-import { linearNetwork, solveLinear } from './linear.ts';
+import { dcResistanceBetween, linearNetwork, solveLinear } from './linear.ts';
 
 export type Severity = 'error' | 'warning' | 'note';
 
@@ -22,6 +23,9 @@ export const BPLUS_GRID_WARNING_OHMS = 100e3;
 export const INPUT_REACH_FRACTION = 0.1;
 /** Reverse voltage an electrolytic tolerates (about 1 V, from memory). */
 export const REVERSE_VOLTS_LIMIT = 1;
+/** DC resistance from B+ to ground (the source aside) below which the supply is shorted (project threshold: over 0.3 A from 300 V). */
+export const SUPPLY_SHORT_OHMS = 1e3;
+
 
 export const partOf = (elementId: string): string => elementId.replace(/\.(1|2)$/, '');
 
@@ -174,6 +178,32 @@ export function checkWiring(design: Design, ctx: WiringContext = {}): Finding[] 
     if (!r || r.ohms >= BPLUS_GRID_WARNING_OHMS) continue;
     const err = r.ohms < BPLUS_GRID_ERROR_OHMS;
     f.push({ severity: err ? 'error' : 'warning', code: 'bplus-to-grid', parts: [t.id, ...r.path.filter((x) => x !== SUPPLY_ID)], nodes: [design.supply.node, t.nodes.grid], message: `B+ reaches ${t.id}'s control grid (node "${t.nodes.grid}") through only ${fmtOhms(r.ohms)}ohms (${r.path.join(' -> ')}): the grid is driven positive, draws heavy grid current and can destroy the tube; keep at least ${fmtOhms(BPLUS_GRID_WARNING_OHMS)}ohms (a plate load) in series` });
+  }
+
+  // the supply is not shorted to ground (resistors and closed switches only, the source aside)
+  if (design.supply.node !== c.ground) {
+    let r = Infinity;
+    try { r = dcResistanceBetween({ ...c, elements: c.elements.filter((e) => e.kind !== 'dc-source') }, design.supply.node, c.ground); } catch { r = Infinity; }
+    if (Number.isFinite(r) && r >= 0 && r < SUPPLY_SHORT_OHMS) {
+      f.push({ severity: 'error', code: 'supply-shorted', parts: partsAt(design, design.supply.node), nodes: [design.supply.node, c.ground], message: `B+ (node "${design.supply.node}") has only ${fmtOhms(r)}ohms to ground: the supply is shorted, the rectifier, transformer or fuse fails at switch-on; find the wire or part from B+ to ground` });
+    }
+  }
+
+  // a grounded-cathode stage with its plate straight on B+ has no load: no gain, full B+ on the plate
+  for (const t of tubes) {
+    const r = fed.get(t.nodes.plate);
+    if (!r || r.ohms > 0) continue;
+    let rk = 0;
+    if (t.nodes.cathode !== c.ground) { try { rk = dcResistanceBetween(c, t.nodes.cathode, c.ground); } catch { rk = Infinity; } }
+    if (rk < 100) f.push({ severity: 'error', code: 'plate-no-load', parts: [t.id], nodes: [t.nodes.plate], message: `${t.id} plate (node "${t.nodes.plate}") sits straight on B+ with no plate load and its cathode at ground: the stage gives no output and nothing limits its current; add a plate resistor between B+ and the plate` });
+  }
+
+  // volume controls: end 1 at ground, louder clockwise (common practice)
+  for (const p of design.parts) {
+    if (!isVolumePot(p, design.output.node)) continue;
+    if (p.nodes[2] === c.ground && p.nodes[0] !== c.ground) {
+      f.push({ severity: 'note', code: 'volume-reversed', parts: [p.id], nodes: [p.nodes[0], p.nodes[2]], message: `volume ${p.id} has end 2 at ground and end 1 on the signal: it gets quieter as it turns clockwise; the usual wiring (common practice) puts end 1 at ground so it gets louder clockwise` });
+    }
   }
 
   // polarised capacitors the right way round (nodes[0] is +)

@@ -4,7 +4,7 @@ import { tubeType, type TubeType } from '../tubes/library.ts';
 import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
-import type { RectifierSpec, SecondarySpec } from '../analysis/supply.ts';
+import type { RectifierSpec, SecondarySpec } from './supply-types.ts';
 
 export const DESIGN_SCHEMA = 'valvewright.design.v1';
 
@@ -36,6 +36,7 @@ export type Part = ResistorPart | CapacitorPart | PotPart | SwitchPart | TubePar
 
 export interface Supply {
   readonly node: string;
+  /** EMF, volts; ohms: source resistance; filterFarads: capacitor at the node (0: none). */
   readonly volts: number;
   readonly ohms: number;
   readonly filterFarads: number;
@@ -54,6 +55,8 @@ export interface PowerSupplySection {
   readonly reservoirRatedVolts?: number;
   readonly stages?: readonly { readonly droppingOhms: number; readonly farads: number; readonly ratedVolts?: number; readonly label?: string }[];
   readonly heaterWinding?: { readonly volts: number; readonly amps: number };
+  /** Mains RMS volts at the primary (default 230 V at 50 Hz, 120 V at 60 Hz); sets the primary current and fuse. */
+  readonly mainsVolts?: number;
 }
 
 export interface Design {
@@ -122,7 +125,8 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   if (!d.supply || typeof d.supply.node !== 'string') throw new DesignError('design needs "supply": { "node", "volts", "ohms", "filterFarads" }');
   checkPositive(d.supply.volts, 'supply volts', 1, 1000, 'V');
   if (!(d.supply.ohms >= 0 && d.supply.ohms < 1e6)) throw new DesignError('supply ohms must be between 0 and 1 M');
-  checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
+  // 0 = no filter capacitor (a netlist's ideal or resistive source); otherwise a real capacitor
+  if (d.supply.filterFarads !== 0) checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
   if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
   const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);
   const nodes = new Set<string>([GROUND, d.supply.node, d.input.node]);
@@ -225,7 +229,7 @@ export function interelectrodeCapacitors(p: TubePart): EngineCapacitor[] {
 function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
   const out: EngineElement[] = [
     { id: SUPPLY_ID, kind: 'dc-source', nodes: [d.supply.node, GROUND], volts: d.supply.volts, ohms: d.supply.ohms },
-    { id: SUPPLY_FILTER_ID, kind: 'capacitor', nodes: [d.supply.node, GROUND], farads: d.supply.filterFarads },
+    ...(d.supply.filterFarads > 0 ? [{ id: SUPPLY_FILTER_ID, kind: 'capacitor' as const, nodes: [d.supply.node, GROUND] as const, farads: d.supply.filterFarads }] : []),
     { id: LOAD_ID, kind: 'resistor', nodes: [d.output.node, GROUND], ohms: d.output.loadOhms },
   ];
   for (const p of d.parts) {
@@ -276,6 +280,27 @@ export function partValueUpdates(part: Part): { id: string; value: number }[] {
     }
     default: return [];
   }
+}
+
+/**
+ * Volts at the circuit input for a full-scale sample when nothing says otherwise: the workspace
+ * and the command line (render --input-volts, pair --input-volts) start from this one figure.
+ * 1 V peak is a hot humbucker chord (from memory; check-values "Guitar signals").
+ */
+export const DEFAULT_INPUT_VOLTS_AT_FULL_SCALE = 1;
+
+/** A pot that works as the volume control: wiper on the output node, or named/labelled volume or level. */
+export function isVolumePot(p: Part, outputNode: string): p is PotPart {
+  return p.kind === 'pot' && (p.nodes[1] === outputNode || /^vol/i.test(p.id) || /\b(volume|level)\b/i.test(p.label ?? ''));
+}
+
+/**
+ * The design with every volume control fully clockwise (position 1): the reference a render or
+ * the workspace levels against, so that the volume knob still changes the level heard.
+ */
+export function withVolumeFull(d: Design): Design {
+  if (!d.parts.some((p) => isVolumePot(p, d.output.node))) return d;
+  return { ...d, parts: d.parts.map((p) => (isVolumePot(p, d.output.node) ? { ...p, position: 1 } : p)) };
 }
 
 /** Replace one part (by id) in a design, returning a new design. */

@@ -11,10 +11,17 @@ function secondStageAndTone(firstPlate: string, rk2Ohms: number, rp2Ohms: number
     { id: 'R7', kind: 'resistor', nodes: ['k2', '0'], ohms: rk2Ohms, tolerance: 0.05, label: 'V2 cathode (sets the DC-coupled bias)' },
     { id: 'C4', kind: 'capacitor', nodes: ['k2', '0'], farads: 10 * u, tolerance: 0.2, polarized: true, label: 'V2 cathode bypass' },
     { id: 'C5', kind: 'capacitor', nodes: ['p2', 't1'], farads: 22 * n, tolerance: 0.1, label: 'output coupling' },
-    { id: 'R8', kind: 'resistor', nodes: ['t1', 'tn'], ohms: 22 * k, tolerance: 0.05, label: 'tone series' },
-    { id: 'TONE', kind: 'pot', nodes: ['tn', 'tc', 'tc'], ohms: 250 * k, taper: 'linear', position: 0.5, label: 'tone (treble cut)' },
-    { id: 'C6', kind: 'capacitor', nodes: ['tc', '0'], farads: 10 * n, tolerance: 0.1, label: 'tone capacitor' },
-    { id: 'VOL', kind: 'pot', nodes: ['tn', 'out', '0'], ohms: 500 * k, taper: 'log', position: 0.6, label: 'volume' },
+    // Treble cut, brighter clockwise (common practice): the pot is a variable resistor in series
+    // with C6, log taper so the cut spreads over the whole travel. As the circuit drives it (the
+    // second stage's output impedance, about 35-45 k; volume full) 10 kHz against 300 Hz is about
+    // -20 dB at 0 (corner about 1 kHz), -6 dB at the middle and flat at 10
+    // (npx valvewright ac --design pentode-triode prints the corners).
+    { id: 'R8', kind: 'resistor', nodes: ['t1', 'tn'], ohms: 4.7 * k, tolerance: 0.05, label: 'tone series' },
+    { id: 'TONE', kind: 'pot', nodes: ['tn', 'tc', 'tc'], ohms: 250 * k, taper: 'log', position: 0.5, label: 'tone (treble cut, brighter clockwise)' },
+    { id: 'C6', kind: 'capacitor', nodes: ['tc', '0'], farads: 4.7 * n, tolerance: 0.1, label: 'tone capacitor' },
+    // end 1 at ground, louder clockwise (common practice); full by default (render and the
+    // workspace level against full volume, so this is the levelled output)
+    { id: 'VOL', kind: 'pot', nodes: ['0', 'out', 'tn'], ohms: 500 * k, taper: 'log', position: 1, label: 'volume' },
   ];
 }
 
@@ -88,7 +95,7 @@ export const SINGLE_PENTODE: Design = {
     { id: 'R4', kind: 'resistor', nodes: ['b1', 's1'], ohms: 1 * M, tolerance: 0.05, label: 'screen feed' },
     { id: 'C3', kind: 'capacitor', nodes: ['s1', '0'], farads: 100 * n, tolerance: 0.1, label: 'screen bypass' },
     { id: 'C5', kind: 'capacitor', nodes: ['p1', 't1'], farads: 22 * n, tolerance: 0.1, label: 'output coupling' },
-    { id: 'VOL', kind: 'pot', nodes: ['t1', 'out', '0'], ohms: 500 * k, taper: 'log', position: 0.6, label: 'volume' },
+    { id: 'VOL', kind: 'pot', nodes: ['0', 'out', 't1'], ohms: 500 * k, taper: 'log', position: 1, label: 'volume' },
   ],
 };
 

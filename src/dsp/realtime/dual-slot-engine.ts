@@ -31,6 +31,7 @@ import { isOversamplingFactor } from '../render/oversampled.ts';
 import { PeakLimiter } from '../render/limiter.ts';
 import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
 import type { FromProcessor, MeterReport, Monitor, Slot, SlotPlans, SlotTrace, ToProcessor } from './messages.ts';
+import { LoudnessMatch } from '../analysis/loudness-match.ts';
 
 /**
  * Default live factor: 4x with the averaged root, the lowest factor whose aliases are clearly
@@ -313,7 +314,13 @@ export class DualSlotEngine {
   private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
     limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
+    matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
   };
+  /** Live A/B loudness match, measured from the slots' own sound (analysis/loudness-match.ts). */
+  private readonly match: LoudnessMatch;
+  private readonly lvlA = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly lvlB = new Float64Array(SMOOTHING_STEP_SAMPLES);
+  private readonly matchGain = new Float64Array(SMOOTHING_STEP_SAMPLES);
   private readonly noPlates: number[] = [];
   /** Warm-up signal and its discarded output (see WARM_BASE_SAMPLES). */
   private readonly warmIn = warmSignal();
@@ -337,6 +344,7 @@ export class DualSlotEngine {
     this.componentGlideSamples = Math.round((options.componentSmoothingSeconds ?? COMPONENT_SMOOTHING_SECONDS) * fs);
     this.muteSamples = Math.round(MUTE_SECONDS * fs);
     this.limiter = new PeakLimiter(fs, LIMITER_CEILING_DBFS);
+    this.match = new LoudnessMatch(fs);
     const hz = options.meterHz ?? METER_HZ;
     this.meterInterval = hz > 0 ? Math.max(1, Math.round(fs / hz)) : Infinity;
     this.dryDelay = this.latencyFor(f);
@@ -501,6 +509,10 @@ export class DualSlotEngine {
       case 'set-live-input':
         if (typeof msg.live !== 'boolean') throw new Error('set-live-input: "live" must be true or false');
         this.live = msg.live;
+        return;
+      case 'set-loudness-match':
+        if (typeof msg.on !== 'boolean') throw new Error('set-loudness-match: "on" must be true or false');
+        this.match.enabled = msg.on;
         return;
       case 'set-mute':
         if (typeof msg.muted !== 'boolean') throw new Error('set-mute: "muted" must be true or false');
@@ -846,10 +858,13 @@ export class DualSlotEngine {
     // Gains for the whole segment first (Ramp.scaleInto: no number returned per sample).
     vinBuf.fill(1, 0, len);
     this.inCal.scaleInto(vinBuf, len);
+    const lvlA = this.lvlA, lvlB = this.lvlB, matchGain = this.matchGain;
+    lvlA.fill(1, 0, len); A.outScale.scaleInto(lvlA, len);
+    lvlB.fill(1, 0, len); B.outScale.scaleInto(lvlB, len);
     gainA.fill(1, 0, len);
-    A.outScale.scaleInto(gainA, len); A.fade.scaleInto(gainA, len); this.gA.scaleInto(gainA, len);
+    A.fade.scaleInto(gainA, len); this.gA.scaleInto(gainA, len);
     gainB.fill(1, 0, len);
-    B.outScale.scaleInto(gainB, len); B.fade.scaleInto(gainB, len); this.gB.scaleInto(gainB, len);
+    B.fade.scaleInto(gainB, len); this.gB.scaleInto(gainB, len);
     gainOut.fill(1, 0, len);
     this.master.scaleInto(gainOut, len); this.mute.scaleInto(gainOut, len); this.globalFade.scaleInto(gainOut, len);
     // Pass 1: calibrated input volts and the delayed dry signal.
@@ -868,20 +883,24 @@ export class DualSlotEngine {
     // Pass 2: each slot's circuit over the segment (arrays in and out: nothing boxed per sample).
     if (mA) mA.processRange(vinBuf, yA, 0, len);
     if (mB) mB.processRange(vinBuf, yB, 0, len);
-    // Pass 3: levels, fades and monitor mix into yA, then the limiter over the segment.
+    // Pass 3: each slot levelled (output scale), measured for the A/B loudness match; then fades,
+    // B's match gain and the monitor mix into yA, then the limiter over the segment.
     for (let q = 0; q < len; q++) {
       let a = 0, b = 0;
       if (mA) {
-        a = (yA[q]! - dcA) * gainA[q]!;
+        a = (yA[q]! - dcA) * lvlA[q]!;
         if (!(a > -FINITE_LIMIT && a < FINITE_LIMIT)) { faultA = true; a = 0; }
       }
       if (mB) {
-        b = (yB[q]! - dcB) * gainB[q]!;
+        b = (yB[q]! - dcB) * lvlB[q]!;
         if (!(b > -FINITE_LIMIT && b < FINITE_LIMIT)) { faultB = true; b = 0; }
       }
-      yA[q] = (a + b + dryBuf[q]!) * gainOut[q]!;
+      lvlA[q] = a; lvlB[q] = b;
     }
+    this.match.measure(lvlA, lvlB, len, matchGain);
+    for (let q = 0; q < len; q++) yA[q] = (lvlA[q]! * gainA[q]! + lvlB[q]! * matchGain[q]! * gainB[q]! + dryBuf[q]!) * gainOut[q]!;
     if (limit) lim.processInPlace(yA, len);
+    this.match.measureOutput(yA, len);
     for (let q = 0; q < len; q++) {
       const y = yA[q]!;
       const ay = y < 0 ? -y : y;
@@ -922,6 +941,10 @@ export class DualSlotEngine {
     r.loadFraction = acc[3]! > 0 ? acc[2]! / acc[3]! : 0;
     r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
     r.limiterOn = this.limiterOn;
+    const off = this.match.offsetDb, lo = this.match.out.lufs;
+    r.matchOffsetDb = off === off ? off : null;
+    r.matchGainDb = this.match.gainDb;
+    r.outputLufs = lo > -200 ? lo : null;
     const traces = r.slotTraces;
     for (let k = 0; k < 2; k++) {
       const s = this.slots[k]!, m = s.model;

@@ -44,6 +44,8 @@ export type ToProcessor = Request & (
   /** Live input forces the safety limiter on; files may bypass it. */
   | { readonly type: 'set-live-input'; readonly live: boolean }
   | { readonly type: 'set-mute'; readonly muted: boolean }
+  /** Live A/B loudness match on or off: B's gain follows its measured loudness against A's (analysis/loudness-match.ts). */
+  | { readonly type: 'set-loudness-match'; readonly on: boolean }
   /** Both slots back to their operating points (behind a short fade): `plans` for the present designs. */
   | { readonly type: 'reset'; readonly plans?: SlotPlans }
 );
@@ -71,6 +73,15 @@ export interface MeterReport {
    * slot B; null where the slot is empty): a slot's scope stays that slot's while A/B/dry switch.
    */
   readonly slotTraces: readonly [SlotTrace | null, SlotTrace | null];
+  /**
+   * B's loudness against A's, each as its slot makes it (output scale applied, before the match
+   * gain and the monitor mix), over a 3 s window, dB; null while either is silent.
+   */
+  readonly matchOffsetDb?: number | null;
+  /** The match gain applied to B now, dB (0 with the match off). */
+  readonly matchGainDb?: number;
+  /** Loudness of the output (after the limiter) over the same 3 s window, LUFS; null while silent. */
+  readonly outputLufs?: number | null;
 }
 
 /** One slot's traced node voltages in a meter report. */

@@ -407,12 +407,6 @@ export function componentEntries(design: Design): ComponentEntry[] {
   });
 }
 
-/**
- * Rating margins at the operating point, from the tube library's maximum ratings. Plate and
- * screen voltages are taken plate-to-cathode / screen-to-cathode (data-sheet maxima are
- * electrode-to-cathode, common practice); heater-cathode from the part's heaterVolts (0 V if
- * not given). This is the quiescent point only, not a worst case over tolerances or signal.
- */
 /** `ratings` defaults to ratingsSheet(design, { op }) (warm, cold start and maximum input). */
 export function designSheetEntry(design: Design, ref: string, op: OperatingPoint, ratings: RatingsSheet = ratingsSheet(design, { op })): DesignSheetEntry {
   const tubes: Record<string, TubeOpEntry> = {};
@@ -622,7 +616,7 @@ const MAX_PASSES = 4;
 export function matchPairInMemory(
   sides: readonly [PackSide, PackSide], sampleRateHz: number, format: PairOutputFormat, options: PairMatchOptions = {},
 ): { files: [PackFile, PackFile]; plan: PairGainPlan; passes: number; check: PairCheck } {
-  const rendered = [measureLoudness([sides[0].samples] as Float32Array[], sampleRateHz), measureLoudness([sides[1].samples] as Float32Array[], sampleRateHz)] as const;
+  const rendered = [measureLoudness([sides[0].samples], sampleRateHz), measureLoudness([sides[1].samples], sampleRateHz)] as const;
   let plan = planPairGains(rendered, options);
   const out = [new Float32Array(sides[0].samples.length), new Float32Array(sides[1].samples.length)] as const;
   let finals: readonly [LoudnessReport, LoudnessReport] = rendered;

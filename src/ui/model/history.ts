@@ -11,9 +11,12 @@ export function startHistory<T>(present: T): History<T> {
   return { past: [], present, future: [] };
 }
 
-/** Record a new present. Equal (===) snapshots are not recorded; redo is cleared. */
+/**
+ * Record a new present. A snapshot equal to the present (the same object, or the same value: an
+ * edit that changes nothing) is not recorded, so undo never steps through no-ops; redo is cleared.
+ */
 export function pushHistory<T>(h: History<T>, next: T, limit = HISTORY_LIMIT): History<T> {
-  if (next === h.present) return h;
+  if (next === h.present || JSON.stringify(next) === JSON.stringify(h.present)) return h;
   const past = [...h.past, h.present];
   return { past: past.length > limit ? past.slice(past.length - limit) : past, present: next, future: [] };
 }

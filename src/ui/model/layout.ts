@@ -95,7 +95,8 @@ export function partNodes(p: Part): string[] {
 function signalEdges(p: Part): [string, string][] {
   switch (p.kind) {
     case 'tube': return [[p.nodes.grid, p.nodes.plate]];
-    case 'pot': return [[p.nodes[0], p.nodes[1]], [p.nodes[1], p.nodes[0]], [p.nodes[0], p.nodes[2]], [p.nodes[2], p.nodes[0]]];
+    // either end may carry the signal (a volume pot has end 1 at ground, common practice)
+    case 'pot': return [[p.nodes[0], p.nodes[1]], [p.nodes[1], p.nodes[0]], [p.nodes[2], p.nodes[1]], [p.nodes[1], p.nodes[2]], [p.nodes[0], p.nodes[2]], [p.nodes[2], p.nodes[0]]];
     default: return [[p.nodes[0], p.nodes[1]], [p.nodes[1], p.nodes[0]]];
   }
 }

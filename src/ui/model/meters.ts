@@ -44,11 +44,6 @@ export function formatVolts(volts: number): string {
   return `${(volts * 1e6).toFixed(0)} µV`;
 }
 
-/** Level difference in dB between two output scalings (B relative to A). */
-export function offsetDb(aVoltsAtFullScale: number, bVoltsAtFullScale: number): number {
-  return 20 * Math.log10(bVoltsAtFullScale / aVoltsAtFullScale);
-}
-
 /** Log-frequency axis: hertz to 0..1 between 20 Hz and 20 kHz (clamped). */
 export function logFreqFraction(hertz: number, lowHertz = 20, highHertz = 20000): number {
   if (!(hertz > 0)) return 0;

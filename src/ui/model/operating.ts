@@ -1,8 +1,8 @@
 // Operating-point report: each tube's figures beside its ratings, and warnings on exceedance.
+// Part ratings to buy come from the worst-case sheet (worst-case.ts), not from here.
 import { designCircuit, type Design } from '../../dsp/circuit/design.ts';
 import { CircuitEngine, type OperatingPoint } from '../../dsp/circuit/engine.ts';
 import { tubeType } from '../../dsp/tubes/library.ts';
-import { nextCapacitorVoltageRating, nextResistorWattage } from '../../dsp/parts/ratings.ts';
 
 export interface RatedFigure {
   readonly label: string;
@@ -20,19 +20,9 @@ export interface TubeReport {
   readonly ratingsSource: string;
 }
 
-export interface PartStress {
-  readonly id: string;
-  /** DC volts across a capacitor, or DC watts in a resistor. */
-  readonly dcVolts?: number;
-  readonly watts?: number;
-  /** Suggested common rating ("63 V", "0.25 W") or a reason. */
-  readonly suggestion: string;
-}
-
 export interface OperatingReport {
   readonly nodes: readonly { readonly node: string; readonly volts: number }[];
   readonly tubes: readonly TubeReport[];
-  readonly parts: readonly PartStress[];
   readonly warnings: readonly string[];
 }
 
@@ -67,38 +57,7 @@ export function operatingReport(d: Design, op: OperatingPoint): OperatingReport 
     if (o.vgk > 0) warnings.push(`${p.id}: the grid sits ${o.vgk.toFixed(2)} V above the cathode at rest (grid current flows)`);
     tubes.push({ id: p.id, type: t.name, figures, ratingsSource: r.source });
   }
-  const parts: PartStress[] = [];
-  for (const p of d.parts) {
-    if (p.kind === 'capacitor') {
-      // Cold-tube worst case: any capacitor may see up to the full B+ (check-values.md, via ratings.ts).
-      const dc = v(p.nodes[0]) - v(p.nodes[1]);
-      const worst = Math.max(Math.abs(dc), touchesSupply(d, p.nodes) ? d.supply.volts : Math.abs(dc));
-      const r = nextCapacitorVoltageRating(worst);
-      parts.push({ id: p.id, dcVolts: dc, suggestion: r.ok ? `${r.rating} V part or higher` : r.reason });
-    } else if (p.kind === 'resistor') {
-      const dv = v(p.nodes[0]) - v(p.nodes[1]);
-      const watts = (dv * dv) / p.ohms;
-      const r = nextResistorWattage(watts);
-      parts.push({ id: p.id, watts, suggestion: r.ok ? `${r.rating} W part or larger` : r.reason });
-    }
-  }
-  return { nodes, tubes, parts, warnings };
-}
-
-/** A capacitor on a node that is at B+ when the tubes draw nothing (plate, screen or supply side). */
-function touchesSupply(d: Design, nodes: readonly string[]): boolean {
-  const hot = new Set<string>([d.supply.node]);
-  let grew = true;
-  while (grew) {
-    grew = false;
-    for (const p of d.parts) {
-      if (p.kind !== 'resistor') continue;
-      const [a, b] = p.nodes;
-      if (hot.has(a) && !hot.has(b) && b !== '0') { hot.add(b); grew = true; }
-      else if (hot.has(b) && !hot.has(a) && a !== '0') { hot.add(a); grew = true; }
-    }
-  }
-  return nodes.some((n) => hot.has(n));
+  return { nodes, tubes, warnings };
 }
 
 /** Solve and report; a failure gives a one-line reason instead. */

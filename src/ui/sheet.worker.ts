@@ -1,0 +1,11 @@
+// Works out the worst-case sheet (checkCircuit: warm idle, cold start, a maximum-input render)
+// off the main thread: it takes most of a second on the two-stage templates.
+import { worstCase } from './model/worst-case.ts';
+import type { SheetReply, SheetRequest } from './model/worst-case.ts';
+
+self.onmessage = (e: MessageEvent<SheetRequest>) => {
+  const { id, design } = e.data;
+  let reply: SheetReply;
+  try { reply = { id, ok: true, view: worstCase(design) }; } catch (err) { reply = { id, ok: false, reason: err instanceof Error ? err.message : String(err) }; }
+  (self as unknown as { postMessage(m: unknown): void }).postMessage(reply);
+};
