@@ -17,8 +17,8 @@ export class AudioSettings {
   monitor: Monitor = 'A';
   /** The output mute chosen through setMuted (the processor's; the live input has its own). */
   outputMuted = false;
-  /** Live A/B loudness match (B follows A by its measured loudness). Not replayed offline: a render levels each slot by its own scale. */
-  loudnessMatch = true;
+  /** Live A/B loudness match (B follows A by its measured loudness; off as in the processor). Not replayed offline: a render levels each slot by its own scale. */
+  loudnessMatch = false;
 
   /** The messages that bring a fresh processor to these settings (designs without plans: offline renders only). */
   messages(): ToProcessor[] {

@@ -31,7 +31,7 @@ export class EnginePort implements AudioPort {
   /** What the workspace asked for; what was sent (and the rest of the audio settings) lives in `settings`. */
   private designs: Partial<Record<Slot, Design>> = {};
   /** The audio settings, held once: the engine sends from and writes to this object. */
-  private readonly settings = new AudioSettings();
+  private readonly settings = Object.assign(new AudioSettings(), { loudnessMatch: true });
   /**
    * Each slot's output scale: its design with the volume fully clockwise (so the knob is heard),
    * levelled at 1 kHz. The live match then measures and takes out what is left between them.

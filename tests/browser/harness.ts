@@ -179,8 +179,9 @@ async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][numb
   const from = reports.length;
   audio.setPart('A', retypedA);
   audio.setQuality(2);
-  const loadedCount = () => reports.slice(from).filter((m) => m.type === 'loaded').length;
-  await until(() => loadedCount() >= 3, 'the retyped slot and both slots at 2x loaded');
+  // the retype may be swapped in on its own first, or together with the quality change
+  const at2 = (slot: Slot) => reports.slice(from).some((m) => m.type === 'loaded' && m.slot === slot && m.factor === 2);
+  await until(() => at2('A') && at2('B'), 'both slots at 2x loaded');
   await audio.dispose();
   return {
     loadA,

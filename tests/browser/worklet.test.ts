@@ -221,8 +221,9 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     expect(r.errors.length).toBe(1);
     expect(r.errors[0]!.message).toMatch(/^design rejected/);
     expect(r.errors[0]!.requestId).not.toBeNull();
-    // the retype on A (its plan from the worker), then both slots at 2x (plans at the new factor)
-    expect(r.loadedAfter.map((l) => `${l.slot}@${l.factor}`)).toEqual(['A@4', 'A@2', 'B@2']);
-    expect(r.loadedAfter[0]!.requestId).not.toBeNull();
+    // the retype on A (its plan from the worker) answers its request, on its own at 4x or swapped
+    // in with the quality change; both slots end at 2x (plans at the new factor), no error
+    expect(r.loadedAfter.some((l) => l.slot === 'A' && l.requestId !== null)).toBe(true);
+    expect(r.loadedAfter.slice(-2).map((l) => `${l.slot}@${l.factor}`).sort()).toEqual(['A@2', 'B@2']);
   });
 });

@@ -99,6 +99,8 @@ export interface SlotModel {
  */
 export const WARM_BASE_SAMPLES = 512;
 const WARM_CHUNK_MAX = 32;
+/** Blocks a warm-up may take (about 0.1 s at 48 kHz): a machine too busy to warm within the budget gets its load anyway. */
+const WARM_MAX_BLOCKS = 40;
 const WARM_BUDGET_MS = 0.3;
 /** The warm-up signal: 0.5 V peak at 220 Hz plus 0.2 V at 1.3 kHz (at 48 kHz), so Newton and the averaged root take their real paths. */
 function warmSignal(): Float64Array {
@@ -205,6 +207,7 @@ class SlotState {
   /** Base samples `warm` has run; the chunk it runs next block. */
   warmDone = 0;
   warmChunk = 1;
+  warmBlocks = 0;
   /** A new pending plan: any model warming for the old one is dropped. */
   setPending(design: Design | null, plan: SlotPlan | null): void {
     this.pending = design;
@@ -213,6 +216,7 @@ class SlotState {
     this.warmDesign = null;
     this.warmDone = 0;
     this.warmChunk = 1;
+    this.warmBlocks = 0;
   }
   get warmed(): boolean { return this.warm !== null && this.warmDone >= WARM_BASE_SAMPLES; }
   glides: Glide[] = [];
@@ -747,6 +751,7 @@ export class DualSlotEngine {
     s.warm.processRange(this.warmIn, this.warmOut, s.warmDone, n);
     const dt = this.nowMs() - t0;
     s.warmDone += n;
+    if (++s.warmBlocks >= WARM_MAX_BLOCKS) s.warmDone = WARM_BASE_SAMPLES;
     // next chunk: what fits the budget at this chunk's cost per sample (at most double; a clock
     // too coarse to see the chunk doubles it)
     s.warmChunk = dt > 0 ? Math.max(1, Math.min(WARM_CHUNK_MAX, 2 * n, Math.floor((WARM_BUDGET_MS * n) / dt))) : Math.min(WARM_CHUNK_MAX, 2 * n);
