@@ -10,6 +10,7 @@ import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, planTransferables
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
 import { DualSlotEngine, livePlanner, WARM_BASE_SAMPLES, type Planner } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, ToProcessor } from '../src/dsp/realtime/messages.ts';
+import { Outbox, PendingReplies } from '../src/audio/requests.ts';
 import { solveOperatingPoint } from './reference/mna-reference.ts';
 
 const FS = 48000;
@@ -197,5 +198,33 @@ describe('warm-up before the swap', () => {
     }
     expect(peak).toBeGreaterThan(0.01);
     expect(worst).toBeLessThan(1e-5);
+  });
+});
+
+describe('main-thread requests (src/audio/requests.ts) with the processor', () => {
+  it('messages keep their order while plans are built; a plan that fails posts nothing and fails only its own request', async () => {
+    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => replies.settle(m) });
+    const replies = new PendingReplies();
+    const posted: string[] = [];
+    const box = new Outbox((m) => { posted.push(`${m.type}${'slot' in m ? m.slot : ''}`); e.handle(m); });
+    const later = <T>(v: T, ms: number): Promise<T> => new Promise((r) => setTimeout(() => r(v), ms));
+    const a = replies.open(), bad = replies.open(), b = replies.open();
+    const badOutcome = bad.reply.then(() => 'resolved', (err: Error) => err.message);
+    // A's plan arrives late, the next one fails, B's arrives first: posted in the order sent
+    box.send(later({ type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4), requestId: a.id } as const, 30));
+    box.send(Promise.reject(new Error('no plan')).catch((err: Error) => { replies.fail(bad.id, err); return null; }));
+    box.send({ type: 'set-output-scale', slot: 'A', voltsAtFullScale: 2 });
+    box.send(later({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, FS, 4), requestId: b.id } as const, 1));
+    expect(box.pending).toBe(4);
+    await box.flushed();
+    expect(posted).toEqual(['load-designA', 'set-output-scaleA', 'load-designB']);
+    expect(await badOutcome).toBe('no plan');
+    // a refused message on B with its own id: A's and B's loads still complete with theirs
+    const refused = replies.open();
+    e.handle({ type: 'set-part', slot: 'B', part: { ...tube(TT, 'V1'), nodes: { plate: 'x', grid: 'y', cathode: 'z' } }, requestId: refused.id });
+    await expect(refused.reply).rejects.toThrow(/changes its nodes/);
+    for (let k = 0; k < LOAD_BLOCKS && replies.size > 0; k++) e.process(new Float32Array(128), new Float32Array(128), 128);
+    await expect(a.reply).resolves.toMatchObject({ slot: 'A', designName: PT.name });
+    await expect(b.reply).resolves.toMatchObject({ slot: 'B', designName: TT.name });
   });
 });
