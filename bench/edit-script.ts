@@ -33,7 +33,7 @@ export const EDIT_SCRIPT: readonly { quantum: number; messages: ToProcessor[] }[
  * first blocks of the new engine fall inside this window.
  */
 export const EDIT_WINDOW_QUANTA = 48;
-/** Quanta with no event, timed for the baseline. */
-export const QUIET_QUANTA = [40, 60, 150, 250, 350, 450, 550, 750, 850, 1150, 1200];
+/** Quanta with no event, timed for the baseline (their windows overlap no event's: one suspension per quantum). */
+export const QUIET_QUANTA = [40, 150, 250, 350, 450, 550, 650, 750, 850, 950, 1050, 1150, 1200, 1250];
 /** Quanta the session renders. */
 export const SESSION_QUANTA = 1300;
