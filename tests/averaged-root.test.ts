@@ -60,13 +60,19 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
   const s1 = solveAt(p1, s0.v);
   const reference = bruteMean(p0, p1, s0.v, 4000);
 
-  for (const [label, opts, voltsBound] of [['tight', TIGHT, 1e-3], ['default', DEFAULT_AVERAGING, DEFAULT_AVERAGING.toleranceVolts]] as const) {
-    it(`${label} tolerance: within ${voltsBound} V (current error times port resistance) of the brute-force mean`, () => {
+  // Bounds not taken from the code's own tolerance: the tight setting must reach the brute-force
+  // mean to 1 mV at the port; the shipped default must be within 1 % of how far the plain
+  // discretisation's end-point current is from that mean (the error averaging exists to remove).
+  for (const [label, opts, boundVolts] of [
+    ['tight', TIGHT, () => 1e-3],
+    ['default', DEFAULT_AVERAGING, (r: number) => 0.01 * Math.abs(s1.i[r]! - reference[r]!) * 100e3],
+  ] as const) {
+    it(`${label} tolerance: close to the brute-force mean (current error times port resistance)`, () => {
       const av = new RootAverager([new TriodeDevice(AX7, DZ_12AX7_GRID)], F, opts);
       av.step(p0, s0.v, s0.i); // the first step only records its end
       av.step(p1, s1.v, s1.i);
       expect(av.interiorSolves[0]).toBeGreaterThan(0); // the knees forced interior solves
-      for (let r = 0; r < 2; r++) expect(Math.abs(av.iMean[r]! - reference[r]!) * 100e3).toBeLessThan(voltsBound);
+      for (let r = 0; r < 2; r++) expect(Math.abs(av.iMean[r]! - reference[r]!) * 100e3).toBeLessThan(boundVolts(r));
       // and it is not the end point's current (the plain discretisation)
       expect(Math.abs(av.iMean[1]! - s1.i[1]!)).toBeGreaterThan(1e-4);
     });
@@ -123,8 +129,9 @@ describe('the averaged engine against the plain discretisation', () => {
   // in [1/3, 3]; without STIFF_BELOW_FARADS the triode-triode template as a netlist fails here):
   // the reference is the plain discretisation of the same circuit, which settles as the circuit
   // does (a large coupling capacitor recovers slowly from blocking, volts off after 0.3 s); the
-  // averaged one must settle as smoothly, not ring at Nyquist on top. (Tails compared over 12
-  // variants per template, designs and netlists, 1x and 4x: 0 of 144 differed.)
+  // averaged one must settle as smoothly, not ring at Nyquist on top: its tail's largest second
+  // difference at most 1.5 times the plain one's. (Tails compared over 12 variants per template,
+  // designs and netlists, 1x and 4x: 0 of 144 differed.)
   it.each(['pentode-triode', 'triode-triode', 'single-pentode'])('%s, the template and 2 seeded variants (1x, 4x, and as a netlist at 1x): after a burst the averaged engine settles as smoothly as the plain one', (name) => {
     const rnd = makeRandom(20261202);
     for (let trial = 0; trial < 3; trial++) {
@@ -151,7 +158,9 @@ describe('the averaged engine against the plain discretisation', () => {
           expect(e.solverStats.failures).toBe(0);
           return worst;
         });
-        expect(rough[0]!, `${name} variant ${trial} at ${factor}x${'schema' in c ? ' (netlist)' : ''}: second difference`).toBeLessThan(10 * rough[1]! + 1e-4);
+        // measured: equal to within 0.3 % on all 27 runs (a Nyquist ring would be orders larger:
+        // 2 V at the output before BDF2 on the stiff capacitors)
+        expect(rough[0]!, `${name} variant ${trial} at ${factor}x${'schema' in c ? ' (netlist)' : ''}: second difference`).toBeLessThan(1.5 * rough[1]! + 1e-12);
       }
     }
   }, 120000);

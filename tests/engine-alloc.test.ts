@@ -199,7 +199,10 @@ async function inChild<T>(imports: string, body: string): Promise<T> {
     `);
     const out = join(dir, 'entry.mjs');
     await build({ entryPoints: [entry], bundle: true, platform: 'node', format: 'esm', outfile: out, logLevel: 'silent' });
-    const text = execFileSync(process.execPath, ['--expose-gc', '--max-semi-space-size=1', out], { encoding: 'utf8' });
+    // --no-concurrent-recompilation: V8 optimises on the main thread, so warm-up ends with the
+    // optimised code in place however loaded the machine is (with background compilation a busy
+    // machine left the measured loop in unoptimised code that boxes doubles, now and then)
+    const text = execFileSync(process.execPath, ['--expose-gc', '--max-semi-space-size=1', '--no-concurrent-recompilation', out], { encoding: 'utf8' });
     return JSON.parse(text.trim().split('\n').pop()!) as T;
   } finally { rmSync(dir, { recursive: true, force: true }); }
 }

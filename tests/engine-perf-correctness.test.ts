@@ -15,6 +15,7 @@ import { CircuitEngine } from '../src/dsp/circuit/engine.ts';
 import { designToNetlist } from '../src/dsp/circuit/design.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { simulateNetlist } from './reference/mna-reference.ts';
+import { drive, errorDb } from './helpers/signals.ts';
 
 const AX7 = TUBE_LIBRARY['12AX7']!.model;
 const EF86 = TUBE_LIBRARY['EF86']!.model as KorenPentodeParams;
@@ -91,27 +92,10 @@ describe('tube tables (option) against the exact equations', () => {
   });
 });
 
-function drive(fs: number, seconds: number, peakVolts: number): Float64Array {
-  const n = Math.round(fs * seconds);
-  const x = new Float64Array(n);
-  for (let k = 0; k < n; k++) {
-    const t = k / fs;
-    x[k] = peakVolts * Math.exp(-4 * t) * (0.6 * Math.sin(2 * Math.PI * 110 * t) + 0.3 * Math.sin(2 * Math.PI * 165 * t + 1));
-  }
-  return x;
-}
-
-function errorDb(y: Float64Array, ref: Float64Array): number {
-  const dc = ref[0]!;
-  let es = 0, ee = 0;
-  for (let k = 0; k < ref.length; k++) { es += (ref[k]! - dc) ** 2; ee += (y[k]! - ref[k]!) ** 2; }
-  return 10 * Math.log10(ee / es);
-}
-
 describe.each(['pentode-triode', 'triode-triode'])('template %s at 4x (192 kHz), hard drive', (name) => {
   const netlist = designToNetlist(TEMPLATES[name]!);
   const fs = 192000;
-  const x = drive(fs, 0.05, 2);
+  const x = drive(fs, 0.05, 2, false);
   const ref = simulateNetlist(netlist, x, fs).output;
   it.each(['exact', 'table'] as const)('%s tube functions: error energy >= 60 dB below the signal, no failures', (tubeFunctions) => {
     const e = new CircuitEngine(netlist, fs, { tubeFunctions, antialiasing: 'off' });

@@ -8,31 +8,13 @@ import { parseNetlist, type Netlist } from '../src/dsp/circuit/netlist.ts';
 import { designToNetlist } from '../src/dsp/circuit/design.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { simulateNetlist, solveOperatingPoint } from './reference/mna-reference.ts';
+import { drive, errorDb } from './helpers/signals.ts';
 
 const dir = new URL('./fixtures/netlists/', import.meta.url);
 const cases: [string, Netlist][] = [
   ...readdirSync(dir).filter((f) => f.endsWith('.json')).map((f): [string, Netlist] => [f, parseNetlist(readFileSync(new URL(f, dir), 'utf8'))]),
   ...Object.entries(TEMPLATES).map(([name, d]): [string, Netlist] => [`template ${name}`, designToNetlist(d)]),
 ];
-
-/** Guitar-like drive: a decaying chord at hard-picking level, then a louder burst that drives grid current. */
-function drive(fs: number, seconds: number, peakVolts: number): Float64Array {
-  const n = Math.round(fs * seconds);
-  const x = new Float64Array(n);
-  for (let k = 0; k < n; k++) {
-    const t = k / fs;
-    const env = Math.exp(-4 * t);
-    x[k] = peakVolts * env * (0.6 * Math.sin(2 * Math.PI * 110 * t) + 0.3 * Math.sin(2 * Math.PI * 165 * t + 1) + 0.1 * Math.sin(2 * Math.PI * 440 * t + 2));
-  }
-  return x;
-}
-
-function errorDb(y: Float64Array, ref: Float64Array): number {
-  const dc = ref[0]!;
-  let es = 0, ee = 0;
-  for (let k = 0; k < ref.length; k++) { es += (ref[k]! - dc) ** 2; ee += (y[k]! - ref[k]!) ** 2; }
-  return 10 * Math.log10(ee / es);
-}
 
 describe.each(cases)('%s', (_name, netlist) => {
   it('operating point agrees with the reference within 0.1 %', () => {

@@ -57,7 +57,6 @@ describe('initial-velocity grid law: equations', () => {
     const o = newSlopes();
     for (const v of [-3, -0.7, 0.2]) {
       gridCurrentAt(IV_DEFAULT_GRID, v, o);
-      // eslint-disable-next-line no-new-func
       const f = new Function('V', `return ${js};`) as (v: number) => number;
       expect(f(v) / o.amps).toBeCloseTo(1, 12);
     }
@@ -76,9 +75,11 @@ describe('initial-velocity grid law: physics and data sheets (12AX7 library law)
     const lo = (Math.LN10 * K_OVER_Q * 1000) / (1 + (K_OVER_Q * 1000) / 0.7), hi = Math.LN10 * K_OVER_Q * 1100;
     expect(slope).toBeGreaterThan(lo); expect(slope).toBeLessThan(hi);
   });
-  it('10 M leak biases between -0.5 and -1.3 V, near the commonly quoted -1 V (handbooks, from memory)', () => {
+  it('10 M leak biases between -0.5 and -1.3 V (the issue\'s window), inside the -0.5 to -1 V practical range with 5-10 M (handbooks, from memory)', () => {
     const v = biasRef(10e6);
     expect(v).toBeGreaterThan(-1.3); expect(v).toBeLessThan(-0.5);
+    expect(v).toBeGreaterThan(-1.0);
+    expect(biasRef(4.7e6)).toBeLessThan(-0.5);
   });
   it('the engine agrees with the reference solver on every leak within 1 mV', () => {
     for (const r of leaks) {
@@ -102,6 +103,46 @@ describe('initial-velocity grid law: physics and data sheets (12AX7 library law)
     const slope = (k: number) => { const g = { ...IV_DEFAULT_GRID, cathodeKelvin: k }; return (biasRef(1e6, g) - biasRef(47e6, g)) / Math.log10(47); };
     const r = slope(1100) / slope(1000);
     expect(r).toBeGreaterThan(1.05); expect(r).toBeLessThan(1.12); // 1.1 less the load-line term
+  });
+});
+
+// Dempwolf & Zolzer, "A physically-motivated triode model for circuit simulations", DAFx-11, 2011:
+// their grid-current law and the parameters they fitted to a measured 12AX7 (Gg 6.177e-4,
+// Cg 9.901, xi 1.314, Ig0 8.025e-8 A), written out here independently of src/.
+const dzMeasured12ax7 = (vgk: number) => {
+  const z = 9.901 * vgk, softplus = Math.max(z, 0) + Math.log1p(Math.exp(-Math.abs(z)));
+  return 6.177e-4 * Math.pow(softplus / 9.901, 1.314) + 8.025e-8;
+};
+
+describe('initial-velocity grid law: the conducting region against a measured 12AX7 (Dempwolf-Zolzer DAFx-11)', () => {
+  const law = (v: number) => { const o = newSlopes(); gridCurrentAt(IV_DEFAULT_GRID, v, o); return o.amps; };
+  it('from +0.5 to +3 V within a factor 2 of the measured law', () => {
+    for (let v = 0.5; v <= 3.0001; v += 0.125) {
+      const r = law(v) / dzMeasured12ax7(v);
+      expect(r, `Vgk ${v} V`).toBeGreaterThan(0.5); expect(r, `Vgk ${v} V`).toBeLessThan(2);
+    }
+  });
+  it('at 0 V no more than 4x the measured law (18.8 uA there); the excess below 0 V is the documented price of the bias', () => {
+    expect(dzMeasured12ax7(0) * 1e6).toBeCloseTo(18.8, 1); // the paper's fit, as check-values quote it
+    expect(law(0) / dzMeasured12ax7(0)).toBeLessThan(4);
+    expect(law(0) / dzMeasured12ax7(0)).toBeGreaterThan(1);
+  });
+  it('a DC-coupled cathode follower (12AX7, grid fed through 1 M from 150 V, 100 k cathode load, 300 V) drops under 1 V across its grid resistor (reference solver)', () => {
+    // A DC-coupled follower idles below a volt negative, where its grid current is a small fraction of
+    // a microamp on a real tube (common practice); the earlier default (gg 3.1e-4, xi 1.5) dropped 1.9 V here.
+    const op = solveOperatingPoint({
+      schema: 'valvewright.netlist.v1', ground: '0', input: { node: 'in', ohms: 1000 }, output: { node: 'k' },
+      elements: [
+        { id: 'Cin', kind: 'capacitor', nodes: ['in', 'a'], farads: 22e-9 },
+        { id: 'Bs', kind: 'dc-source', nodes: ['a', '0'], volts: 150, ohms: 0 },
+        { id: 'Rg', kind: 'resistor', nodes: ['a', 'g'], ohms: 1e6 },
+        { id: 'Rk', kind: 'resistor', nodes: ['k', '0'], ohms: 100e3 },
+        { id: 'B1', kind: 'dc-source', nodes: ['b', '0'], volts: 300, ohms: 0 },
+        { id: 'V1', kind: 'triode', nodes: { plate: 'b', grid: 'g', cathode: 'k' }, model: { name: 'koren-triode', ...TUBE_LIBRARY['12AX7']!.model }, gridCurrent: IV_DEFAULT_GRID },
+      ],
+    });
+    const drop = 150 - op.nodes.g!;
+    expect(drop).toBeGreaterThan(0); expect(drop).toBeLessThan(1);
   });
 });
 

@@ -110,7 +110,7 @@ describe('valvewright tube fit and tubes (CLI)', () => {
     const r = await run('tubes', '--json');
     const j = JSON.parse(r.out) as { tubes: { type: string; sections: { kind: string }[]; heater: { volts: number; amps: number } }[] };
     const combo = j.tubes.filter((t) => t.sections.map((x) => x.kind).sort().join() === 'pentode,triode');
-    expect(combo.map((t) => t.type)).toEqual(expect.arrayContaining(['ECF80', 'ECL82']));
+    expect(combo.map((t) => t.type)).toEqual(expect.arrayContaining(['ECF80', 'ECL82', '6AN8']));
     for (const t of j.tubes) expect(Object.keys(t)).toEqual(['type', 'sections', 'heater', 'ratings', 'sources']);
   });
 });

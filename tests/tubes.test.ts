@@ -128,3 +128,57 @@ describe('operating points of whole stages', () => {
     expect(o2.amps / o1.amps).toBeCloseTo(1.33, 10);
   });
 });
+
+// The 6AN8P model posted in the diyAudio "Vacuum Tube SPICE Models" thread (p. 141; traced with
+// the paint_kip tracer of dmitrynizh.com): its plate-current core written out here from the published
+// equation and numbers (MU 45, EX 1.391, KG1 621.41, KP 126.12, KVB 7.2, VCT 0.2134, KNEE 17.21).
+const published6an8Plate = (vgk: number, vpk: number, vsk: number) => {
+  const e1 = (vsk / 126.12) * Math.log1p(Math.exp(126.12 * (1 / 45 + (0.2134 + vgk) / Math.sqrt(7.2 + vsk * vsk))));
+  return (2 * Math.pow(e1, 1.391) / 621.41) * Math.atan(vpk / 17.21);
+};
+
+describe('6AN8 triode-pentode: the pentode section from published model parameters', () => {
+  const pent = TUBE_LIBRARY['6AN8 pentode']!, tri = TUBE_LIBRARY['6AN8 triode']!;
+  it('is one envelope of a triode and a pentode section', () => {
+    expect(pent.envelope).toBe('6AN8'); expect(tri.envelope).toBe('6AN8');
+    expect(pent.kind).toBe('pentode'); expect(tri.kind).toBe('triode');
+    expect(pent.ratings.heaterAmps).toBe(tri.ratings.heaterAmps);
+  });
+  it('the library set stays within 15 % of the full published model at the typical point (the reduction drops VCT and the slope terms)', () => {
+    const o = newSlopes();
+    korenPentodePlate(pent.model as KorenPentodeParams, -2, 200, 150, 1, o);
+    const full = published6an8Plate(-2, 200, 150);
+    expect(Math.abs(o.amps / full - 1)).toBeLessThan(0.15);
+  });
+  it('RCA 6AN8 sheet, pentode unit at Va 200 / Vg2 150 / Vg1 -2 V: 9.5 mA, 6.2 mA/V (sheet values from memory), within 10 %', () => {
+    const o = newSlopes();
+    korenPentodePlate(pent.model as KorenPentodeParams, -2, 200, 150, 1, o);
+    expect(Math.abs(o.amps / 9.5e-3 - 1)).toBeLessThan(0.1);
+    expect(Math.abs(o.dVgk / 6.2e-3 - 1)).toBeLessThan(0.1);
+    // a pentode: plate resistance far above the plate load (sheet about 0.3 M, from memory)
+    expect(1 / o.dVpk).toBeGreaterThan(0.15e6);
+  });
+  it('triode section: mu about 21 and ra about 4.5 k at 150 V, 15 mA (a 6AN8 amplifier article; Ia from the sheet, from memory)', () => {
+    const o = newSlopes();
+    let lo = -10, hi = 0; // the grid voltage that gives 15 mA at 150 V
+    for (let i = 0; i < 60; i++) { const m = (lo + hi) / 2; korenTriode(tri.model as typeof ax7, m, 150, 1, o); if (o.amps > 15e-3) hi = m; else lo = m; }
+    korenTriode(tri.model as typeof ax7, lo, 150, 1, o);
+    expect(Math.abs(o.dVgk / o.dVpk / 21 - 1)).toBeLessThan(0.05);
+    expect(Math.abs(1 / o.dVpk / 4500 - 1)).toBeLessThan(0.1);
+  });
+});
+
+describe('interelectrode capacitances', () => {
+  it('every library type carries non-zero capacitances with a source; grid-plate is far smaller in a pentode than in a triode (screened grid, common practice)', () => {
+    for (const t of Object.values(TUBE_LIBRARY)) {
+      const c = t.capacitance;
+      expect(c.gridPlateFarads, t.name).toBeGreaterThan(0);
+      expect(c.gridCathodeFarads, t.name).toBeGreaterThan(0);
+      expect(c.plateCathodeFarads, t.name).toBeGreaterThan(0);
+      expect(c.gridCathodeFarads, t.name).toBeLessThan(20e-12);
+      expect(c.source.length, t.name).toBeGreaterThan(10);
+      if (t.kind === 'pentode') expect(c.gridPlateFarads, t.name).toBeLessThan(0.5e-12);
+      else expect(c.gridPlateFarads, t.name).toBeGreaterThan(0.8e-12);
+    }
+  });
+});

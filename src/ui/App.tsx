@@ -25,6 +25,7 @@ import { designResponses, type Responses } from './model/response.ts';
 import { Schematic } from './Schematic.tsx';
 import { PartEditor, ValueField } from './PartEditor.tsx';
 import { OperatingPanel } from './OperatingPanel.tsx';
+import { TubeFitPanel } from './TubeFitPanel.tsx';
 import { ResponsePlot, ScopePlot, SpectrumPlot } from './Plots.tsx';
 import { ClientPack, Meters, Waveform, type DemoClip } from './Listen.tsx';
 import { CautionDialog } from './Cautions.tsx';
@@ -312,6 +313,7 @@ export function App(): ReactElement {
         <div className="side">
           <PartEditor design={design} part={part} rating={sheetNow?.rows.find((r) => r.ref === selected) ?? null} sheetPending={!sheetNow} onChange={onPart} onSupplyVolts={onSupply} />
           <OperatingPanel report={op.report} failure={op.failure} findings={findings} slot={active} supply={sheetNow?.result.supply ? { loadedVolts: sheetNow.result.supply.loadedVolts, unloadedVolts: sheetNow.result.supply.unloadedVolts } : null} />
+          <TubeFitPanel design={design} onDesign={(d) => commit(withSlot(slots, active, d))} />
         </div>
 
         <section className="panel listen" aria-labelledby="listen-h">

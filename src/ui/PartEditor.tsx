@@ -123,7 +123,7 @@ const pf = (farads: number): string => `${Number((farads * 1e12).toPrecision(3))
 
 function TubeControls({ part, onChange }: { part: TubePart; onChange: (p: Part) => void }): ReactElement {
   const t = tubeType(part.type);
-  const sameKind = Object.values(TUBE_LIBRARY).filter((x) => x.kind === t.kind);
+  const sameKind = [...Object.values(TUBE_LIBRARY), ...(TUBE_LIBRARY[part.type] ? [] : [t])].filter((x) => x.kind === t.kind); // an imported (user) type shows too
   const sampleName = (Object.entries(TUBE_SAMPLES).find(([, v]) => Math.abs(v - part.sample) < 1e-9)?.[0]) ?? 'custom';
   return (
     <div>

@@ -23,6 +23,8 @@ export interface SimulationResult {
   readonly nodes: Record<string, Float64Array>;
   /** Newton iterations over the whole run and the most in any one sample */
   readonly newtonIterations: { readonly total: number; readonly maxPerSample: number };
+  /** Samples where plain Newton failed and the continuation fallback solved the step. */
+  readonly continuationSamples: number;
 }
 
 export interface SimulationOptions {
@@ -30,6 +32,12 @@ export interface SimulationOptions {
   readonly nodes?: readonly string[] | 'all';
   /** Newton iteration limit per time step (default 100) */
   readonly maxNewtonIterations?: number;
+  /**
+   * Solve every sample by continuation in this many sub-steps (see solveByContinuation), not
+   * only the samples where plain Newton fails; for checking that the solution does not depend
+   * on the path taken to it (default 0: continuation only as a fallback).
+   */
+  readonly continuationSteps?: number;
 }
 
 /** Thrown when Newton-Raphson does not converge; never returns an unconverged result. */
@@ -660,6 +668,10 @@ export function simulateNetlist(netlist: unknown, input: Float64Array, sampleRat
   const st: SolveState = { dcScale: 1, inputVolts: 0, capGeqSiemens: geq, capVolts, capAmps, extraGminSiemens: 0 };
   const newton = new Newton(c);
 
+  const cont = new Continuation(c, st);
+  const forced = options.continuationSteps ?? 0;
+  if (!Number.isInteger(forced) || forced < 0) throw new Error(`simulateNetlist: continuationSteps must be a non-negative integer, got ${forced}`);
+  let continuationSamples = 0;
   const output = new Float64Array(input.length);
   const nodes: Record<string, Float64Array> = {};
   const traces = recordNames.map((name) => (nodes[name] = new Float64Array(input.length)));
@@ -668,11 +680,18 @@ export function simulateNetlist(netlist: unknown, input: Float64Array, sampleRat
   let maxIterations = 0;
   for (let step = 0; step < input.length; step++) {
     st.inputVolts = input[step]!;
-    if (!newton.solve(a, st, x, maxIter)) {
+    cont.beginStep(x);
+    let ok = forced > 0 ? cont.solve(newton, a, x, maxIter, forced) : newton.solve(a, st, x, maxIter);
+    if (!ok && forced === 0) {
+      ok = cont.solve(newton, a, x, maxIter, 2);
+      if (ok) continuationSamples++;
+    }
+    if (!ok) {
       throw new MnaConvergenceError(
-        `mna-reference: Newton did not converge at sample ${step} (t = ${(step * periodSeconds).toExponential(4)} s) after ${maxIter} iterations, last update ${newton.lastMaxUpdate.toExponential(3)} V`,
+        `mna-reference: Newton did not converge at sample ${step} (t = ${(step * periodSeconds).toExponential(4)} s) after ${maxIter} iterations, nor by continuation; last update ${newton.lastMaxUpdate.toExponential(3)} V`,
       );
     }
+    cont.endStep(x);
     totalIterations += newton.iterations;
     maxIterations = Math.max(maxIterations, newton.iterations);
     c.capacitors.forEach((cap, k) => {
@@ -683,5 +702,94 @@ export function simulateNetlist(netlist: unknown, input: Float64Array, sampleRat
     output[step] = volt(x, c.output);
     record.forEach((i, r) => { traces[r]![step] = volt(x, i); });
   }
-  return { output, nodes, newtonIterations: { total: totalIterations, maxPerSample: maxIterations } };
+  return { output, nodes, newtonIterations: { total: totalIterations, maxPerSample: maxIterations }, continuationSamples };
+}
+
+// ---------------------------------------------------------------- continuation fallback
+/**
+ * Natural-parameter continuation for one time step whose plain Newton solve failed. Everything
+ * that changes from one step's equations to the next (the input source and each capacitor's
+ * trapezoidal companion history, volts and amps) is moved along a straight line from the values
+ * that the previous step's solution satisfies (lambda = 0) to this step's (lambda = 1); the
+ * solution is followed with Newton from lambda = 0, the step in lambda halved after a failure
+ * and doubled after a success, down to 2^-24. Only lambda = 1 is kept, so the result is the
+ * same trapezoidal-rule solution plain Newton would have found; the path only supplies starting
+ * points. (Continuation methods: Allgower & Georg, "Introduction to numerical continuation
+ * methods", SIAM 2003, ch. 1; from memory.)
+ */
+class Continuation {
+  private readonly prevInput: { volts: number } = { volts: 0 };
+  private readonly prevCapVolts: Float64Array;
+  private readonly prevCapAmps: Float64Array;
+  private readonly lastCapVolts: Float64Array;
+  private readonly lastCapAmps: Float64Array;
+  private lastInputVolts = 0;
+  private readonly xStart: Float64Array;
+  private readonly xGood: Float64Array;
+  private readonly trial: SolveState;
+  private first = true;
+
+  constructor(private readonly c: Circuit, private readonly st: SolveState) {
+    const nc = c.capacitors.length;
+    this.prevCapVolts = Float64Array.from(st.capVolts);
+    this.prevCapAmps = Float64Array.from(st.capAmps);
+    this.lastCapVolts = Float64Array.from(st.capVolts);
+    this.lastCapAmps = Float64Array.from(st.capAmps);
+    this.xStart = new Float64Array(c.size);
+    this.xGood = new Float64Array(c.size);
+    this.trial = { ...st, capVolts: new Float64Array(nc), capAmps: new Float64Array(nc) };
+  }
+
+  /** Before a step: x is the previous step's solution, which solves the previous equations. */
+  beginStep(x: Float64Array): void {
+    this.xStart.set(x);
+    if (this.first) {
+      // the operating point: it solves the first step's equations at the input's rest value 0
+      this.prevInput.volts = 0;
+      this.prevCapVolts.set(this.st.capVolts);
+      this.prevCapAmps.set(this.st.capAmps);
+      this.first = false;
+    } else {
+      this.prevInput.volts = this.lastInputVolts;
+      this.prevCapVolts.set(this.lastCapVolts);
+      this.prevCapAmps.set(this.lastCapAmps);
+    }
+  }
+
+  /** After a step: remember the equations it solved (they are the next step's lambda = 0). */
+  endStep(_x: Float64Array): void {
+    this.lastInputVolts = this.st.inputVolts;
+    this.lastCapVolts.set(this.st.capVolts);
+    this.lastCapAmps.set(this.st.capAmps);
+  }
+
+  /** Solve the present step into x by continuation; at least `minSteps` sub-steps. */
+  solve(newton: Newton, a: Float64Array, x: Float64Array, maxIter: number, minSteps: number): boolean {
+    const st = this.st, tr = this.trial, nc = this.c.capacitors.length;
+    const set = (lambda: number): void => {
+      tr.inputVolts = this.prevInput.volts + lambda * (st.inputVolts - this.prevInput.volts);
+      for (let k = 0; k < nc; k++) {
+        tr.capVolts[k] = this.prevCapVolts[k]! + lambda * (st.capVolts[k]! - this.prevCapVolts[k]!);
+        tr.capAmps[k] = this.prevCapAmps[k]! + lambda * (st.capAmps[k]! - this.prevCapAmps[k]!);
+      }
+    };
+    this.xGood.set(this.xStart);
+    let lambda = 0;
+    let h = 1 / minSteps;
+    while (lambda < 1) {
+      const target = Math.min(1, lambda + h);
+      set(target);
+      x.set(this.xGood);
+      if (newton.solve(a, target === 1 ? st : tr, x, maxIter)) {
+        lambda = target;
+        this.xGood.set(x);
+        h = Math.min(2 * h, 1 / minSteps);
+      } else {
+        h /= 2;
+        if (h < 2 ** -24) return false;
+      }
+    }
+    x.set(this.xGood);
+    return true;
+  }
 }

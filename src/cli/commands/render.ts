@@ -4,7 +4,7 @@ import { resolve } from 'node:path';
 import { OversampledCircuit, isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { PeakLimiter } from '../../dsp/render/limiter.ts';
-import { CircuitEngine, type Antialiasing } from '../../dsp/circuit/engine.ts';
+import { CircuitEngine, type Antialiasing, type SolverStats } from '../../dsp/circuit/engine.ts';
 import { CliError, optNumber, optString, parseArgs } from '../args.ts';
 import { CIRCUIT_OPTIONS, loadCircuitSource, sourceNotes } from '../circuit-load.ts';
 import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, designCircuit, withVolumeFull } from '../../dsp/circuit/design.ts';
@@ -51,7 +51,14 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   if (h.channelCount > 1) io.err(`note: ${inPath} has ${h.channelCount} channels; mixing to mono`);
   const fs = h.sampleRate;
   const factorT = factor as OversamplingFactor;
-  const model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
+  let model: CircuitEngine | OversampledCircuit;
+  try {
+    model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
+  } catch (e) {
+    // e.g. no DC operating point: close the input before the error reaches the user
+    await reader.close();
+    throw e;
+  }
   const outScale = raw ? 1 : 1 / estimateOutputVoltsAtFullScale(levelRef, fs, inputVolts);
   const limiter = new PeakLimiter(fs, RENDER_CEILING_DBTP);
   // the limiter bounds sample peaks; the rendered output is kept (float) and trimmed so its true
@@ -114,8 +121,10 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
     // the model's B+ at its node at rest (the power-supply estimate where the design has one)
     supplyVolts: loaded.fromNetlist || !loaded.design ? null : engine.operatingPoint().nodes[loaded.design.supply.node] ?? null,
     ceilingDbtp: raw ? null : RENDER_CEILING_DBTP, truePeakTrimDb: raw ? null : 20 * Math.log10(trimGain), outputTruePeakDbtp: outTruePeakDbtp,
-    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, nonFiniteSamples: nonFinite,
+    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, newtonFallbacks: stats.fallbacks, nonFiniteSamples: nonFinite,
   };
+  const warning = solverWarning(stats);
+  if (warning) io.err(warning);
   if (!raw) io.err(`input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`);
   if (a.options.has('json')) io.out(JSON.stringify(summary));
   else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`);
@@ -147,4 +156,14 @@ async function writeUnderTruePeakCeiling(blocks: Float32Array[], writer: WavFile
     await writer.write([b], b.length);
   }
   return gain;
+}
+
+/**
+ * One warning line when the circuit solver needed its fallback or failed on some samples (null
+ * when it did neither): a render whose solver held samples is not the circuit's exact response there.
+ */
+export function solverWarning(stats: SolverStats): string | null {
+  if (stats.fallbacks === 0 && stats.failures === 0) return null;
+  return `warning: the circuit solver needed its fallback (continuation) on ${stats.fallbacks} of ${stats.solves} circuit samples`
+    + (stats.failures > 0 ? `, and ${stats.failures} did not converge even so (each held the previous sample: the output there is not the circuit's)` : ' (all converged)');
 }

@@ -40,6 +40,8 @@ export async function runTubes(argv: readonly string[], io: CommandIO): Promise<
       io.out(`      ${name}: ${t.description}; ${Object.entries(t.model).map(([k, v]) => `${k} ${v}`).join(', ')}; grid ${t.gridCurrent.name}`);
       io.out(`        ratings: plate ${r.plateVolts} V ${r.plateWatts} W${r.screenVolts !== undefined ? `, screen ${r.screenVolts} V ${r.screenWatts ?? '?'} W` : ''}${r.coldPlateVolts !== undefined ? `, cold start ${r.coldPlateVolts} V` : ''}, heater-cathode ${r.heaterCathodeVolts} V`);
       io.out(`        sources: model: ${t.modelSource}; ratings: ${r.source}`);
+      const c = t.capacitance, pf = (f: number) => +(f * 1e12).toPrecision(3);
+      io.out(`        capacitance: grid-plate ${pf(c.gridPlateFarads)} pF, grid-cathode ${pf(c.gridCathodeFarads)} pF, plate-cathode ${pf(c.plateCathodeFarads)} pF (${c.source})`);
     }
   }
   io.out(`${Object.keys(TUBE_LIBRARY).length} section types. "from memory" marks values not yet confirmed against a stored data sheet.`);

@@ -1,6 +1,7 @@
 // A design is data: parts with values, a B+ supply, tubes from the library, the guitar input and
 // the output load. It compiles to the engine's circuit and to the netlist interchange form.
-import { tubeType, type TubeType } from '../tubes/library.ts';
+import { registerUserTube, tubeType, type TubeType } from '../tubes/library.ts';
+import { TubeFileError, userTubeType } from '../tubes/user-tube.ts';
 import type { EngineCapacitor, EngineCircuit, EngineElement } from './engine.ts';
 import { gridsWithoutDcPath } from './topology.ts';
 import { NETLIST_SCHEMA, type NetElement, type Netlist, type NetTube } from './netlist.ts';
@@ -68,6 +69,12 @@ export interface Design {
   readonly supply: Supply;
   readonly parts: readonly Part[];
   readonly powerSupply?: PowerSupplySection;
+  /**
+   * User tube files (valvewright.tube.v1, from `tube fit --out`) this design's parts may name by
+   * type: carried in the design so that it is self-contained (the audio thread, a saved file, a
+   * shared link). Validating the design registers them (tubes/library.ts, registerUserTube).
+   */
+  readonly userTubes?: readonly unknown[];
 }
 
 export const GROUND = '0';
@@ -128,6 +135,14 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   // 0 = no filter capacitor (a netlist's ideal or resistive source); otherwise a real capacitor
   if (d.supply.filterFarads !== 0) checkPositive(d.supply.filterFarads, 'supply filterFarads', 1e-9, 1, 'F');
   if (!Array.isArray(d.parts) || d.parts.length === 0) throw new DesignError('design "parts" must be a non-empty list');
+  if (d.userTubes !== undefined) {
+    if (!Array.isArray(d.userTubes)) throw new DesignError('design "userTubes" must be a list of user tube files');
+    d.userTubes.forEach((u, i) => {
+      try { registerUserTube(userTubeType(u, `userTubes[${i}]`)); } catch (e) {
+        throw new DesignError(e instanceof TubeFileError ? e.message : `userTubes[${i}]: ${(e as Error).message}`);
+      }
+    });
+  }
   const ids = new Set<string>([SUPPLY_ID, SUPPLY_FILTER_ID, LOAD_ID]);
   const nodes = new Set<string>([GROUND, d.supply.node, d.input.node]);
   for (const p of d.parts as Part[]) {

@@ -6,7 +6,9 @@
 import { LinearNetworkCompiler, type Branch, type RootMatrices } from '../wdf/root-network.ts';
 import { NewtonRoot, type RootDevice } from '../wdf/newton-root.ts';
 import { RootAverager, type AveragingOptions } from '../wdf/averaged-root.ts';
-import { PentodeDevice, TriodeDevice, type TubeFunctions } from '../tubes/devices.ts';
+import { GridLawLimiter, PlateLawLimiter, type StepLimiter } from '../wdf/junction-limit.ts';
+import type { PentodeDevice, TriodeDevice, TubeFunctions } from '../tubes/devices.ts';
+import { tubeDevice } from '../tubes/registry.ts';
 import { compileLinearStage1, compileLinearStage2, type LinearStage1, type LinearStage2 } from './linear-kernel.ts';
 import type { NetCapacitor, NetElement, NetTube, Netlist } from './netlist.ts';
 
@@ -100,6 +102,20 @@ export interface PreparedEngineState {
 
 export type Antialiasing = 'averaged' | 'off';
 
+/** Counters of the transient solver since the engine was built (CircuitEngine.solverStats). */
+export interface SolverStats {
+  /** Samples solved. */
+  readonly solves: number;
+  /** Newton iterations (device evaluations) over all of them. */
+  readonly iterations: number;
+  /** Samples that needed the fallback (continuation, or the averager's end-point currents). */
+  readonly fallbacks: number;
+  /** Samples that still failed: their state was held at the last converged sample. */
+  readonly failures: number;
+  /** Interior solves of the averaged root. */
+  readonly interiorSolves: number;
+}
+
 const GMIN_SIEMENS = 1e-12;
 /**
  * With antialiasing 'averaged', capacitors below this are integrated by BDF2 whatever the
@@ -122,8 +138,65 @@ export const STIFF_BELOW_FARADS = 100e-12;
  */
 const OPEN_SWITCH_SIEMENS = 1e-8;
 // quadraticAccept: one device evaluation per sample when the Newton step is small (see newton-root.ts).
-const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true } as const;
+// homotopyDepth: a sample whose solve fails is re-solved by continuation from the last sample's
+// solution in steps down to 1/256 of the way (NewtonRoot.continueFrom).
+const TRANSIENT = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: true, quadraticAccept: true, homotopyDepth: 8 } as const;
 const DC = { toleranceVolts: 1e-11, maxIterations: 200 } as const;
+
+/**
+ * Element values the engine simulates. The per-sample maps come from one dense nodal solve in
+ * double precision: conductances that meet at a node must stay within about 1e12 of each other
+ * or the maps lose all accuracy (measured: a 22 nF coupling capacitor times 1e14, 5 pOhm at
+ * 48 kHz against hundreds of kilohms, put 1e6 V on the output). These bounds are decades beyond
+ * any tube circuit (common practice), so a value outside them is a typing or unit error.
+ */
+export const VALUE_RANGES = {
+  ohms: [1e-3, 1e12],
+  farads: [1e-15, 10],
+  /** |EMF| of a dc-source. */
+  volts: 1e5,
+} as const;
+
+export class ValueRangeError extends Error {
+  override name = 'ValueRangeError';
+}
+
+function checkValueRanges(circuit: EngineCircuit | Netlist): void {
+  const [rLo, rHi] = VALUE_RANGES.ohms, [cLo, cHi] = VALUE_RANGES.farads;
+  const ohms = (what: string, x: number, zeroOk: boolean) => {
+    if (zeroOk && x === 0) return;
+    if (!(x >= rLo && x <= rHi)) throw new ValueRangeError(`${what}: ${x} ohms is outside the range the engine simulates (${rLo} to ${rHi} ohms${zeroOk ? ', or 0' : ''})`);
+  };
+  ohms('input', circuit.input.ohms, true);
+  for (const e of circuit.elements) {
+    if (e.kind === 'resistor') ohms(e.id, e.ohms, false);
+    else if (e.kind === 'switch') ohms(e.id, e.contactOhms, false);
+    else if (e.kind === 'capacitor') {
+      if (!(e.farads >= cLo && e.farads <= cHi)) throw new ValueRangeError(`${e.id}: ${e.farads} farads is outside the range the engine simulates (${cLo} to ${cHi} F)`);
+    } else if (e.kind === 'dc-source') {
+      if (!(Math.abs(e.volts) <= VALUE_RANGES.volts)) throw new ValueRangeError(`${e.id}: ${e.volts} volts is beyond the ${VALUE_RANGES.volts} V the engine simulates`);
+      ohms(e.id, e.ohms, true);
+    }
+  }
+}
+
+/**
+ * Junction limiting for a tube's root ports (wdf/junction-limit.ts): its grid law's exponential
+ * tail and its Koren plate law's softplus tail. `offset`: its grid port; plate next, screen after.
+ */
+function tubeLimiters(e: NetTube, offset: number): StepLimiter[] {
+  const out: StepLimiter[] = [];
+  const gl = e.gridCurrent;
+  if (gl && gl.name === 'dempwolf-zolzer' && gl.gg > 0) out.push(new GridLawLimiter(offset, gl.cg * gl.xi));
+  else if (gl && gl.name === 'initial-velocity') {
+    // Vt = k T / q (Boltzmann constant and elementary charge, exact in SI since 2019)
+    out.push(new GridLawLimiter(offset, 1 / ((1.380649e-23 * gl.cathodeKelvin) / 1.602176634e-19), gl.onsetVolts));
+  }
+  const mo = e.model;
+  if (e.kind === 'pentode' && e.model.name === 'koren-pentode') out.push(new PlateLawLimiter(offset, offset + 2, true, mo.kp, mo.mu, mo.kvb, mo.ex));
+  else if (e.kind === 'triode' && e.model.name === 'koren-triode') out.push(new PlateLawLimiter(offset, offset + 1, false, mo.kp, mo.mu, mo.kvb, mo.ex));
+  return out;
+}
 
 interface TubeSlot {
   readonly el: NetTube;
@@ -165,6 +238,8 @@ export class CircuitEngine {
   private readonly dcCompiler: LinearNetworkCompiler;
   private readonly nlPorts: Branch[] = [];
   private readonly devices: RootDevice[] = [];
+  /** Junction limiting of the tubes' exponential tails (indexed by root port). */
+  private readonly limiters: StepLimiter[] = [];
   private readonly inputLeaf: number;
   private readonly outputNode: number;
   /** Transient matrices: the same arrays for the engine's life, recompiled in place. */
@@ -202,6 +277,8 @@ export class CircuitEngine {
   private readonly oConst = new Float64Array(1);
   /** [0] input, [1] output of processSample (see stepFrom). */
   private readonly io = new Float64Array(2);
+  /** [0]: the output of the last converged sample (held when a sample fails). */
+  private readonly lastOut = new Float64Array(1);
   private constDirty = true;
   private probeRows: Int32Array = new Int32Array(0);
   private probeBuf: Float64Array = new Float64Array(0);
@@ -214,6 +291,7 @@ export class CircuitEngine {
   constructor(circuit: EngineCircuit | Netlist, sampleRateHz: number, options: EngineOptions = {}) {
     const tubeFunctions: TubeFunctions = options.tubeFunctions ?? 'exact';
     if (!(sampleRateHz > 0 && Number.isFinite(sampleRateHz))) throw new Error(`sample rate must be positive (got ${sampleRateHz})`);
+    checkValueRanges(circuit);
     this.circuit = circuit;
     this.sampleRateHz = sampleRateHz;
     // later elements with the same id replace earlier ones (in the first one's place)
@@ -247,11 +325,9 @@ export class CircuitEngine {
         const k = idx(e.nodes.cathode);
         const offset = this.nlPorts.length;
         this.nlPorts.push({ a: idx(e.nodes.grid), b: k }, { a: idx(e.nodes.plate), b: k });
-        let device: TriodeDevice | PentodeDevice;
-        if (e.kind === 'pentode') {
-          this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
-          device = new PentodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
-        } else device = new TriodeDevice(e.model, e.gridCurrent, 1, tubeFunctions);
+        if (e.kind === 'pentode') this.nlPorts.push({ a: idx(e.nodes.screen), b: k });
+        const device = tubeDevice(e, tubeFunctions);
+        this.limiters.push(...tubeLimiters(e, offset));
         const slot = { el: e, device, offset };
         this.tubes.push(slot);
         if (!this.tubeById.has(e.id)) this.tubeById.set(e.id, slot);
@@ -315,10 +391,10 @@ export class CircuitEngine {
     const prepared = options.prepared;
     if (prepared) this.adoptMatrices(prepared.matrices);
     else this.compile();
-    this.root = new NewtonRoot(this.devices, this.tr.F);
-    this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging) : null;
+    this.root = new NewtonRoot(this.devices, this.tr.F, this.limiters);
+    this.averager = averaged ? new RootAverager(this.devices, this.tr.F, options.averaging, this.limiters) : null;
     this.rootCurrents = this.averager ? this.averager.iMean : this.root.i;
-    this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2));
+    this.dcRoot = new NewtonRoot(this.devices, new Float64Array(this.nlPorts.length ** 2), this.limiters);
     if (prepared) {
       if (prepared.rootVolts.length !== m) throw new Error('prepared state does not match this circuit (root size)');
       this.dcRoot.v.set(prepared.rootVolts);
@@ -352,9 +428,27 @@ export class CircuitEngine {
     return this.tr;
   }
 
-  /** Newton statistics of the transient root. */
-  get solverStats(): { solves: number; iterations: number; failures: number; interiorSolves: number } {
-    return { solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures, interiorSolves: this.averager?.interiorSolves[0] ?? 0 };
+  /**
+   * Newton statistics of the transient root. `fallbacks`: samples whose solve converged only by
+   * continuation (or, averaged, whose mean fell back to the end-point currents); `failures`:
+   * samples that did not converge even so, whose state was held (see stepFrom).
+   */
+  get solverStats(): SolverStats {
+    const av = this.averager;
+    return {
+      solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures,
+      fallbacks: this.root.fallbacks + (av ? av.fallbacks[0]! : 0), interiorSolves: av ? av.interiorSolves[0]! : 0,
+    };
+  }
+
+  /** Samples that needed the solver's fallback since the engine was built (an integer; no object, for meters). */
+  get fallbackSamples(): number {
+    return this.root.fallbacks + (this.averager ? this.averager.fallbacks[0]! | 0 : 0);
+  }
+
+  /** Samples that did not converge even by the fallback (their state was held) since the engine was built. */
+  get failedSamples(): number {
+    return this.root.failures;
   }
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */
@@ -581,7 +675,13 @@ export class CircuitEngine {
       this.capVPrev[j] = this.capV[j]!;
       this.capI[j] = 0;
     });
-    this.root.setState(this.dcRoot.v);
+    // the root's input p at rest (input 0): the DC solution solves it, a continuation may start there
+    if (this.constDirty) this.updateConstants();
+    const io = this.io;
+    io[0] = 0;
+    this.stage1(io, 0, this.capV, this.capVPrev, this.capI, this.capR, this.Pd, this.pConst, this.x, this.p);
+    this.root.setState(this.dcRoot.v, this.p);
+    this.lastOut[0] = this.outputNode < 0 ? 0 : op.nodes[this.nodeNames[this.outputNode]!]!;
     this.averager?.reset();
     this.atRest = true;
     this.probesAtOperatingPoint();
@@ -626,9 +726,17 @@ export class CircuitEngine {
     const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
     this.stage1(src, k, capV, capVPrev, capI, this.capR, this.Pd, this.pConst, x, p);
     const root = this.root;
-    root.solve(p, TRANSIENT);
+    if (root.solve(p, TRANSIENT) < 0) {
+      // Not converged, even by continuation: an unconverged iterate never reaches the capacitor
+      // states. Hold the last converged sample's state and output (solverStats.failures counts it).
+      dst[j] = this.lastOut[0]!;
+      this.probesStale = true;
+      this.atRest = false;
+      return;
+    }
     if (this.averager) this.averager.step(p, root.v, root.i);
     this.stage2(this.rootCurrents, x, this.Cd, this.cConst, this.invCapR, capV, capVPrev, capI, this.Od, this.oConst, dst, j);
+    this.lastOut[0] = dst[j]!;
     this.probesStale = true;
     this.atRest = false;
   }

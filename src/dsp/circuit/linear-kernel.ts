@@ -9,8 +9,9 @@
 // measured on pentode-triode at 8x (13 capacitors, 5 root ports, 336 multiply-adds), the CSR
 // loops took 49 % of the profile. The coefficients are read from their arrays on every call,
 // so a component change (which rewrites them) needs no new code. The code holds only numbers
-// and indices computed here.
-import { compileKernelSource } from '../wdf/newton-kernel.ts';
+// and indices computed here. Where code generation is forbidden (a Content Security Policy
+// without 'unsafe-eval'), the same maps run as plain loops (loopLinearStage1/2).
+import { generated } from '../wdf/newton-kernel.ts';
 
 /** Sizes of one engine's maps. */
 export interface LinearShape {
@@ -70,7 +71,22 @@ export function compileLinearStage1(s: LinearShape): LinearStage1 {
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
   // a named function (profiles show it by name rather than as anonymous)
-  return compileKernelSource<LinearStage1>(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`);
+  return generated<LinearStage1>(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`) ?? loopLinearStage1(s);
+}
+
+/** compileLinearStage1's computation as loops (no code generation, no allocation per call). */
+export function loopLinearStage1(s: LinearShape): LinearStage1 {
+  checkShape(s);
+  const { nc, m } = s, nd = nc + 1, bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
+  return (src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) => {
+    for (let j = 0; j < nc; j++) x[j] = bdf2[j] ? (4 / 3) * capV[j]! - (1 / 3) * capVPrev[j]! : capV[j]! + capR[j]! * capI[j]!;
+    x[nc] = src[k]!;
+    for (let r = 0; r < m; r++) {
+      let acc = pConst[r]!;
+      for (let c = 0; c < nd; c++) acc += Pd[r * nd + c]! * x[c]!;
+      p[r] = acc;
+    }
+  };
 }
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
@@ -88,5 +104,24 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
   L.push(`const out = ${o.join(' + ')};`);
   L.push('dst[j] = out - out === 0 ? out : 0;');
-  return compileKernelSource<LinearStage2>(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`);
+  return generated<LinearStage2>(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`) ?? loopLinearStage2(s);
+}
+
+/** compileLinearStage2's computation as loops (no code generation, no allocation per call). */
+export function loopLinearStage2(s: LinearShape): LinearStage2 {
+  checkShape(s);
+  const { nc, m } = s, nd = nc + 1, nx = nd + m, bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
+  return (i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) => {
+    for (let c = 0; c < m; c++) x[nd + c] = i[c]!;
+    for (let q = 0; q < nc; q++) {
+      let v = cConst[q]!;
+      for (let c = 0; c < nx; c++) v += Cd[q * nx + c]! * x[c]!;
+      if (bdf2[q]) capVPrev[q] = capV[q]!;
+      else capI[q] = (v - x[q]!) * invCapR[q]!;
+      capV[q] = v;
+    }
+    let out = oConst[0]!;
+    for (let c = 0; c < nx; c++) out += Od[c]! * x[c]!;
+    dst[j] = out - out === 0 ? out : 0;
+  };
 }

@@ -84,6 +84,9 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
+  /** Solver counters since the model was built (CircuitEngine.fallbackSamples / failedSamples). */
+  readonly fallbackSamples?: number;
+  readonly failedSamples?: number;
   /**
    * Back to the operating point (state only; values stay). With it, a new model is warmed up on a
    * test signal over a few blocks before it is heard (see WARM_BASE_SAMPLES), then reset.
@@ -129,6 +132,8 @@ export const planModel: ModelFactory = (plan) => {
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
     reset: () => oc.reset(),
+    get fallbackSamples() { return oc.engine.fallbackSamples; },
+    get failedSamples() { return oc.engine.failedSamples; },
   };
 };
 
@@ -208,6 +213,9 @@ class SlotState {
   warmDone = 0;
   warmChunk = 1;
   warmBlocks = 0;
+  /** The model's solver counters when it was swapped in (its warm-up's are not reported). */
+  fallbackBase = 0;
+  failedBase = 0;
   /** A new pending plan: any model warming for the old one is dropped. */
   setPending(design: Design | null, plan: SlotPlan | null): void {
     this.pending = design;
@@ -318,7 +326,7 @@ export class DualSlotEngine {
   private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
     type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
     limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
-    matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
+    solverFallbackSamples: 0, solverFailedSamples: 0, matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
   };
   /** Live A/B loudness match, measured from the slots' own sound (analysis/loudness-match.ts). */
   private readonly match: LoudnessMatch;
@@ -634,6 +642,8 @@ export class DualSlotEngine {
       return false;
     }
     s.model = model;
+    s.fallbackBase = model.fallbackSamples ?? 0;
+    s.failedBase = model.failedSamples ?? 0;
     s.plan = plan;
     s.design = d;
     s.dc = model.outputDcVolts;
@@ -706,6 +716,8 @@ export class DualSlotEngine {
       const model = this.createModel(plan);
       applyDesignValues(model, plan.design, d);
       s.model = model;
+      s.fallbackBase = model.fallbackSamples ?? 0;
+      s.failedBase = model.failedSamples ?? 0;
       s.dc = model.outputDcVolts;
       for (const g of s.glides) { g.active = false; g.from = g.to = g.value; }
       return true;
@@ -951,15 +963,20 @@ export class DualSlotEngine {
     r.matchGainDb = this.match.gainDb;
     r.outputLufs = lo > -200 ? lo : null;
     const traces = r.slotTraces;
+    let fallbacks = 0, failed = 0;
     for (let k = 0; k < 2; k++) {
       const s = this.slots[k]!, m = s.model;
       if (!m) { traces[k] = null; continue; }
+      fallbacks += (m.fallbackSamples ?? 0) - s.fallbackBase;
+      failed += (m.failedSamples ?? 0) - s.failedBase;
       const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
       t.gridVolts = pv[0] ?? 0;
       t.plateVolts = pl;
       traces[k] = t;
     }
+    r.solverFallbackSamples = fallbacks;
+    r.solverFailedSamples = failed;
     if (traced.model) {
       r.gridVolts = traced.trace.gridVolts;
       r.plateVolts = traced.plateVolts;

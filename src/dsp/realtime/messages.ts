@@ -74,6 +74,13 @@ export interface MeterReport {
    */
   readonly slotTraces: readonly [SlotTrace | null, SlotTrace | null];
   /**
+   * Circuit solver counters, totals over both slots' present circuits since each was built, in
+   * circuit (oversampled) samples: samples whose solve needed the fallback (continuation), and
+   * samples that still failed (their state was held). Absent from models that do not count.
+   */
+  readonly solverFallbackSamples?: number;
+  readonly solverFailedSamples?: number;
+  /**
    * B's loudness against A's, each as its slot makes it (output scale applied, before the match
    * gain and the monitor mix), over a 3 s window, dB; null while either is silent.
    */

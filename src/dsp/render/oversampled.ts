@@ -1,5 +1,5 @@
 // A circuit engine run at factor x the base rate between an interpolator and a decimator.
-import { CircuitEngine, type EngineCircuit, type EngineOptions } from '../circuit/engine.ts';
+import { CircuitEngine, type EngineCircuit, type EngineOptions, type SolverStats } from '../circuit/engine.ts';
 import type { Netlist } from '../circuit/netlist.ts';
 import { Oversampler, type OversamplingFactor, type OversamplingQuality } from '../oversampling/oversampler.ts';
 
@@ -48,6 +48,11 @@ export class OversampledCircuit {
    */
   get latencySamples(): number {
     return this.up.latencyBaseSamples + this.engine.averagingDelaySamples / this.factor;
+  }
+
+  /** The engine's solver counters (CircuitEngine.solverStats): fallbacks and failures are in engine-rate samples. */
+  get solverStats(): SolverStats {
+    return this.engine.solverStats;
   }
 
   /** Back to the DC operating point with the filters at steady state. */

@@ -5,7 +5,8 @@
 //   triode:  Koren triode (mu, ex, kg1, kp, kvb) to (Vgk, Vpk, Ip)
 //   pentode: Koren pentode (mu, ex, kg1, kg2, kp, kvb) to (Vgk, Vpk, Vsk, Ip) and, where given, Is
 //   grid:    initial-velocity law (gg, xi, cathodeKelvin, onsetVolts) to the rows that give Ig
-import { BOLTZMANN_VOLTS_PER_KELVIN, type InitialVelocityLaw } from './grid-laws.ts';
+import { compileInitialVelocity, initialVelocityGridInto, type InitialVelocityLaw } from './grid-laws.ts';
+import { IV_DEFAULT_GRID } from './library.ts';
 import { korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes, type KorenPentodeParams, type KorenTriodeParams } from './models.ts';
 
 export interface FitPoint {
@@ -231,10 +232,12 @@ export function fitPentode(points: readonly FitPoint[], randomStarts = 40, kg2De
   };
 }
 
-/** The initial-velocity law at Vgk (same equations as grid-laws.ts, written out for the fit). */
+const ivIn = new Float64Array(1), ivOut = new Float64Array(2);
+/** The initial-velocity law at Vgk (grid-laws.ts, the one implementation of its equations). */
 export function initialVelocityAmps(g: Omit<InitialVelocityLaw, 'name'>, vgk: number): number {
-  const vt = BOLTZMANN_VOLTS_PER_KELVIN * g.cathodeKelvin, xv = g.xi * vt, u = vgk - g.onsetVolts;
-  return u <= 0 ? g.gg * Math.pow(xv, g.xi) * Math.exp(u / vt) : g.gg * Math.pow(u + xv, g.xi);
+  ivIn[0] = vgk;
+  initialVelocityGridInto(compileInitialVelocity(g), ivIn, 0, ivOut, 0);
+  return ivOut[0]!;
 }
 
 /** Fit the initial-velocity grid law to the rows that give Ig (at least 4, spanning the onset for a meaningful temperature). */
@@ -243,7 +246,7 @@ export function fitGridLaw(points: readonly FitPoint[], randomStarts = 30): Init
   if (rows.length < 4) throw new FitError(`a grid-current fit needs at least 4 points with Ig (got ${rows.length})`);
   for (const q of rows) if (!(q.ig! > 0)) throw new FitError(`grid current must be positive where given (Vgk ${q.vgk} V: got ${q.ig} A)`);
   const of = (p: Float64Array) => ({ gg: p[0]!, xi: p[1]!, cathodeKelvin: p[2]!, onsetVolts: p[3]! });
-  const res = multiStartFit(GRID_SPECS, [Float64Array.of(3.1e-4, 1.5, 1050, -0.49)], randomStarts, (p, out) => {
+  const res = multiStartFit(GRID_SPECS, [Float64Array.of(IV_DEFAULT_GRID.gg, IV_DEFAULT_GRID.xi, IV_DEFAULT_GRID.cathodeKelvin, IV_DEFAULT_GRID.onsetVolts)], randomStarts, (p, out) => {
     const g = of(p);
     rows.forEach((q, k) => { out[k] = Math.log(initialVelocityAmps(g, q.vgk) / q.ig!); });
   }, rows.length);

@@ -32,6 +32,7 @@
 // centred half a (fast-rate) sample earlier; for small signals the mean is the two-tap average
 // (1 + z^-1)/2 of the linear response, a droop of cos(pi f / fs) (-0.12 dB at 10 kHz at 4x).
 import { NewtonRoot, type NewtonOptions, type RootDevice } from './newton-root.ts';
+import type { StepLimiter } from './junction-limit.ts';
 
 export interface AveragingOptions {
   /** Accept a panel when its estimated error, in volts at the ports, is below this. */
@@ -48,6 +49,8 @@ export interface AveragingOptions {
 export const DEFAULT_AVERAGING: AveragingOptions = { toleranceVolts: 1, maxDepth: 5 };
 
 const INTERIOR: NewtonOptions = { toleranceVolts: 1e-5, maxIterations: 40, extrapolate: false, quadraticAccept: true };
+/** An interior node that fails from its interpolated start is re-solved by continuation from the panel's start, down to 1/256. */
+const INTERIOR_HOMOTOPY_DEPTH = 8;
 
 export class RootAverager {
   readonly m: number;
@@ -55,6 +58,14 @@ export class RootAverager {
   readonly iMean: Float64Array;
   /** Interior Newton solves since construction ([0]; diagnostics). */
   readonly interiorSolves = new Float64Array(1);
+  /**
+   * Steps whose mean fell back to the end-point currents ([0]): an interior node did not
+   * converge even by continuation, so the step uses the plain discretisation's currents.
+   */
+  readonly fallbacks = new Float64Array(1);
+  private readonly pA: Float64Array;
+  private readonly vA: Float64Array;
+  private failed = false;
   private readonly opts: AveragingOptions;
   private readonly n: number;
   private readonly scratch: NewtonRoot;
@@ -72,8 +83,8 @@ export class RootAverager {
   private readonly stack: Int32Array;
   private valid = false;
 
-  constructor(devices: readonly RootDevice[], F: Float64Array, opts: AveragingOptions = DEFAULT_AVERAGING) {
-    this.scratch = new NewtonRoot(devices, F);
+  constructor(devices: readonly RootDevice[], F: Float64Array, opts: AveragingOptions = DEFAULT_AVERAGING, limiters: readonly StepLimiter[] = []) {
+    this.scratch = new NewtonRoot(devices, F, limiters);
     const m = this.scratch.m;
     this.m = m;
     this.opts = opts;
@@ -87,6 +98,8 @@ export class RootAverager {
     this.nodeV = new Float64Array((this.n + 1) * m);
     this.nodeI = new Float64Array((this.n + 1) * m);
     this.guess = new Float64Array(m);
+    this.pA = new Float64Array(m);
+    this.vA = new Float64Array(m);
     this.stack = new Int32Array(2 * (opts.maxDepth + 2));
     this.setF(F);
   }
@@ -135,7 +148,12 @@ export class RootAverager {
     }
     const end = n * m;
     for (let r = 0; r < m; r++) { nodeV[end + r] = v1[r]!; nodeI[end + r] = i1[r]!; }
+    this.failed = false;
     this.adaptiveSimpson(p);
+    if (this.failed) {
+      iMean.set(i1);
+      this.fallbacks[0] = this.fallbacks[0]! + 1;
+    }
     // the end becomes the next start
     for (let r = 0; r < m; r++) { iBefore[r] = nodeI[r]!; nodeI[r] = nodeI[end + r]!; nodeV[r] = nodeV[end + r]!; p0[r] = p[r]!; }
   }
@@ -156,8 +174,13 @@ export class RootAverager {
         guess[r] = 0.5 * (nodeV[oa + r]! + nodeV[ob + r]!);
       }
       scratch.setStart(guess);
-      scratch.solve(pMid, INTERIOR);
       this.interiorSolves[0] = this.interiorSolves[0]! + 1;
+      if (scratch.solve(pMid, INTERIOR) < 0) {
+        // by continuation from the panel's start (a converged node) to its middle
+        const pA = this.pA, vA = this.vA, ta = a / n;
+        for (let r = 0; r < m; r++) { pA[r] = p0[r]! + ta * (p[r]! - p0[r]!); vA[r] = nodeV[oa + r]!; }
+        if (scratch.continueFrom(pA, vA, pMid, INTERIOR, INTERIOR_HOMOTOPY_DEPTH) < 0) { this.failed = true; return; }
+      }
       const sv = scratch.v, si = scratch.i;
       for (let r = 0; r < m; r++) { nodeV[om + r] = sv[r]!; nodeI[om + r] = si[r]!; }
       // Simpson against trapezoid on [a, b]: the panel's mean, in volts at the ports

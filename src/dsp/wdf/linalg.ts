@@ -46,18 +46,11 @@ export function luSolve(lu: Float64Array, piv: Int32Array, n: number, b: Float64
   }
 }
 
-/** Inverse of an n x n matrix (input not modified). */
-export function invert(m: Float64Array, n: number): Float64Array {
-  const inv = new Float64Array(n * n);
-  invertInto(Float64Array.from(m), n, inv, new Int32Array(n), new Float64Array(n), new Float64Array(n));
-  return inv;
-}
-
 /**
  * Inverse of the n x n matrix `a` into `inv` without allocation: `a` is overwritten by its LU
  * factors, `piv` (length n), `col` and `tmp` (length n each) are workspaces. With `columns`,
  * only the columns j with columns[j] !== 0 are written (the others are left as they are).
- * The same operations as `invert`, so the results are identical. Throws SingularMatrixError.
+ * Throws SingularMatrixError.
  */
 export function invertInto(
   a: Float64Array, n: number, inv: Float64Array, piv: Int32Array, col: Float64Array, tmp: Float64Array,
@@ -71,54 +64,6 @@ export function invertInto(
     luSolve(a, piv, n, col, tmp);
     for (let i = 0; i < n; i++) inv[i * n + j] = col[i]!;
   }
-}
-
-/** C = A (r x k) * B (k x c). */
-export function matMul(a: Float64Array, b: Float64Array, r: number, k: number, c: number): Float64Array {
-  const out = new Float64Array(r * c);
-  for (let i = 0; i < r; i++) {
-    for (let t = 0; t < k; t++) {
-      const av = a[i * k + t]!;
-      if (av === 0) continue;
-      for (let j = 0; j < c; j++) out[i * c + j]! += av * b[t * c + j]!;
-    }
-  }
-  return out;
-}
-
-/**
- * Solve the small dense system J x = r in place (x returned in r) by Gaussian elimination with
- * partial pivoting; J is destroyed. Returns false if singular. No allocation.
- */
-export function solveInPlace(j: Float64Array, r: Float64Array, n: number): boolean {
-  for (let k = 0; k < n; k++) {
-    let p = k;
-    let max = Math.abs(j[k * n + k]!);
-    for (let i = k + 1; i < n; i++) {
-      const v = Math.abs(j[i * n + k]!);
-      if (v > max) { max = v; p = i; }
-    }
-    if (!(max > 1e-300)) return false;
-    if (p !== k) {
-      for (let c = k; c < n; c++) {
-        const t = j[k * n + c]!; j[k * n + c] = j[p * n + c]!; j[p * n + c] = t;
-      }
-      const t = r[k]!; r[k] = r[p]!; r[p] = t;
-    }
-    const d = j[k * n + k]!;
-    for (let i = k + 1; i < n; i++) {
-      const f = j[i * n + k]! / d;
-      if (f === 0) continue;
-      for (let c = k + 1; c < n; c++) j[i * n + c]! -= f * j[k * n + c]!;
-      r[i]! -= f * r[k]!;
-    }
-  }
-  for (let i = n - 1; i >= 0; i--) {
-    let s = r[i]!;
-    for (let c = i + 1; c < n; c++) s -= j[i * n + c]! * r[c]!;
-    r[i] = s / j[i * n + i]!;
-  }
-  return true;
 }
 
 /**

@@ -10,7 +10,49 @@
 // iteration. F is read from its array on every call, so a component change needs no new kernel.
 //
 // The code is generated once per circuit (when the engine is built) with `new Function`; it
-// only ever contains numbers and array indices computed here, never text from a design.
+// only ever contains numbers and array indices computed here, never text from a design. Where
+// code generation is forbidden (a Content Security Policy without 'unsafe-eval' makes
+// `new Function` throw an EvalError), the same computation runs as plain loops (loopNewtonStep,
+// loopCurrentUpdate): the same operations in the same order, slower.
+
+/** Whether `new Function` may be used here (false under a CSP without 'unsafe-eval'); tried once. */
+let codegenAllowed: boolean | null = null;
+
+const kernelCache = new Map<string, unknown>();
+/** Distinct kernel sources kept (a few per circuit shape); beyond it the cache starts over. */
+const KERNEL_CACHE_SIZE = 64;
+
+/**
+ * Run `source` (a function body returning the kernel), or return null when code generation is
+ * forbidden. Compiled once per distinct source: engines of the same shape (every reload, tube
+ * change or quality change of a design) share one function, so a new engine starts with code
+ * the JIT has already optimised instead of interpreting fresh code on the audio thread. The
+ * kernels hold no state (everything comes in through their arguments).
+ */
+export function generated<T>(source: string): T | null {
+  if (codegenAllowed === false) return null;
+  const known = kernelCache.get(source);
+  if (known !== undefined) return known as T;
+  try {
+    const f = new Function(source)() as T;
+    codegenAllowed = true;
+    if (kernelCache.size >= KERNEL_CACHE_SIZE) kernelCache.clear();
+    kernelCache.set(source, f);
+    return f;
+  } catch (e) {
+    // EvalError: the page's Content Security Policy forbids code generation
+    if (e instanceof EvalError || (e instanceof Error && /unsafe-eval|Content Security Policy|code generation/i.test(e.message))) {
+      codegenAllowed = false;
+      return null;
+    }
+    throw e;
+  }
+}
+
+/** For tests: forget the probe's result (null) or pretend code generation is forbidden (false). */
+export function setCodegenAllowed(allowed: boolean | null): void {
+  codegenAllowed = allowed;
+}
 
 /**
  * Writes δ into r[0..m-1] and the squared residual norm sum g_k^2 into r[m], and returns true; or returns false (r
@@ -18,27 +60,6 @@
  * d (nnz values in pattern order), r (length m + 1).
  */
 export type NewtonStepKernel = (F: Float64Array, p: Float64Array, v: Float64Array, i: Float64Array, d: Float64Array, r: Float64Array) => boolean;
-
-const kernelCache = new Map<string, unknown>();
-/** Distinct kernel sources kept (a few per circuit shape); beyond it the cache starts over. */
-const KERNEL_CACHE_SIZE = 64;
-
-/**
- * The function a generated source defines, compiled once per distinct source: engines of the
- * same shape (every reload, tube change or quality change of a design) share one function, so a
- * new engine starts with code the JIT has already optimised instead of interpreting fresh code
- * on the audio thread. The kernels hold no state (everything comes in through their arguments).
- */
-export function compileKernelSource<K>(source: string): K {
-  let k = kernelCache.get(source);
-  if (k === undefined) {
-    if (kernelCache.size >= KERNEL_CACHE_SIZE) kernelCache.clear();
-    // eslint-disable-next-line @typescript-eslint/no-implied-eval -- generated from numbers only (see compileNewtonStep)
-    k = new Function(source)() as unknown;
-    kernelCache.set(source, k);
-  }
-  return k as K;
-}
 
 /** Smallest accepted |pivot| / max |entry below it| before falling back to row exchanges. */
 export const PIVOT_RATIO = 1e-3;
@@ -89,7 +110,50 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
   }
   for (let k = 0; k < m; k++) L.push(`r[${k}] = r${k};`);
   L.push('return true;');
-  return compileKernelSource<NewtonStepKernel>(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`);
+  return generated<NewtonStepKernel>(`return function newtonStep(F, p, v, i, d, r) {\n${L.join('\n')}\n};`) ?? loopNewtonStep(m, nzRow, nzCol);
+}
+
+/** compileNewtonStep's computation as loops over preallocated scratch (no code generation, no allocation per call). */
+export function loopNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Array): NewtonStepKernel {
+  const a = new Float64Array(m * m), x = new Float64Array(m), q = new Float64Array(m), nnz = nzRow.length;
+  return (F, p, v, i, d, r) => {
+    let g = 0;
+    for (let row = 0; row < m; row++) {
+      let s = p[row]! - v[row]!;
+      for (let c = 0; c < m; c++) s += F[row * m + c]! * i[c]!;
+      x[row] = s;
+      g += s * s;
+    }
+    r[m] = g;
+    for (let row = 0; row < m; row++) {
+      for (let c = 0; c < m; c++) {
+        let t = 0;
+        for (let z = 0; z < nnz; z++) if (nzCol[z] === c) t += F[row * m + nzRow[z]!]! * d[z]!;
+        a[row * m + c] = (row === c ? 1 : 0) - t;
+      }
+    }
+    for (let k = 0; k < m; k++) {
+      const piv = a[k * m + k]!;
+      let below = 0;
+      for (let row = k + 1; row < m; row++) below = Math.max(below, Math.abs(a[row * m + k]!));
+      if (k < m - 1 && !(Math.abs(piv) >= PIVOT_RATIO * below)) return false;
+      if (!(Math.abs(piv) > 1e-300)) return false;
+      const inv = 1 / piv;
+      q[k] = inv;
+      for (let row = k + 1; row < m; row++) {
+        const f = a[row * m + k]! * inv;
+        for (let c = k + 1; c < m; c++) a[row * m + c]! -= f * a[k * m + c]!;
+        x[row]! -= f * x[k]!;
+      }
+    }
+    for (let k = m - 1; k >= 0; k--) {
+      let s = x[k]!;
+      for (let c = k + 1; c < m; c++) s -= a[k * m + c]! * x[c]!;
+      x[k] = s * q[k]!;
+    }
+    for (let k = 0; k < m; k++) r[k] = x[k]!;
+    return true;
+  };
 }
 
 /** i += D·δ (D sparse in the pattern's order, δ = r[0..m-1]): the currents after an accepted step, to first order. */
@@ -105,5 +169,13 @@ export function compileCurrentUpdate(m: number, nzRow: Int32Array, nzCol: Int32A
     for (let z = 0; z < nzRow.length; z++) if (nzRow[z] === row) terms.push(`s += d[${z}] * r[${nzCol[z]!}];`);
     if (terms.length) L.push(`{ let s = i[${row}]; ${terms.join(' ')} i[${row}] = s; }`);
   }
-  return compileKernelSource<CurrentUpdateKernel>(`return function currentUpdate(i, d, r) {\n${L.join('\n')}\n};`);
+  return generated<CurrentUpdateKernel>(`return function currentUpdate(i, d, r) {\n${L.join('\n')}\n};`) ?? loopCurrentUpdate(nzRow, nzCol);
+}
+
+/** compileCurrentUpdate's computation as a loop (no code generation). */
+export function loopCurrentUpdate(nzRow: Int32Array, nzCol: Int32Array): CurrentUpdateKernel {
+  const nnz = nzRow.length;
+  return (i, d, r) => {
+    for (let z = 0; z < nnz; z++) i[nzRow[z]!]! += d[z]! * r[nzCol[z]!]!;
+  };
 }

@@ -13,7 +13,8 @@
 // which is the E/F/M/N form of Werner, Nangia, Smith & Abel, "Resolving wave digital filters
 // with multiple/multiport nonlinearities", DAFx-15, with M = 2 Pu - I and N = 2 Pi. Here the
 // matrices are obtained from the nodal analysis directly rather than through the root's
-// scattering matrix; tests/wdf.test.ts checks that both routes agree.
+// scattering matrix; tests/wdf.test.ts checks the engine built on them against a classical
+// adaptor tree (tests/reference/wdf-elements.ts) on a series-parallel circuit.
 //
 // Value changes at run time (a pot being turned) recompile the matrices on the audio thread, so
 // LinearNetworkCompiler is built once per topology and owns every workspace: compile() writes
@@ -24,18 +25,6 @@ import { invertInto } from './linalg.ts';
 export interface Branch {
   readonly a: number;
   readonly b: number;
-}
-
-export interface LinearNetworkSpec {
-  readonly nodeCount: number;
-  /** Resistors (and closed switches) absorbed into the root. */
-  readonly conductances: readonly (Branch & { readonly siemens: number })[];
-  /** Leaves: Thevenin source u_j behind `ohms`; ohms === 0 makes it an ideal voltage source. */
-  readonly wavePorts: readonly (Branch & { readonly ohms: number })[];
-  /** Nonlinear ports: current i_k flows from a through the device to b. */
-  readonly nonlinearPorts: readonly Branch[];
-  /** Conductance from every node to ground so that a node with no DC path stays defined. */
-  readonly gminSiemens: number;
 }
 
 export interface RootMatrices {
@@ -228,23 +217,4 @@ function branchRows(A: Int32Array, B: Int32Array, Z: Float64Array, width: number
       out[r * width + c] = va - vb;
     }
   }
-}
-
-/** One-shot compilation of a network with its values (builds a LinearNetworkCompiler and runs it once). */
-export function compileLinearNetwork(spec: LinearNetworkSpec): RootMatrices {
-  const compiler = new LinearNetworkCompiler({
-    nodeCount: spec.nodeCount,
-    conductances: spec.conductances,
-    wavePorts: spec.wavePorts,
-    idealPorts: spec.wavePorts.map((p) => p.ohms === 0),
-    nonlinearPorts: spec.nonlinearPorts,
-    gminSiemens: spec.gminSiemens,
-  });
-  const out = compiler.createMatrices();
-  compiler.compile(
-    Float64Array.from(spec.conductances, (c) => c.siemens),
-    Float64Array.from(spec.wavePorts, (p) => p.ohms),
-    out,
-  );
-  return out;
 }

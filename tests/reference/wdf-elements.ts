@@ -1,8 +1,38 @@
-// A small wave-digital-filter library: every element shares one wave interface; a value change
+// A small classical wave-digital-filter library, for tests only: every element shares one wave
+// interface, series and parallel three-port adaptors build a tree, and a value change
 // propagates port resistances up to the root. Voltage waves a = v + R i, b = v - R i
-// (Fettweis, "Wave digital filters: theory and practice", Proc. IEEE 74(2), 1986; cited from memory, equation numbers not checked).
-// Here `a` is the wave arriving at an element from its parent, `b` the wave it sends back.
-import { invert } from './linalg.ts';
+// (Fettweis, "Wave digital filters: theory and practice", Proc. IEEE 74(2), 1986; cited from
+// memory, equation numbers not checked). Here `a` is the wave arriving at an element from its
+// parent, `b` the wave it sends back.
+//
+// The engine (src/dsp/circuit/engine.ts) does not use it: it absorbs every resistor and tube port
+// into one R-type root solved by nodal analysis, with the capacitors and sources as wave leaves.
+// This adaptor-tree formulation is an independent route to the same discrete circuit, which
+// tests/wdf.test.ts compares with the engine. Shares no code with src/.
+
+/** Inverse of an n x n matrix by Gauss-Jordan elimination with partial pivoting (any numerical-methods text). */
+function invert(m: Float64Array, n: number): Float64Array {
+  const a = Float64Array.from(m), inv = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) inv[i * n + i] = 1;
+  for (let c = 0; c < n; c++) {
+    let p = c;
+    for (let r = c + 1; r < n; r++) if (Math.abs(a[r * n + c]!) > Math.abs(a[p * n + c]!)) p = r;
+    if (!(Math.abs(a[p * n + c]!) > 1e-300)) throw new Error(`singular matrix at column ${c}`);
+    for (let k = 0; k < n; k++) {
+      let t = a[c * n + k]!; a[c * n + k] = a[p * n + k]!; a[p * n + k] = t;
+      t = inv[c * n + k]!; inv[c * n + k] = inv[p * n + k]!; inv[p * n + k] = t;
+    }
+    const d = 1 / a[c * n + c]!;
+    for (let k = 0; k < n; k++) { a[c * n + k]! *= d; inv[c * n + k]! *= d; }
+    for (let r = 0; r < n; r++) {
+      if (r === c) continue;
+      const f = a[r * n + c]!;
+      if (f === 0) continue;
+      for (let k = 0; k < n; k++) { a[r * n + k]! -= f * a[c * n + k]!; inv[r * n + k]! -= f * inv[c * n + k]!; }
+    }
+  }
+  return inv;
+}
 
 /** The one wave interface. */
 export interface WaveNode {
