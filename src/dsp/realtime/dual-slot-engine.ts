@@ -84,7 +84,7 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
-  /** Solver counters since the model was built (CircuitEngine.fallbackSamples / failedSamples). */
+  /** Solver counters since the model was built or last reset (CircuitEngine.fallbackSamples / failedSamples). */
   readonly fallbackSamples?: number;
   readonly failedSamples?: number;
   /**
@@ -121,6 +121,8 @@ const tubesOf = (d: Design): TubePart[] => d.parts.filter((p): p is TubePart => 
 /** The default model: the plan's circuit at factor x the base rate (src/dsp/render/oversampled.ts). */
 export const planModel: ModelFactory = (plan) => {
   const oc = instantiateSlotPlan(plan);
+  // solver counters from the last reset on (a warm-up's are not reported)
+  let fallbacks0 = 0, failed0 = 0;
   const dc = plan.outputDcVolts;
   return {
     processSample: (v) => oc.processSample(v),
@@ -131,9 +133,9 @@ export const planModel: ModelFactory = (plan) => {
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
-    reset: () => oc.reset(),
-    get fallbackSamples() { return oc.engine.fallbackSamples; },
-    get failedSamples() { return oc.engine.failedSamples; },
+    reset: () => { oc.reset(); fallbacks0 = oc.engine.fallbackSamples; failed0 = oc.engine.failedSamples; },
+    get fallbackSamples() { return oc.engine.fallbackSamples - fallbacks0; },
+    get failedSamples() { return oc.engine.failedSamples - failed0; },
   };
 };
 
@@ -213,9 +215,6 @@ class SlotState {
   warmDone = 0;
   warmChunk = 1;
   warmBlocks = 0;
-  /** The model's solver counters when it was swapped in (its warm-up's are not reported). */
-  fallbackBase = 0;
-  failedBase = 0;
   /** A new pending plan: any model warming for the old one is dropped. */
   setPending(design: Design | null, plan: SlotPlan | null): void {
     this.pending = design;
@@ -642,8 +641,6 @@ export class DualSlotEngine {
       return false;
     }
     s.model = model;
-    s.fallbackBase = model.fallbackSamples ?? 0;
-    s.failedBase = model.failedSamples ?? 0;
     s.plan = plan;
     s.design = d;
     s.dc = model.outputDcVolts;
@@ -716,8 +713,6 @@ export class DualSlotEngine {
       const model = this.createModel(plan);
       applyDesignValues(model, plan.design, d);
       s.model = model;
-      s.fallbackBase = model.fallbackSamples ?? 0;
-      s.failedBase = model.failedSamples ?? 0;
       s.dc = model.outputDcVolts;
       for (const g of s.glides) { g.active = false; g.from = g.to = g.value; }
       return true;
@@ -967,8 +962,8 @@ export class DualSlotEngine {
     for (let k = 0; k < 2; k++) {
       const s = this.slots[k]!, m = s.model;
       if (!m) { traces[k] = null; continue; }
-      fallbacks += (m.fallbackSamples ?? 0) - s.fallbackBase;
-      failed += (m.failedSamples ?? 0) - s.failedBase;
+      fallbacks += m.fallbackSamples ?? 0;
+      failed += m.failedSamples ?? 0;
       const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
       t.gridVolts = pv[0] ?? 0;

@@ -31,7 +31,8 @@ const KERNEL_CACHE_SIZE = 64;
  */
 export function generated<T>(source: string): T | null {
   if (codegenAllowed === false) return null;
-  const known = kernelCache.get(source);
+  // (after setCodegenAllowed(null) the first kernel probes again, cached or not)
+  const known = codegenAllowed === true ? kernelCache.get(source) : undefined;
   if (known !== undefined) return known as T;
   try {
     const f = new Function(source)() as T;
