@@ -28,7 +28,7 @@ function build(req: PackRequest): PackReply {
   const b = renderOne(req.designB, 'B', 0.42, 0.84);
   const bad = a.render.nonFiniteSamples + b.render.nonFiniteSamples;
   if (bad > 0) throw new Error(`${bad} samples of the renders were not finite; the design does not simulate cleanly`);
-  let di: LoudnessReport | null = null;
+  let di: LoudnessReport | null;
   try { di = measureLoudness([input], fs); } catch { di = null; }
   const latency = `processed renders advanced by ${a.render.advanceSamples} samples (oversampler latency ${a.render.latencySamples.toFixed(3)} samples, rounded); the dry file is the DI unshifted; every file has the region's ${input.length} frames`;
   const common = {

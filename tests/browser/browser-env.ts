@@ -44,7 +44,7 @@ export async function openHarness(origin: string, extraArgs: readonly string[] =
   try {
     await page.waitForFunction(() => (window as unknown as { vw?: { ready: boolean } }).vw?.ready === true, undefined, { timeout: 60_000 });
   } catch (e) {
-    throw new Error(`harness page did not load: ${logs.join(' | ') || String(e)}`);
+    throw new Error(`harness page did not load: ${logs.join(' | ') || String(e)}`, { cause: e });
   }
   return { context, page, async close() { await context.close(); rmSync(dir, { recursive: true, force: true }); } };
 }
