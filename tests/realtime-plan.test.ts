@@ -8,14 +8,21 @@ import { CircuitEngine } from '../src/dsp/circuit/engine.ts';
 import { LinearNetworkCompiler } from '../src/dsp/wdf/root-network.ts';
 import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, planTransferables } from '../src/dsp/circuit/plan.ts';
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
-import { DualSlotEngine, livePlanner, type Planner } from '../src/dsp/realtime/dual-slot-engine.ts';
+import { DualSlotEngine, livePlanner, WARM_BASE_SAMPLES, type Planner } from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, ToProcessor } from '../src/dsp/realtime/messages.ts';
+import { Outbox, PendingReplies } from '../src/audio/requests.ts';
 import { solveOperatingPoint } from './reference/mna-reference.ts';
 
 const FS = 48000;
 const PT = TEMPLATES['pentode-triode']!;
 const TT = TEMPLATES['triode-triode']!;
 const SP = TEMPLATES['single-pentode']!;
+/**
+ * Blocks of 128 within which a load is heard: one to instantiate the plan, the warm-up
+ * (WARM_BASE_SAMPLES in chunks of at most 32 per block, fewer while the code is cold and a chunk
+ * takes long: more blocks on a loaded machine), the 5 ms fade; with room to spare.
+ */
+const LOAD_BLOCKS = 8 * WARM_BASE_SAMPLES / 32;
 
 function tube(d: Design, id: string): TubePart {
   const p = d.parts.find((q) => q.id === id);
@@ -109,7 +116,7 @@ describe('the processor only instantiates plans', () => {
       { type: 'set-quality', factor: 4, requestId: 7 },
       { type: 'reset', requestId: 8 },
     ];
-    for (const m of session) { e.handle(m); run(6); }
+    for (const m of session) { e.handle(m); run(LOAD_BLOCKS / 2); }
     run(20);
     expect(posted.filter((m) => m.type === 'error')).toEqual([]);
     expect(posted.filter((m) => m.type === 'loaded').length).toBeGreaterThanOrEqual(6);
@@ -129,7 +136,7 @@ describe('the processor only instantiates plans', () => {
     e.handle({ type: 'load-design', slot: 'A', design: TT, plan, requestId: 11 });
     e.handle({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, 44100, 4), requestId: 12 });
     e.handle({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, FS, 2), requestId: 13 });
-    e.process(new Float32Array(128), new Float32Array(128), 128);
+    for (let b = 0; b < LOAD_BLOCKS; b++) e.process(new Float32Array(128), new Float32Array(128), 128);
     expect(built).toBe(0);
     const errs = posted.flatMap((m) => (m.type === 'error' ? [m] : []));
     expect(errs.map((m) => m.requestId)).toEqual([12, 13]);
@@ -153,13 +160,71 @@ describe('request ids', () => {
     const posted: FromProcessor[] = [];
     const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m) });
     e.handle({ type: 'load-design', slot: 'B', design: TT, requestId: 1 });
-    e.process(new Float32Array(128), new Float32Array(128), 128);
+    for (let b = 0; b < LOAD_BLOCKS; b++) e.process(new Float32Array(128), new Float32Array(128), 128);
     posted.length = 0;
     e.handle({ type: 'load-design', slot: 'A', design: PT, requestId: 2 });
     e.handle({ type: 'set-part', slot: 'B', part: { ...tube(TT, 'V1'), nodes: { plate: 'x', grid: 'y', cathode: 'z' } }, requestId: 3 });
-    for (let b = 0; b < 4; b++) e.process(new Float32Array(128), new Float32Array(128), 128);
+    for (let b = 0; b < LOAD_BLOCKS; b++) e.process(new Float32Array(128), new Float32Array(128), 128);
     const err = posted.find((m) => m.type === 'error');
     expect(err).toMatchObject({ type: 'error', requestId: 3 });
     expect(posted.find((m) => m.type === 'loaded')).toMatchObject({ type: 'loaded', slot: 'A', requestId: 2 });
+  });
+});
+
+describe('warm-up before the swap', () => {
+  it('a new engine is warmed a few samples per block, heard only after, and starts exactly where a fresh one does', () => {
+    const posted: FromProcessor[] = [];
+    // limiter off: its gain memory would carry the fade-in's difference on (this compares the circuits)
+    const warmed = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m), initial: [{ type: 'set-limiter', enabled: false }] });
+    warmed.handle({ type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4), requestId: 1 });
+    const silence = new Float32Array(128), out = new Float32Array(128);
+    let blocks = 0;
+    while (!posted.some((m) => m.type === 'loaded') && blocks < LOAD_BLOCKS) { warmed.process(silence, out, 128); blocks++; }
+    // not swapped in at once: the warm-up takes at least WARM_BASE_SAMPLES / 32 blocks
+    expect(blocks).toBeGreaterThan(WARM_BASE_SAMPLES / 32);
+    expect(blocks).toBeLessThan(LOAD_BLOCKS);
+    // reference: the same plan loaded before the first block (no warm-up), fed from the swap on;
+    // equal to the Newton tolerance (1e-5 V on a full scale of 1 V, the engine's default; from memory)
+    const fresh = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, initial: [{ type: 'set-limiter', enabled: false }, { type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4) }] });
+    fresh.process(silence, out, 128);
+    const a = new Float32Array(128), b = new Float32Array(128);
+    let worst = 0, peak = 0;
+    for (let k = 0; k < 40; k++) {
+      const x = Float32Array.from({ length: 128 }, (_, j) => 0.8 * Math.sin((2 * Math.PI * 330 * (128 * k + j)) / FS));
+      warmed.process(x, a, 128);
+      fresh.process(x, b, 128);
+      // after the 5 ms fade-in (2 blocks) the warmed slot must equal the fresh one: the warm-up left no state behind
+      if (k >= 3) for (let j = 0; j < 128; j++) { worst = Math.max(worst, Math.abs(a[j]! - b[j]!)); peak = Math.max(peak, Math.abs(b[j]!)); }
+    }
+    expect(peak).toBeGreaterThan(0.01);
+    expect(worst).toBeLessThan(1e-5);
+  });
+});
+
+describe('main-thread requests (src/audio/requests.ts) with the processor', () => {
+  it('messages keep their order while plans are built; a plan that fails posts nothing and fails only its own request', async () => {
+    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => replies.settle(m) });
+    const replies = new PendingReplies();
+    const posted: string[] = [];
+    const box = new Outbox((m) => { posted.push(`${m.type}${'slot' in m ? m.slot : ''}`); e.handle(m); });
+    const later = <T>(v: T, ms: number): Promise<T> => new Promise((r) => setTimeout(() => r(v), ms));
+    const a = replies.open(), bad = replies.open(), b = replies.open();
+    const badOutcome = bad.reply.then(() => 'resolved', (err: Error) => err.message);
+    // A's plan arrives late, the next one fails, B's arrives first: posted in the order sent
+    box.send(later({ type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4), requestId: a.id } as const, 30));
+    box.send(Promise.reject(new Error('no plan')).catch((err: Error) => { replies.fail(bad.id, err); return null; }));
+    box.send({ type: 'set-output-scale', slot: 'A', voltsAtFullScale: 2 });
+    box.send(later({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, FS, 4), requestId: b.id } as const, 1));
+    expect(box.pending).toBe(4);
+    await box.flushed();
+    expect(posted).toEqual(['load-designA', 'set-output-scaleA', 'load-designB']);
+    expect(await badOutcome).toBe('no plan');
+    // a refused message on B with its own id: A's and B's loads still complete with theirs
+    const refused = replies.open();
+    e.handle({ type: 'set-part', slot: 'B', part: { ...tube(TT, 'V1'), nodes: { plate: 'x', grid: 'y', cathode: 'z' } }, requestId: refused.id });
+    await expect(refused.reply).rejects.toThrow(/changes its nodes/);
+    for (let k = 0; k < LOAD_BLOCKS && replies.size > 0; k++) e.process(new Float32Array(128), new Float32Array(128), 128);
+    await expect(a.reply).resolves.toMatchObject({ slot: 'A', designName: PT.name });
+    await expect(b.reply).resolves.toMatchObject({ slot: 'B', designName: TT.name });
   });
 });

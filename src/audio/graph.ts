@@ -21,7 +21,8 @@ export interface Graph {
   /** Cabinet impulse response (null: bypassed). */
   setCabinet(ir: AudioBuffer | null): void;
   readonly hasCabinet: boolean;
-  send(msg: ToProcessor): void;
+  /** Post to the circuit processor (`transfer`: buffers handed over instead of copied). */
+  send(msg: ToProcessor, transfer?: Transferable[]): void;
   dispose(): void;
 }
 
@@ -76,7 +77,7 @@ export async function buildGraph(ctx: ToneContext, init: ProcessorInit, fftSize 
         bypass.gain.value = 0;
       } else bypass.gain.value = 1;
     },
-    send(msg: ToProcessor): void { circuit.port.postMessage(msg); },
+    send(msg: ToProcessor, transfer: Transferable[] = []): void { circuit.port.postMessage(msg, transfer); },
     dispose(): void {
       cabinet?.dispose();
       input.dispose(); bypass.dispose(); output.dispose(); analyser.dispose();

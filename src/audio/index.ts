@@ -1,7 +1,11 @@
 /**
- * Main-thread audio engine (Tone.js graph around the circuit AudioWorklet).
+ * Main-thread audio engine (Tone.js graph around the circuit AudioWorklet), made of parts with
+ * one job each: settings.ts (the settings, held once), requests.ts + planner.ts (messages in
+ * order, designs compiled off the audio thread, replies by request id), player.ts (file
+ * player), live-input.ts (live input), take.ts (take recorder), cabinet.ts, idle.ts (idle
+ * policy), meters.ts (reports, peaks, spectrum, scope).
  *
- *   const audio = await createAudioEngine({ factor?, context?, scopeCapacity?, fftSize? });
+ *   const audio = await createAudioEngine({ factor?, context?, scopeCapacity?, fftSize?, settings? });
  *
  * Designs and settings (each sends one typed ToProcessor message; see src/dsp/realtime/messages.ts)
  *   loadDesign(slot, design, { outputVoltsAtFullScale? }): Promise<LoadedInfo>
@@ -37,40 +41,38 @@
 import * as Tone from 'tone';
 import { designCircuit, validateDesign, type Design, type Part } from '../dsp/circuit/design.ts';
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
-import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import type { FromProcessor, MeterReport, Monitor, ProcessorInit, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
+import { planTransferables, withoutSentTables, type SlotPlan } from '../dsp/circuit/plan.ts';
 import { buildGraph, type Graph } from './graph.ts';
-import { ScopeBuffer } from './scope.ts';
+import type { ScopeBuffer } from './scope.ts';
 import takeWorkletUrl from '../../worklets/take.worklet.ts?worker&url';
 import { TAKE_PROCESSOR_NAME } from '../dsp/realtime/take-messages.ts';
-import { TakeRecorder, type Take } from './take.ts';
+import { TakeDeck, type Take } from './take.ts';
+import { Planner } from './planner.ts';
+import { Outbox, PendingReplies, type LoadedInfo } from './requests.ts';
+import { monoBuffer, resampleBuffer } from './buffers.ts';
+import { AudioSettings } from './settings.ts';
+import { IdlePolicy, IDLE_SUSPEND_SECONDS } from './idle.ts';
+import { Meters } from './meters.ts';
+import { Cabinet, type CabinetSource } from './cabinet.ts';
+import { FilePlayer, type LoopRegion, type SourceInfo } from './player.ts';
+import { LiveInput, type LiveInputDevice, type LiveInputOptions } from './live-input.ts';
 
 export { ScopeBuffer } from './scope.ts';
 export { buildGraph, loadWorklet, type Graph } from './graph.ts';
+export { monoBuffer } from './buffers.ts';
+export { AudioSettings } from './settings.ts';
+export { IDLE_SUSPEND_SECONDS } from './idle.ts';
+export { LIVE_INPUT_WARNING, LiveInputError, type LiveChannel, type LiveInputDevice, type LiveInputOptions } from './live-input.ts';
+export type { LoadedInfo } from './requests.ts';
+export type { SourceInfo, LoopRegion } from './player.ts';
+export type { CabinetSource } from './cabinet.ts';
 
-export const LIVE_INPUT_WARNING =
-  'Use headphones: with speakers the guitar pickup and the microphone feed back, and a fuzz can howl loudly. Live input starts muted.';
-
-/** Seconds of silence (nothing playing, no live input, no message) before a context made here is suspended. */
-export const IDLE_SUSPEND_SECONDS = 5;
-
-export class LiveInputError extends Error {
-  override name = 'LiveInputError';
-}
-
-/** Which input to play through the circuit live. */
-export interface LiveInputOptions {
-  /** A device from listInputs() (default: the browser's default input). */
-  readonly deviceId?: string;
-  /** Channel 1 or 2 of the device on its own, or 'mix' (both averaged, the default). */
-  readonly channel?: LiveChannel;
-}
-export type LiveChannel = 1 | 2 | 'mix';
-export interface LiveInputDevice { readonly deviceId: string; readonly label: string }
 export interface LiveLatency { readonly inputSeconds: number; readonly processingSeconds: number; readonly outputSeconds: number; readonly totalSeconds: number }
 
 export interface AudioEngineOptions {
+  /** Oversampling factor to start with (overrides the settings' factor). */
   readonly factor?: OversamplingFactor;
   /** A native AudioContext to use (default: a new one, latencyHint 'interactive'). */
   readonly context?: AudioContext;
@@ -79,14 +81,11 @@ export interface AudioEngineOptions {
   /** Meter reports kept by the scope (default 300, 10 s at 30 Hz). */
   readonly scopeCapacity?: number;
   readonly fftSize?: number;
-  /** Input calibration to start with, volts at full scale (default 0.2). */
+  /** Input calibration to start with, volts at full scale (overrides the settings'; default DEFAULT_INPUT_VOLTS_AT_FULL_SCALE). */
   readonly inputVoltsAtFullScale?: number;
+  /** The settings to start from and keep up to date (the workspace holds them; default: new ones). */
+  readonly settings?: AudioSettings;
 }
-
-export interface LoadedInfo { readonly slot: Slot; readonly designName: string; readonly latencySamples: number; readonly tubeIds: readonly string[] }
-export interface SourceInfo { readonly durationSeconds: number; readonly sampleRateHz: number; readonly channels: number }
-export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
-export type CabinetSource = string | ArrayBuffer | { readonly samples: Float32Array; readonly sampleRateHz: number } | null;
 
 export interface OfflineRenderOptions {
   /** Mono samples (full scale 1) or an AudioBuffer (its channels are mixed by the processor). */
@@ -116,6 +115,8 @@ export interface AudioEngine {
   setLimiter(enabled: boolean): void;
   setMuted(muted: boolean): void;
   reset(): void;
+  /** Messages still waiting for a plan from the planner (or behind one): 0 once every edit has reached the processor. */
+  readonly sending: number;
   loadFile(bytes: ArrayBuffer | Blob): Promise<SourceInfo>;
   setSource(samples: Float32Array, sampleRateHz: number): SourceInfo;
   play(): Promise<void>;
@@ -150,6 +151,8 @@ export interface AudioEngine {
   stopLive(): void;
   readonly live: 'off' | 'muted' | 'on';
   loadCabinet(source: CabinetSource): Promise<void>;
+  /** The settings this engine sends and keeps (the object given in the options, or its own). */
+  readonly settings: AudioSettings;
   onReport(listener: (m: FromProcessor) => void): () => void;
   readonly latestMeter: MeterReport | null;
   levels(): { inputVolts: number; outputDbfs: number };
@@ -158,50 +161,6 @@ export interface AudioEngine {
   renderOffline(options: OfflineRenderOptions): Promise<AudioBuffer>;
   renderOfflineSamples(options: OfflineRenderOptions): Promise<Float32Array>;
   dispose(): Promise<void>;
-}
-
-/** Settings that an offline render replays, kept as the messages that made them. */
-interface State {
-  factor: OversamplingFactor;
-  designs: Partial<Record<Slot, Design>>;
-  inputVolts: number;
-  outputScale: Partial<Record<Slot, number>>;
-  levelDb: number;
-  limiter: boolean;
-  monitor: Monitor;
-  /** The output mute chosen through setMuted (the processor's; the live input has its own). */
-  outputMuted: boolean;
-}
-
-function stateMessages(s: State): ToProcessor[] {
-  const out: ToProcessor[] = [{ type: 'set-quality', factor: s.factor }];
-  for (const slot of ['A', 'B'] as const) {
-    const d = s.designs[slot];
-    if (d) out.push({ type: 'load-design', slot, design: d });
-    const v = s.outputScale[slot];
-    if (v !== undefined) out.push({ type: 'set-output-scale', slot, voltsAtFullScale: v });
-  }
-  out.push(
-    { type: 'set-input-calibration', voltsAtFullScale: s.inputVolts },
-    { type: 'set-output-level', db: s.levelDb },
-    { type: 'set-limiter', enabled: s.limiter },
-    { type: 'monitor', target: s.monitor },
-  );
-  return out;
-}
-
-/** Build an AudioBuffer at `rateHz` from mono samples at `fromHz` (resampled by an offline render if the rates differ). */
-export async function monoBuffer(samples: Float32Array, fromHz: number, rateHz: number): Promise<AudioBuffer> {
-  if (!(fromHz >= 3000 && fromHz <= 768000)) throw new Error(`sample rate ${fromHz} Hz is outside 3000..768000 Hz`);
-  const src = new AudioBuffer({ length: Math.max(1, samples.length), sampleRate: fromHz, numberOfChannels: 1 });
-  src.copyToChannel(Float32Array.from(samples), 0);
-  if (fromHz === rateHz) return src;
-  const len = Math.max(1, Math.round((samples.length * rateHz) / fromHz));
-  const off = new OfflineAudioContext(1, len, rateHz);
-  const node = new AudioBufferSourceNode(off, { buffer: src });
-  node.connect(off.destination);
-  node.start(0);
-  return off.startRendering();
 }
 
 /**
@@ -219,7 +178,7 @@ export async function renderGraphOffline(
   const length = buf.length + Math.round(tail * rate);
   const ctx = new Tone.OfflineContext(new OfflineAudioContext(1, length, rate));
   const graph = await buildGraph(ctx, { ...init, meterHz: 0 });
-  if (options.cabinet) graph.setCabinet(options.cabinet.sampleRate === rate ? options.cabinet : await resampleBuffer(options.cabinet, rate));
+  if (options.cabinet) graph.setCabinet(await resampleBuffer(options.cabinet, rate));
   const src = ctx.rawContext.createBufferSource();
   src.buffer = buf;
   Tone.connect(src, graph.input);
@@ -231,40 +190,37 @@ export async function renderGraphOffline(
   return out;
 }
 
-async function resampleBuffer(b: AudioBuffer, rateHz: number): Promise<AudioBuffer> {
-  const len = Math.max(1, Math.round((b.length * rateHz) / b.sampleRate));
-  const off = new OfflineAudioContext(b.numberOfChannels, len, rateHz);
-  const node = new AudioBufferSourceNode(off, { buffer: b });
-  node.connect(off.destination);
-  node.start(0);
-  return off.startRendering();
-}
-
+/** The engine: the parts (player, live input, take deck, cabinet, idle policy, meters) around one graph. */
 export async function createAudioEngine(options: AudioEngineOptions = {}): Promise<AudioEngine> {
   const raw = options.context ?? new AudioContext({ latencyHint: 'interactive' });
   // A native context given to Tone: no wrapping of the worklet source (toolchain notes).
   const ctx = new Tone.Context(raw);
   const fs = raw.sampleRate;
-  const state: State = {
-    factor: options.factor ?? DEFAULT_LIVE_FACTOR, designs: {}, inputVolts: options.inputVoltsAtFullScale ?? 0.2,
-    outputScale: {}, levelDb: 0, limiter: true, monitor: 'A', outputMuted: false,
-  };
-  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: stateMessages(state) }, options.fftSize ?? 4096);
-  const scope = new ScopeBuffer(options.scopeCapacity ?? 300);
-  // the take recorder listens to the live input (a realtime context only)
-  let takeNode: AudioWorkletNode | null = null, recorder: TakeRecorder | null = null;
-  let takeEnded: ((t: Take) => void) | null = null;
-  if (raw instanceof AudioContext) {
-    // on the native context: Tone loads one worklet module per context (the circuit's), and
-    // this node only ever connects to native nodes (the stream source and its splitter)
-    await raw.audioWorklet.addModule(takeWorkletUrl);
-    takeNode = new AudioWorkletNode(raw, TAKE_PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 0, channelCount: 1, channelCountMode: 'explicit' });
-    recorder = new TakeRecorder(takeNode.port, fs);
-    recorder.onTruncated = (t) => takeEnded?.(t);
-  }
-  const listeners = new Set<(m: FromProcessor) => void>();
-  const waiting: { slot: Slot; resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }[] = [];
-  let latestMeter: MeterReport | null = null;
+  const state = options.settings ?? new AudioSettings();
+  if (options.factor !== undefined) state.factor = options.factor;
+  if (options.inputVoltsAtFullScale !== undefined) state.inputVolts = options.inputVoltsAtFullScale;
+  // the processor starts from the settings' factor, levels and monitor (designs come as plans)
+  const initial = state.messages().filter((m) => m.type !== 'load-design');
+  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: [...initial, { type: 'set-loudness-match', on: state.loudnessMatch }] }, options.fftSize ?? 4096);
+  const meters = new Meters(graph, options.scopeCapacity ?? 300);
+  const takes = await TakeDeck.attach(raw, takeWorkletUrl, TAKE_PROCESSOR_NAME);
+  const cabinet = new Cabinet(graph, raw);
+  // Designs reach the processor as plans built off the audio thread (planner.ts); messages keep
+  // their order while a plan is built (requests.ts), and replies are matched by request id.
+  const planner = new Planner();
+  const replies = new PendingReplies();
+  // Plans go out without the tube tables this processor already has, their buffers transferred
+  // (not copied): the processor's message handler runs on the audio thread.
+  const sentTables = new Set<string>();
+  const outbox = new Outbox((m) => {
+    const plans = m.type === 'load-design' || m.type === 'set-part' ? [m.plan] : m.type === 'set-quality' || m.type === 'reset' ? [m.plans?.A, m.plans?.B] : [];
+    graph.send(m, [...new Set(plans.flatMap((p) => (p ? planTransferables(p) : [])))]);
+  });
+  const idle: IdlePolicy = new IdlePolicy(raw, !options.context, (): boolean => player.playing || live.on, options.idleSuspendSeconds ?? IDLE_SUSPEND_SECONDS);
+  const player = new FilePlayer(ctx, graph.input, () => idle.wake());
+  const send = (m: ToProcessor | Promise<ToProcessor | null>) => { outbox.send(m); idle.wake(); };
+  const live: LiveInput = new LiveInput(ctx, raw, graph.input, takes, () => idle.start(), () => send({ type: 'set-live-input', live: false }));
+
   /** The processor muted its output for safety and waits for the user (see 'safety-muted'). */
   let safetyHeld = false;
   const releaseSafety = (): void => {
@@ -274,116 +230,68 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   };
   /** Oversampling filter latency of each slot's processor, base-rate samples (from 'loaded'). */
   const processingLatencySamples: Partial<Record<Slot, number>> = {};
-  let peakIn = 0, peakOutDb = -200;
   graph.circuit.port.onmessage = (e: MessageEvent<FromProcessor>) => {
     const m = e.data;
-    if (m.type === 'meter') {
-      latestMeter = m;
-      scope.push(m);
-      peakIn = Math.max(peakIn, m.inputPeakVolts);
-      peakOutDb = Math.max(peakOutDb, m.outputPeakDbfs);
-    } else if (m.type === 'safety-muted') {
+    if (m.type === 'safety-muted') {
       // the processor muted its output: mute the live input here too (breaking a feedback loop).
       // The output stays muted (the circuit's tail at a level that pinned the limiter is loud)
       // until the user unmutes the live input or stops it.
       safetyHeld = true;
-      if (stream) engine.setLiveMuted(true);
-    } else if (m.type === 'loaded') {
-      processingLatencySamples[m.slot] = m.latencySamples;
-      const i = waiting.findIndex((w) => w.slot === m.slot);
-      if (i >= 0) waiting.splice(i, 1)[0]!.resolve({ slot: m.slot, designName: m.designName, latencySamples: m.latencySamples, tubeIds: m.tubeIds });
-    } else if (m.type === 'error') {
-      const i = waiting.findIndex((w) => m.message.startsWith(`slot ${w.slot}:`) || m.message.startsWith('design rejected'));
-      if (i >= 0) waiting.splice(i, 1)[0]!.reject(new Error(m.message));
-    }
-    for (const l of listeners) l(m);
-  };
-  // Idle: a context made here is suspended IDLE_SUSPEND_SECONDS after the last sound or message
-  // (nothing playing, live input off), so an open workspace takes no audio-thread time while the
-  // user edits; the circuit's state is frozen, not reset. Every message wakes it first: the
-  // processor applies designs and values at block boundaries, and an edit then settles in the
-  // background (a DC shift heard at the next play would thump).
-  const managesIdle = !options.context;
-  let idleTimer: ReturnType<typeof setTimeout> | null = null;
-  let disposed = false;
-  const busy = (): boolean => player.state === 'started' || stream !== null;
-  const wake = (): void => {
-    if (!managesIdle || disposed) return;
-    if (idleTimer) clearTimeout(idleTimer);
-    idleTimer = setTimeout(() => {
-      idleTimer = null;
-      if (!busy() && !disposed && raw.state === 'running') void raw.suspend().catch(() => {});
-    }, (options.idleSuspendSeconds ?? IDLE_SUSPEND_SECONDS) * 1000);
-    if (raw.state === 'suspended' && everStarted) void raw.resume().catch(() => {});
-  };
-  /** Resumed once by a user gesture (play, live input): before that a resume would be refused. */
-  let everStarted = false;
-  const send = (m: ToProcessor) => { graph.send(m); wake(); };
-
-  // File player.
-  const player = new Tone.Player({ context: ctx, loop: false });
-  player.connect(graph.input);
-  player.onstop = () => wake();
-  let source: AudioBuffer | null = null;
-  let loop: LoopRegion | null = null;
-  let startedAt = 0;
-  const info = (b: AudioBuffer): SourceInfo => ({ durationSeconds: b.duration, sampleRateHz: b.sampleRate, channels: b.numberOfChannels });
-  const useBuffer = (b: AudioBuffer): SourceInfo => {
-    if (player.state === 'started') player.stop();
-    source = b;
-    player.buffer = new Tone.ToneAudioBuffer(b);
-    applyLoop();
-    return info(b);
-  };
-  const applyLoop = (): void => {
-    if (!source) return;
-    if (loop) {
-      player.loop = true;
-      player.setLoopPoints(loop.startSeconds, loop.endSeconds);
-    } else player.loop = false;
+      if (live.on) engine.setLiveMuted(true);
+    } else if (m.type === 'loaded') processingLatencySamples[m.slot] = m.latencySamples;
+    replies.settle(m);
+    meters.receive(m);
   };
 
-  // Live input.
-  const liveGain = new Tone.Gain({ context: ctx, gain: 0 });
-  liveGain.connect(graph.input);
-  let stream: MediaStream | null = null;
-  let streamNode: MediaStreamAudioSourceNode | null = null;
-  let splitter: ChannelSplitterNode | null = null;
-  // the live input before its mute gain: the input meter reads it while live input is muted, so
-  // the interface gain can be set before anything is heard
-  const inputTap = raw.createAnalyser();
-  inputTap.fftSize = 2048;
-  const tapBuf = new Float32Array(inputTap.fftSize);
-  let liveChannels = 0;
-  let liveMuted = true;
-
-  let cabinetBuffer: AudioBuffer | null = null;
-  const decode = async (bytes: ArrayBuffer): Promise<AudioBuffer> => {
-    try {
-      return await raw.decodeAudioData(bytes.slice(0));
-    } catch (e) {
-      throw new Error(`could not decode the audio file (${e instanceof Error ? e.message : String(e)})`);
-    }
+  /**
+   * `make(plan)` once the planner has compiled `design` at the present factor. If it cannot be
+   * compiled, nothing is sent: request `id` fails and the listeners get the error as the
+   * processor would have reported it.
+   */
+  const sendPlanned = (slot: Slot, design: Design, id: number, make: (plan: SlotPlan) => ToProcessor): void => {
+    send(planner.plan(design, fs, state.factor).then((plan) => make(withoutSentTables(plan, sentTables)), (e: unknown) => {
+      const message = `slot ${slot}: ${e instanceof Error ? e.message : String(e)}`;
+      replies.fail(id, new Error(message));
+      meters.receive({ type: 'error', message, requestId: id });
+      return null;
+    }));
+  };
+  /** Plans for both slots' present designs at the present factor (a slot whose plan fails goes without: the processor reports why). */
+  const withPlans = async <M extends ToProcessor>(m: M): Promise<M> => {
+    const plans: { A?: SlotPlan; B?: SlotPlan } = {};
+    await Promise.all((['A', 'B'] as const).map(async (slot) => {
+      const d = state.designs[slot];
+      if (d) try { plans[slot] = await planner.plan(d, fs, state.factor); } catch { /* reported by the processor */ }
+    }));
+    // tables stripped in slot order once both are here (the posting order)
+    for (const slot of ['A', 'B'] as const) { const p = plans[slot]; if (p) plans[slot] = withoutSentTables(p, sentTables); }
+    return { ...m, plans };
   };
 
   const engine: AudioEngine = {
     context: raw,
     sampleRateHz: fs,
+    settings: state,
     async loadDesign(slot, design, opts) {
       const d = validateDesign(design);
       const scale = opts?.outputVoltsAtFullScale ?? estimateOutputVoltsAtFullScale(designCircuit(d), fs, state.inputVolts);
       state.designs[slot] = d;
       state.outputScale[slot] = scale;
-      const done = new Promise<LoadedInfo>((resolve, reject) => waiting.push({ slot, resolve, reject }));
-      send({ type: 'load-design', slot, design: d });
+      const { id, reply } = replies.open();
+      sendPlanned(slot, d, id, (plan) => ({ type: 'load-design', slot, design: d, plan, requestId: id }));
       send({ type: 'set-output-scale', slot, voltsAtFullScale: scale });
-      return done;
+      return reply;
     },
     clearSlot(slot) { delete state.designs[slot]; send({ type: 'clear-slot', slot }); },
     setPart(slot, part) {
       const d = state.designs[slot];
-      if (d) state.designs[slot] = { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) };
-      send({ type: 'set-part', slot, part });
+      const old = d?.parts.find((p) => p.id === part.id);
+      const next = d ? { ...d, parts: d.parts.map((p) => (p.id === part.id ? part : p)) } : undefined;
+      if (next) state.designs[slot] = next;
+      const id = replies.id();
+      // a new tube type is a new circuit: compiled off the audio thread, swapped in by the processor
+      if (next && old?.kind === 'tube' && part.kind === 'tube' && old.type !== part.type) sendPlanned(slot, next, id, (plan) => ({ type: 'set-part', slot, part, plan, requestId: id }));
+      else send({ type: 'set-part', slot, part, requestId: id });
     },
     setTubeSample(slot, tubeId, sample) {
       const d = state.designs[slot];
@@ -391,10 +299,10 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       send({ type: 'set-tube-sample', slot, tubeId, sample });
     },
     setMonitor(target) { state.monitor = target; send({ type: 'monitor', target }); },
-    setQuality(factor) { state.factor = factor; send({ type: 'set-quality', factor }); },
+    setQuality(factor) { state.factor = factor; send(withPlans({ type: 'set-quality', factor })); },
     setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
     setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
-    setLoudnessMatch(on) { send({ type: 'set-loudness-match', on }); },
+    setLoudnessMatch(on) { state.loudnessMatch = on; send({ type: 'set-loudness-match', on }); },
     setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
     setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
     setMuted(muted) {
@@ -403,185 +311,61 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       graph.output.gain.cancelScheduledValues(ctx.currentTime);
       graph.output.gain.rampTo(muted ? 0 : 1, 0.002);
     },
-    reset() { send({ type: 'reset' }); },
-    async loadFile(bytes) {
-      const ab = bytes instanceof ArrayBuffer ? bytes : await bytes.arrayBuffer();
-      return useBuffer(await decode(ab));
-    },
-    setSource(samples, rateHz) {
-      if (!(rateHz >= 3000 && rateHz <= 768000)) throw new Error(`sample rate ${rateHz} Hz is outside 3000..768000 Hz`);
-      const b = new AudioBuffer({ length: Math.max(1, samples.length), sampleRate: rateHz, numberOfChannels: 1 });
-      b.copyToChannel(Float32Array.from(samples), 0);
-      return useBuffer(b);
-    },
+    reset() { send(withPlans({ type: 'reset' })); },
+    get sending() { return outbox.pending; },
+    loadFile: (bytes) => player.loadFile(bytes),
+    setSource: (samples, rateHz) => player.setSource(samples, rateHz),
     async play() {
-      if (!source) throw new Error('no audio file loaded: load one before playing');
-      await raw.resume();
-      everStarted = true;
-      wake();
-      if (player.state === 'started') player.stop();
-      const offset = loop ? loop.startSeconds : 0;
-      player.start(undefined, offset);
-      startedAt = ctx.currentTime - offset;
+      if (!player.hasSource) throw new Error('no audio file loaded: load one before playing');
+      await idle.start();
+      player.play();
     },
-    stop() { if (player.state === 'started') player.stop(); wake(); },
-    get idle() { return managesIdle && raw.state === 'suspended'; },
-    onIdleChange(listener) {
-      const h = () => listener(engine.idle);
-      raw.addEventListener('statechange', h);
-      return () => raw.removeEventListener('statechange', h);
-    },
-    get playing() { return player.state === 'started'; },
-    positionSeconds() {
-      if (player.state !== 'started' || !source) return 0;
-      const t = ctx.currentTime - startedAt;
-      if (!loop) return Math.min(t, source.duration);
-      const len = loop.endSeconds - loop.startSeconds;
-      return t < loop.endSeconds ? t : loop.startSeconds + ((t - loop.startSeconds) % len);
-    },
-    setLoop(region) {
-      if (region) {
-        const dur = source?.duration ?? Infinity;
-        if (!(region.startSeconds >= 0 && region.endSeconds > region.startSeconds && region.endSeconds <= dur + 1e-9)) {
-          throw new Error(`loop region ${region.startSeconds}..${region.endSeconds} s must lie inside the file (0..${dur} s) with start before end`);
-        }
-      }
-      loop = region;
-      applyLoop();
-    },
-    async startLive(options = {}) {
-      if (stream) return;
-      if (!navigator.mediaDevices?.getUserMedia) throw new LiveInputError('live input needs a secure page (https or localhost) with microphone support');
-      const { deviceId, channel = 'mix' } = options;
-      if (channel !== 'mix' && channel !== 1 && channel !== 2) throw new LiveInputError(`input channel must be 1, 2 or mix (got ${String(channel)})`);
-      // two channels where the device has them (an interface's inputs 1 and 2), unprocessed
-      const audio: MediaTrackConstraints = {
-        echoCancellation: false, noiseSuppression: false, autoGainControl: false, channelCount: { ideal: 2 },
-        ...(deviceId ? { deviceId: { exact: deviceId } } : {}),
-      };
-      try {
-        stream = await navigator.mediaDevices.getUserMedia({ audio });
-      } catch (e) {
-        const name = e instanceof DOMException ? e.name : '';
-        if (name === 'NotAllowedError' || name === 'SecurityError') throw new LiveInputError('microphone access was denied: allow it in the browser to use live input');
-        if (name === 'NotFoundError' || name === 'OverconstrainedError') throw new LiveInputError('no audio input device found (or the chosen one is gone)');
-        if (name === 'NotReadableError') throw new LiveInputError('the audio input device is busy or failed to start');
-        throw new LiveInputError(`live input failed: ${e instanceof Error ? e.message : String(e)}`);
-      }
-      const channels = stream.getAudioTracks()[0]?.getSettings().channelCount ?? 1;
-      if (channel === 2 && channels < 2) {
-        for (const t of stream.getTracks()) t.stop();
-        stream = null;
-        throw new LiveInputError('this input has one channel: choose channel 1 (or mixed)');
-      }
-      await raw.resume();
-      everStarted = true;
-      wake();
-      streamNode = raw.createMediaStreamSource(stream);
-      liveChannels = channels;
-      if (channel === 'mix') {
-        Tone.connect(streamNode, liveGain);
-        streamNode.connect(inputTap);
-        if (takeNode) streamNode.connect(takeNode);
-      } else {
-        // one channel of the interface on its own (a guitar on input 2 would otherwise come in
-        // at half level, averaged with a silent input 1)
-        splitter = raw.createChannelSplitter(2);
-        streamNode.connect(splitter);
-        Tone.connect(splitter, liveGain, channel - 1, 0);
-        splitter.connect(inputTap, channel - 1, 0);
-        if (takeNode) splitter.connect(takeNode, channel - 1, 0);
-      }
-      liveMuted = true;
-      liveGain.gain.value = 0;
+    stop() { player.stop(); idle.wake(); },
+    get idle() { return idle.idle; },
+    onIdleChange: (listener) => idle.onChange(listener),
+    get playing() { return player.playing; },
+    positionSeconds: () => player.positionSeconds(),
+    setLoop: (region) => player.setLoop(region),
+    async startLive(opts = {}) {
+      if (live.on) return;
+      await live.start(opts);
       send({ type: 'set-live-input', live: true });
     },
     setLiveMuted(muted) {
-      liveMuted = muted;
       if (!muted) releaseSafety();
-      liveGain.gain.cancelScheduledValues(ctx.currentTime);
-      liveGain.gain.rampTo(muted || !stream ? 0 : 1, 0.002);
+      live.setMuted(muted);
     },
-    stopLive() {
-      releaseSafety();
-      if (!stream) return;
-      // a take in progress ends with the input: hand it over rather than lose it
-      if (recorder?.isRecording) void recorder.stop().then((t) => takeEnded?.(t));
-      liveGain.gain.value = 0;
-      streamNode?.disconnect();
-      splitter?.disconnect();
-      for (const t of stream.getTracks()) t.stop();
-      stream = null;
-      streamNode = null;
-      splitter = null;
-      liveChannels = 0;
-      liveMuted = true;
-      send({ type: 'set-live-input', live: false });
-    },
-    get live() { return !stream ? 'off' : liveMuted ? 'muted' : 'on'; },
-    get liveChannels() { return liveChannels; },
-    startTake() {
-      if (!recorder) throw new Error('takes are recorded from live input on a realtime context');
-      if (!stream) throw new Error('start live input before recording a take');
-      recorder.start();
-    },
-    stopTake() {
-      return recorder ? recorder.stop() : Promise.resolve({ samples: new Float32Array(0), sampleRateHz: fs, droppedSamples: 0, truncated: false });
-    },
-    get takeSeconds() { return recorder?.isRecording ? recorder.seconds : null; },
-    onTakeEnded(listener) { takeEnded = listener; },
+    stopLive() { releaseSafety(); live.stop(); },
+    get live() { return live.state; },
+    get liveChannels() { return live.channels; },
+    startTake() { takes.start(live.on); },
+    stopTake: () => takes.stop(),
+    get takeSeconds() { return takes.seconds; },
+    onTakeEnded(listener: (t: Take) => void) { takes.onEnded(listener); },
     liveLatency() {
-      if (!stream) return null;
-      const settings = stream.getAudioTracks()[0]?.getSettings() as (MediaTrackSettings & { latency?: number }) | undefined;
-      const input = typeof settings?.latency === 'number' && settings.latency >= 0 ? settings.latency : 0;
+      if (!live.on) return null;
+      const input = live.deviceLatencySeconds;
       const heard = state.monitor === 'dry' ? Math.max(processingLatencySamples.A ?? 0, processingLatencySamples.B ?? 0) : processingLatencySamples[state.monitor] ?? 0;
       const ac = raw as AudioContext & { outputLatency?: number };
       const output = (ac.baseLatency ?? 0) + (typeof ac.outputLatency === 'number' ? ac.outputLatency : 0);
       const processing = heard / fs;
       return { inputSeconds: input, processingSeconds: processing, outputSeconds: output, totalSeconds: input + processing + output };
     },
-    async listInputs() {
-      if (!navigator.mediaDevices?.enumerateDevices) return [];
-      const all = await navigator.mediaDevices.enumerateDevices();
-      return all.filter((d) => d.kind === 'audioinput').map((d, k) => ({ deviceId: d.deviceId, label: d.label || `audio input ${k + 1}` }));
-    },
-    async loadCabinet(src) {
-      let b: AudioBuffer | null = null;
-      if (typeof src === 'string') {
-        const r = await fetch(src);
-        if (!r.ok) throw new Error(`could not fetch cabinet response ${src} (HTTP ${r.status})`);
-        b = await decode(await r.arrayBuffer());
-      } else if (src instanceof ArrayBuffer) b = await decode(src);
-      else if (src) b = await monoBuffer(src.samples, src.sampleRateHz, fs);
-      if (b && b.sampleRate !== fs) b = await resampleBuffer(b, fs);
-      cabinetBuffer = b;
-      graph.setCabinet(b);
-    },
-    onReport(l) { listeners.add(l); return () => listeners.delete(l); },
-    get latestMeter() { return latestMeter; },
-    levels() {
-      let tapped = 0;
-      if (stream && liveMuted) {
-        inputTap.getFloatTimeDomainData(tapBuf);
-        for (let k = 0; k < tapBuf.length; k++) { const a = Math.abs(tapBuf[k]!); if (a > tapped) tapped = a; }
-      }
-      const r = { inputVolts: Math.max(peakIn, tapped * state.inputVolts), outputDbfs: peakOutDb };
-      peakIn = 0; peakOutDb = -200;
-      return r;
-    },
-    spectrum(into) {
-      const v = graph.analyser.getValue();
-      if (!(v instanceof Float32Array)) return { ok: false, binHertz: 0 };
-      into.set(v.subarray(0, Math.min(into.length, v.length)));
-      return { ok: true, binHertz: fs / graph.analyser.size };
-    },
-    scope,
+    listInputs: (): Promise<LiveInputDevice[]> => LiveInput.list(),
+    loadCabinet: (src) => cabinet.load(src),
+    onReport: (l) => meters.onReport(l),
+    get latestMeter(): MeterReport | null { return meters.latestMeter; },
+    // while live input is muted the input meter reads the device before its mute gain, so the
+    // interface gain can be set before anything is heard
+    levels: () => meters.levels(live.peakWhileMuted() * state.inputVolts),
+    spectrum: (into) => meters.spectrum(into, fs),
+    get scope(): ScopeBuffer { return meters.scope; },
     async renderOffline(o) {
-      const init: ProcessorInit = { factor: state.factor, initial: [...stateMessages(state), ...(o.overrides ?? [])] };
+      const init: ProcessorInit = { factor: state.factor, initial: [...state.messages(), ...(o.overrides ?? [])] };
       return renderGraphOffline(init, o.input, {
         ...(o.sampleRateHz !== undefined ? { sampleRateHz: o.sampleRateHz } : {}),
         ...(o.tailSeconds !== undefined ? { tailSeconds: o.tailSeconds } : {}),
-        cabinet: cabinetBuffer,
+        cabinet: cabinet.buffer,
       });
     },
     async renderOfflineSamples(o) {
@@ -590,12 +374,12 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     },
     async dispose() {
       engine.stopLive();
-      disposed = true;
-      if (idleTimer) clearTimeout(idleTimer);
+      idle.dispose();
       player.dispose();
-      liveGain.dispose();
+      live.dispose();
       graph.dispose();
-      for (const w of waiting.splice(0)) w.reject(new Error('audio engine disposed'));
+      planner.dispose();
+      replies.rejectAll(new Error('audio engine disposed'));
       // Tone's Context.dispose closes the native context too: only for a context made here.
       if (!options.context) {
         ctx.dispose();

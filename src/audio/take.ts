@@ -82,3 +82,43 @@ export class TakeRecorder {
   /** Called with the take when it stopped by itself at the length limit. */
   onTruncated: ((t: Take) => void) | null = null;
 }
+
+/**
+ * The take recorder's place in the graph: its processor listens to the live input (a realtime
+ * context only; it is loaded on the native context, and only ever connects to native nodes:
+ * the stream source and its splitter). Takes that end by themselves (length limit, live input
+ * stopped) go to the one `onEnded` listener.
+ */
+export class TakeDeck {
+  private ended: ((t: Take) => void) | null = null;
+
+  private constructor(readonly node: AudioWorkletNode | null, private readonly recorder: TakeRecorder | null, private readonly sampleRateHz: number) {
+    if (recorder) recorder.onTruncated = (t) => this.ended?.(t);
+  }
+
+  static async attach(raw: BaseAudioContext, moduleUrl: string, processorName: string): Promise<TakeDeck> {
+    if (!(raw instanceof AudioContext)) return new TakeDeck(null, null, raw.sampleRate);
+    await raw.audioWorklet.addModule(moduleUrl);
+    const node = new AudioWorkletNode(raw, processorName, { numberOfInputs: 1, numberOfOutputs: 0, channelCount: 1, channelCountMode: 'explicit' });
+    return new TakeDeck(node, new TakeRecorder(node.port, raw.sampleRate), raw.sampleRate);
+  }
+
+  /** Start recording; `liveOn` says whether there is any input to record. */
+  start(liveOn: boolean): void {
+    if (!this.recorder) throw new Error('takes are recorded from live input on a realtime context');
+    if (!liveOn) throw new Error('start live input before recording a take');
+    this.recorder.start();
+  }
+
+  stop(): Promise<Take> {
+    return this.recorder ? this.recorder.stop() : Promise.resolve({ samples: new Float32Array(0), sampleRateHz: this.sampleRateHz, droppedSamples: 0, truncated: false });
+  }
+
+  /** The live input stopped: a take in progress ends with it, handed over rather than lost. */
+  inputStopped(): void {
+    if (this.recorder?.isRecording) void this.recorder.stop().then((t) => this.ended?.(t));
+  }
+
+  get seconds(): number | null { return this.recorder?.isRecording ? this.recorder.seconds : null; }
+  onEnded(listener: (t: Take) => void): void { this.ended = listener; }
+}

@@ -1,12 +1,11 @@
 // AudioPort over the real-time engine of src/audio (Tone.js graph around the circuit worklet).
 // The engine is created on the first call that needs sound (a user gesture); settings made
 // before that are kept and applied then.
-import { DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, designCircuit, withVolumeFull, type Design, type Part } from '../dsp/circuit/design.ts';
-import { DEFAULT_LIVE_FACTOR } from '../dsp/realtime/dual-slot-engine.ts';
+import { designCircuit, withVolumeFull, type Design, type Part } from '../dsp/circuit/design.ts';
 import { estimateOutputVoltsAtFullScale } from '../dsp/render/levelling.ts';
 import type { Monitor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
-import { createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
+import { AudioSettings, createAudioEngine, type AudioEngine, type LiveInputDevice, type LiveInputOptions, type LiveLatency } from '../audio/index.ts';
 import type { Take } from '../audio/take.ts';
 import type { AudioPort, AudioStatus, LoopRegion, ScopeTrace, SourceClip } from './audio-port.ts';
 import { OverloadGuard, overloadMessage } from '../audio/overload-guard.ts';
@@ -29,23 +28,21 @@ export class EnginePort implements AudioPort {
   readonly engineName = 'real-time circuit worklet';
   private engine: AudioEngine | null = null;
   private creating: Promise<AudioEngine> | null = null;
+  /** What the workspace asked for; what was sent (and the rest of the audio settings) lives in `settings`. */
   private designs: Partial<Record<Slot, Design>> = {};
-  private sent: Partial<Record<Slot, Design>> = {};
+  /** The audio settings, held once: the engine sends from and writes to this object. */
+  private readonly settings = Object.assign(new AudioSettings(), { loudnessMatch: true });
   /**
    * Each slot's output scale: its design with the volume fully clockwise (so the knob is heard),
    * levelled at 1 kHz. The live match then measures and takes out what is left between them.
    */
   private scales: Partial<Record<Slot, number>> = {};
-  private monitor: Monitor = 'A';
-  private matched = true;
-  private calibration = DEFAULT_INPUT_VOLTS_AT_FULL_SCALE;
-  private factor: OversamplingFactor = DEFAULT_LIVE_FACTOR;
   private clip: SourceClip | null = null;
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, matchGainDb: 0, outputLufs: null, live: 'off', message: null, qualityFactor: this.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
-  private readonly guard = new OverloadGuard(this.factor);
+  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, matchGainDb: 0, outputLufs: null, live: 'off', message: null, qualityFactor: this.settings.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
+  private readonly guard = new OverloadGuard(this.settings.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private sendsInFlight = 0;
   private lastStatusMs = 0;
@@ -67,10 +64,9 @@ export class EnginePort implements AudioPort {
   private ensure(): Promise<AudioEngine> {
     if (this.engine) return Promise.resolve(this.engine);
     if (!this.creating) {
-      this.creating = createAudioEngine({ factor: this.factor, inputVoltsAtFullScale: this.calibration }).then(async (e) => {
+      // the engine starts from the settings (factor, calibration, monitor) and keeps them
+      this.creating = createAudioEngine({ settings: this.settings }).then(async (e) => {
         this.engine = e;
-        e.setMonitor(this.monitor);
-        e.setLoudnessMatch(this.matched);
         // the engine suspends its context when idle: show it (and the load as unknown)
         e.onIdleChange((idle) => { if (idle !== this.status.idle) this.emit(idle ? { idle: true, loadFraction: null } : { idle: false }); });
         e.onReport((m) => {
@@ -103,13 +99,12 @@ export class EnginePort implements AudioPort {
   private async sendDesign(slot: Slot): Promise<void> {
     const e = this.engine, d = this.designs[slot];
     if (!e || !d) return;
-    const prev = this.sent[slot];
-    this.sent[slot] = d;
+    const prev = this.settings.designs[slot];
     if (prev && prev !== d && sameStructure(prev, d)) {
       d.parts.forEach((p, i) => {
         const q = prev.parts[i]!;
         if (p === q || JSON.stringify(p) === JSON.stringify(q)) return;
-        if (p.kind === 'tube') e.setTubeSample(slot, p.id, p.sample);
+        if (p.kind === 'tube' && q.kind === 'tube' && p.type === q.type) e.setTubeSample(slot, p.id, p.sample);
         else e.setPart(slot, p as Part);
       });
     } else if (prev !== d) {
@@ -118,7 +113,7 @@ export class EnginePort implements AudioPort {
   }
 
   private outputScale(slot: Slot): number {
-    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.calibration));
+    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.settings.inputVolts));
   }
 
   /** Re-estimate both slots' output scales a little after edits (the live match follows the sound itself). */
@@ -141,11 +136,11 @@ export class EnginePort implements AudioPort {
     this.releveling();
   }
 
-  setMonitor(target: Monitor): void { this.monitor = target; this.engine?.setMonitor(target); }
-  setLoudnessMatch(on: boolean): void { this.matched = on; this.engine?.setLoudnessMatch(on); }
-  setInputCalibration(v: number): void { if (this.calibration === v) return; this.calibration = v; this.engine?.setInputCalibration(v); this.releveling(); }
+  setMonitor(target: Monitor): void { this.settings.monitor = target; this.engine?.setMonitor(target); }
+  setLoudnessMatch(on: boolean): void { this.settings.loudnessMatch = on; this.engine?.setLoudnessMatch(on); }
+  setInputCalibration(v: number): void { if (this.settings.inputVolts === v) return; this.settings.inputVolts = v; this.engine?.setInputCalibration(v); this.releveling(); }
   setQuality(f: OversamplingFactor): void {
-    this.factor = f;
+    this.settings.factor = f;
     this.guard.setFactor(f);
     this.engine?.setQuality(f);
     if (this.status.qualityFactor !== f || this.status.qualityNote !== null) this.emit({ qualityFactor: f, qualityNote: null });
@@ -157,18 +152,18 @@ export class EnginePort implements AudioPort {
   observeLoad(loadFraction: number, nowMs: number): void {
     const step = this.guard.observe(loadFraction, nowMs);
     if (!step) return;
-    this.factor = step.to;
+    this.settings.factor = step.to;
     this.engine?.setQuality(step.to);
     this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
   }
-  setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.factor); }
+  setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.settings.factor); }
   overloadGuardOn(): boolean { return this.guard.enabled; }
   /** The live quality the port holds now (the workspace's selector follows it). */
-  qualityFactor(): OversamplingFactor { return this.factor; }
+  qualityFactor(): OversamplingFactor { return this.settings.factor; }
   /** The design the port holds for a slot (what the engine plays once settled). */
   design(slot: Slot): Design | undefined { return this.designs[slot]; }
   /** No design send in flight and no re-levelling pending: what plays is what the workspace shows. */
-  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null; }
+  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null && (this.engine?.sending ?? 0) === 0; }
 
   setSource(clip: SourceClip): void {
     this.clip = clip;

@@ -44,14 +44,15 @@ export async function openHarness(origin: string, extraArgs: readonly string[] =
   try {
     await page.waitForFunction(() => (window as unknown as { vw?: { ready: boolean } }).vw?.ready === true, undefined, { timeout: 60_000 });
   } catch (e) {
-    throw new Error(`harness page did not load: ${logs.join(' | ') || String(e)}`);
+    throw new Error(`harness page did not load: ${logs.join(' | ') || String(e)}`, { cause: e });
   }
   return { context, page, async close() { await context.close(); rmSync(dir, { recursive: true, force: true }); } };
 }
 
 /** What harness.ts puts on window.vw (arguments and results are plain data). */
 export interface HarnessApi {
-  editSession(init: unknown, input: number[], rateHz: number, events: { quantum: number; messages: unknown[] }[], quiet: number[]): Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }>;
+  requestIdRun(a: unknown, b: unknown, badPartB: unknown, retypedA: unknown): Promise<{ loadA: string; errors: { message: string; requestId: number | null }[]; loadedAfter: { slot: string; factor: number; requestId: number | null }[] }>;
+  editSession(init: unknown, input: number[], rateHz: number, events: { quantum: number; messages: unknown[] }[], quiet: number[], window?: number): Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }>;
   renderWorklet(init: unknown, input: number[], rateHz: number): Promise<{ output: number[]; renderMs: number; messages: { type: string; loadFraction?: number }[] }>;
   renderGraph(init: unknown, input: number[], rateHz: number, ir: number[] | null): Promise<number[]>;
   takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ length: number; sampleRateHz: number; dropped: number; rms: number; peak: number; during: number | null; afterStop: number | null }>;

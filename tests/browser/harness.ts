@@ -4,7 +4,7 @@ import workletUrl from '../../worklets/circuit.worklet.ts?worker&url';
 import { PROCESSOR_NAME, type FromProcessor, type ProcessorInit } from '../../src/dsp/realtime/messages.ts';
 import { createAudioEngine, renderGraphOffline, monoBuffer, type LiveInputOptions, type LiveLatency } from '../../src/audio/index.ts';
 import { withPart, type Design } from '../../src/dsp/circuit/design.ts';
-import { buildSlotPlan } from '../../src/dsp/circuit/plan.ts';
+import { buildSlotPlan as buildPlan, planTransferables, withoutSentTables, type SlotPlan } from '../../src/dsp/circuit/plan.ts';
 import type { ToProcessor, Slot } from '../../src/dsp/realtime/messages.ts';
 import type { OversamplingFactor } from '../../src/dsp/oversampling/oversampler.ts';
 
@@ -161,6 +161,36 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
 }
 
 /**
+ * Replies matched by request id through the real-time engine: slot B loaded, then slot A's load
+ * sent together with a refused set-part on B (a resistor of negative value); then a tube type
+ * change on A and a quality change, both compiled by the plan worker. Returns what the load
+ * resolved with (or its error), every error report and the 'loaded' reports after the load.
+ */
+async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][number], retypedA: Design['parts'][number]):
+  Promise<{ loadA: string; errors: { message: string; requestId: number | null }[]; loadedAfter: { slot: string; factor: number; requestId: number | null }[] }> {
+  const audio = await createAudioEngine({ idleSuspendSeconds: 60 });
+  const reports: FromProcessor[] = [];
+  audio.onReport((m) => reports.push(structuredClone(m)));
+  await audio.loadDesign('B', b);
+  const pendingA = audio.loadDesign('A', a);
+  audio.setPart('B', badPartB);
+  let loadA: string;
+  try { loadA = `resolved ${(await pendingA).slot} ${(await pendingA).designName}`; } catch (e) { loadA = `rejected: ${(e as Error).message}`; }
+  const from = reports.length;
+  audio.setPart('A', retypedA);
+  audio.setQuality(2);
+  // the retype may be swapped in on its own first, or together with the quality change
+  const at2 = (slot: Slot) => reports.slice(from).some((m) => m.type === 'loaded' && m.slot === slot && m.factor === 2);
+  await until(() => at2('A') && at2('B'), 'both slots at 2x loaded');
+  await audio.dispose();
+  return {
+    loadA,
+    errors: reports.flatMap((m) => (m.type === 'error' ? [{ message: m.message, requestId: m.requestId ?? null }] : [])),
+    loadedAfter: reports.slice(from).flatMap((m) => (m.type === 'loaded' ? [{ slot: m.slot, factor: m.factor, requestId: m.requestId ?? null }] : [])),
+  };
+}
+
+/**
  * A scripted editing session through the worklet in an OfflineAudioContext. Each event's
  * messages are posted at its render quantum (the context suspended there); messages that need a
  * compiled design get a plan built here first, as the workspace's plan worker does (not on the
@@ -168,7 +198,7 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
  * timed from resume to the next suspension: one quantum of processing plus the suspend/resume
  * hand-over between threads.
  */
-async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[]):
+async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[], window = 8):
   Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
   const Q = 128;
   const ctx = new OfflineAudioContext(1, input.length, rateHz);
@@ -184,6 +214,13 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
   const designs: Partial<Record<Slot, Design>> = {};
   let factor = (init.factor ?? 4) as OversamplingFactor;
   for (const m of init.initial ?? []) if (m.type === 'load-design') designs[m.slot] = m.design;
+  // as the workspace sends plans (src/audio/index.ts): each tube table once, buffers transferred
+  const sent = new Set<string>();
+  const buildSlotPlan = (d: Design, fs: number, f: OversamplingFactor): SlotPlan => withoutSentTables(buildPlan(d, fs, f), sent);
+  const transfers = (m: ToProcessor): Transferable[] => {
+    const plans = m.type === 'load-design' || m.type === 'set-part' ? [m.plan] : m.type === 'set-quality' || m.type === 'reset' ? [m.plans?.A, m.plans?.B] : [];
+    return [...new Set(plans.flatMap((p) => (p ? planTransferables(p) : [])))];
+  };
   const withPlan = (m: ToProcessor): ToProcessor => {
     if (m.type === 'load-design') { designs[m.slot] = m.design; return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) }; }
     if (m.type === 'set-part') {
@@ -200,11 +237,11 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
     return m;
   };
   const editMs: number[] = [], quietMs: number[] = [];
-  const WINDOW = 8; // quanta timed after each event (fades, swaps and glide steps land there)
+  const WINDOW = window; // quanta timed after each event (warm-up, fades, swaps and glide steps land there)
   const timed = (quantum: number, into: number[], messages: ToProcessor[]) => {
     let t0 = 0;
     void ctx.suspend((quantum * Q) / rateHz).then(() => {
-      for (const m of messages) node.port.postMessage(withPlan(m));
+      for (const m of messages) { const p = withPlan(m); node.port.postMessage(p, transfers(p)); }
       // the messages reach the processor before the next quantum (one port, in order)
       t0 = performance.now();
       void ctx.resume();
@@ -226,4 +263,4 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
   return { editMs, quietMs, renderMs, errors };
 }
 
-Object.assign(window, { vw: { editSession, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });
+Object.assign(window, { vw: { editSession, requestIdRun, renderWorklet, renderGraph, liveRun, liveDenied, idleRun, liveSafety, takeRun, ready: true } });

@@ -209,4 +209,21 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     expect(Math.abs(peak(unit) / (amp * 0.5) - 1)).toBeLessThan(tol); // normalize off: the response's real gain
     expect(Math.abs(peak(two) / (amp * gain) - 1)).toBeLessThan(tol);
   });
+
+  it('(e) replies are matched by request id: a refused set-part on slot B leaves slot A\'s pending load alone; tube and quality changes arrive as plans', async () => {
+    const r1 = PT.parts.find((p) => p.kind === 'resistor');
+    const v2 = PT.parts.find((p) => p.id === 'V2');
+    if (!r1 || r1.kind !== 'resistor' || !v2 || v2.kind !== 'tube') throw new Error('template without a resistor or V2');
+    // a negative resistance is no part (common practice): the processor refuses the edit
+    const r = await api('requestIdRun', PT, TT, { ...r1, ohms: -1000 }, { ...v2, type: '12AT7' });
+    console.log(JSON.stringify(r));
+    expect(r.loadA).toBe(`resolved A ${PT.name}`);
+    expect(r.errors.length).toBe(1);
+    expect(r.errors[0]!.message).toMatch(/^design rejected/);
+    expect(r.errors[0]!.requestId).not.toBeNull();
+    // the retype on A (its plan from the worker) answers its request, on its own at 4x or swapped
+    // in with the quality change; both slots end at 2x (plans at the new factor), no error
+    expect(r.loadedAfter.some((l) => l.slot === 'A' && l.requestId !== null)).toBe(true);
+    expect(r.loadedAfter.slice(-2).map((l) => `${l.slot}@${l.factor}`).sort()).toEqual(['A@2', 'B@2']);
+  });
 });

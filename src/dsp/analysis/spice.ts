@@ -49,7 +49,8 @@ export function toSpice(n: Netlist, options: SpiceOptions = {}): string {
   const node = (x: string) => nodes.get(x)!;
   const names = new Set<string>();
   const name = (letter: string, id: string) => {
-    let s = `${letter}${id.replace(/[^A-Za-z0-9_]/g, '_')}`, t = s, k = 1;
+    const s = `${letter}${id.replace(/[^A-Za-z0-9_]/g, '_')}`;
+    let t = s, k = 1;
     while (names.has(t.toLowerCase())) t = `${s}_${k++}`;
     names.add(t.toLowerCase());
     return t;

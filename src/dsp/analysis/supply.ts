@@ -162,7 +162,7 @@ function simulateReservoir(p: SimParams, loadAmps: number): ReservoirSim {
   const period = new Float64Array(periodSteps);
   let sumI2 = 0;
   let sumI = 0;
-  let sumV = 0;
+  let sumV: number;
   for (let cycle = 0; cycle < MAX_MAINS_CYCLES; cycle++) {
     sumI2 = 0;
     sumI = 0;

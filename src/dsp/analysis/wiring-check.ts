@@ -115,7 +115,7 @@ export function checkWiring(design: Design, ctx: WiringContext = {}): Finding[] 
   const viaSwitch = (a: string, b: string) => !sets.same(a, b) && closed.same(a, b);
 
   for (const t of tubes) {
-    const { grid: g, cathode: k, plate: p } = t.nodes;
+    const { grid: g, cathode: k } = t.nodes;
     // every cathode returns
     if (!sets.same(k, c.ground)) {
       reported.add(k);
@@ -182,7 +182,7 @@ export function checkWiring(design: Design, ctx: WiringContext = {}): Finding[] 
 
   // the supply is not shorted to ground (resistors and closed switches only, the source aside)
   if (design.supply.node !== c.ground) {
-    let r = Infinity;
+    let r: number;
     try { r = dcResistanceBetween({ ...c, elements: c.elements.filter((e) => e.kind !== 'dc-source') }, design.supply.node, c.ground); } catch { r = Infinity; }
     if (Number.isFinite(r) && r >= 0 && r < SUPPLY_SHORT_OHMS) {
       f.push({ severity: 'error', code: 'supply-shorted', parts: partsAt(design, design.supply.node), nodes: [design.supply.node, c.ground], message: `B+ (node "${design.supply.node}") has only ${fmtOhms(r)}ohms to ground: the supply is shorted, the rectifier, transformer or fuse fails at switch-on; find the wire or part from B+ to ground` });

@@ -45,7 +45,6 @@ const UNITS: Readonly<Record<ValueUnit, UnitInfo>> = {
   hertz: { noun: 'frequency', symbol: 'Hz', rkmLetter: null, minAbs: 1e-3, maxAbs: 1e8, rangeText: '1 mHz to 100 MHz' },
 };
 
-const UNIT_ORDER: readonly ValueUnit[] = ['ohms', 'farads', 'volts', 'amperes', 'watts', 'hertz'];
 
 /** SI prefixes plus builders' habits: K = kilo, U/u = micro, N = nano. */
 const PREFIXES: Readonly<Record<string, number>> = {

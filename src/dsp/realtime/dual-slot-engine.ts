@@ -26,6 +26,7 @@ import {
 } from '../circuit/design.ts';
 import type { ValueUpdate } from '../circuit/engine.ts';
 import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, type SlotPlan } from '../circuit/plan.ts';
+import { importTables } from '../tubes/tables.ts';
 import { isOversamplingFactor } from '../render/oversampled.ts';
 import { PeakLimiter } from '../render/limiter.ts';
 import { Oversampler, type OversamplingFactor } from '../oversampling/oversampler.ts';
@@ -83,9 +84,32 @@ export interface SlotModel {
   setValues(updates: readonly ValueUpdate[]): void;
   setSwitch(id: string, closed: boolean): void;
   setTubeSample(id: string, sample: number): void;
-  /** Solver counters since the model was built (CircuitEngine.fallbackSamples / failedSamples). */
+  /** Solver counters since the model was built or last reset (CircuitEngine.fallbackSamples / failedSamples). */
   readonly fallbackSamples?: number;
   readonly failedSamples?: number;
+  /**
+   * Back to the operating point (state only; values stay). With it, a new model is warmed up on a
+   * test signal over a few blocks before it is heard (see WARM_BASE_SAMPLES), then reset.
+   */
+  reset?(): void;
+}
+
+/**
+ * Base-rate samples a new model runs on a test signal before it is swapped in, a few per block
+ * (WARM_CHUNK_MAX at most, fewer while a block's warming takes over WARM_BUDGET_MS): its
+ * generated kernels start interpreted and the engine's shared code deoptimises on a new circuit
+ * shape, which in one go cost 10-36 ms in the first blocks of a new shape (bench/edit-quanta.bench.ts).
+ */
+export const WARM_BASE_SAMPLES = 512;
+const WARM_CHUNK_MAX = 32;
+/** Blocks a warm-up may take (about 0.1 s at 48 kHz): a machine too busy to warm within the budget gets its load anyway. */
+const WARM_MAX_BLOCKS = 40;
+const WARM_BUDGET_MS = 0.3;
+/** The warm-up signal: 0.5 V peak at 220 Hz plus 0.2 V at 1.3 kHz (at 48 kHz), so Newton and the averaged root take their real paths. */
+function warmSignal(): Float64Array {
+  const x = new Float64Array(WARM_BASE_SAMPLES + WARM_CHUNK_MAX);
+  for (let k = 0; k < x.length; k++) x[k] = 0.5 * Math.sin((2 * Math.PI * 220 * k) / 48000) + 0.2 * Math.sin((2 * Math.PI * 1300 * k) / 48000);
+  return x;
 }
 /** Instantiates a plan (on the audio thread: no compile, no DC solve). */
 export type ModelFactory = (plan: SlotPlan) => SlotModel;
@@ -97,6 +121,8 @@ const tubesOf = (d: Design): TubePart[] => d.parts.filter((p): p is TubePart => 
 /** The default model: the plan's circuit at factor x the base rate (src/dsp/render/oversampled.ts). */
 export const planModel: ModelFactory = (plan) => {
   const oc = instantiateSlotPlan(plan);
+  // solver counters from the last reset on (a warm-up's are not reported)
+  let fallbacks0 = 0, failed0 = 0;
   const dc = plan.outputDcVolts;
   return {
     processSample: (v) => oc.processSample(v),
@@ -107,8 +133,9 @@ export const planModel: ModelFactory = (plan) => {
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
-    get fallbackSamples() { return oc.engine.fallbackSamples; },
-    get failedSamples() { return oc.engine.failedSamples; },
+    reset: () => { oc.reset(); fallbacks0 = oc.engine.fallbackSamples; failed0 = oc.engine.failedSamples; },
+    get fallbackSamples() { return oc.engine.fallbackSamples - fallbacks0; },
+    get failedSamples() { return oc.engine.failedSamples - failed0; },
   };
 };
 
@@ -180,6 +207,25 @@ class SlotState {
   /** Request id of the message that made `pending` ('loaded' carries it). */
   pendingRequest: number | undefined = undefined;
   pendingClear = false;
+  /** A model made from pendingPlan, being warmed up before the swap (null: not made yet). */
+  warm: SlotModel | null = null;
+  /** The design whose values `warm` carries. */
+  warmDesign: Design | null = null;
+  /** Base samples `warm` has run; the chunk it runs next block. */
+  warmDone = 0;
+  warmChunk = 1;
+  warmBlocks = 0;
+  /** A new pending plan: any model warming for the old one is dropped. */
+  setPending(design: Design | null, plan: SlotPlan | null): void {
+    this.pending = design;
+    this.pendingPlan = plan;
+    this.warm = null;
+    this.warmDesign = null;
+    this.warmDone = 0;
+    this.warmChunk = 1;
+    this.warmBlocks = 0;
+  }
+  get warmed(): boolean { return this.warm !== null && this.warmDone >= WARM_BASE_SAMPLES; }
   glides: Glide[] = [];
   glideById = new Map<string, Glide>();
   allUpdates: MutableUpdate[] = [];
@@ -287,6 +333,9 @@ export class DualSlotEngine {
   private readonly lvlB = new Float64Array(SMOOTHING_STEP_SAMPLES);
   private readonly matchGain = new Float64Array(SMOOTHING_STEP_SAMPLES);
   private readonly noPlates: number[] = [];
+  /** Warm-up signal and its discarded output (see WARM_BASE_SAMPLES). */
+  private readonly warmIn = warmSignal();
+  private readonly warmOut = new Float64Array(WARM_BASE_SAMPLES + WARM_CHUNK_MAX);
 
   constructor(options: DualSlotOptions) {
     const fs = options.sampleRateHz;
@@ -326,8 +375,15 @@ export class DualSlotEngine {
 
   private slot(s: Slot): SlotState { return s === 'A' ? this.slots[0] : this.slots[1]; }
 
+  /** Dry-path delay at factor f (memoised: designing the half-bands is not work for process()). */
+  private readonly latencies = new Map<OversamplingFactor, number>();
   private latencyFor(f: OversamplingFactor): number {
-    return Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
+    let d = this.latencies.get(f);
+    if (d === undefined) {
+      d = Math.min(DRY_DELAY_CAPACITY - 1, Math.round(new Oversampler(f).latencyBaseSamples));
+      this.latencies.set(f, d);
+    }
+    return d;
   }
 
   private error(message: string, requestId?: number): void {
@@ -355,6 +411,8 @@ export class DualSlotEngine {
   private planFor(design: Design, plan: unknown, factor: OversamplingFactor): SlotPlan {
     if (plan === undefined) return this.planner(design, this.sampleRateHz, factor);
     const p = validateSlotPlan(plan);
+    // its tables are kept whatever becomes of the plan: the main thread sends each table once
+    importTables(p.tables);
     if (p.baseRateHz !== this.sampleRateHz || p.factor !== factor) {
       throw new Error(`plan is for ${p.baseRateHz} Hz at ${p.factor}x, the processor runs ${this.sampleRateHz} Hz at ${factor}x`);
     }
@@ -365,8 +423,7 @@ export class DualSlotEngine {
   private schedule(s: SlotState, design: Design, plan: SlotPlan, immediate: boolean, requestId: number | undefined): void {
     s.pendingClear = false;
     if (immediate) { this.build(s, design, plan, requestId); return; }
-    s.pending = design;
-    s.pendingPlan = plan;
+    s.setPending(design, plan);
     s.pendingRequest = requestId;
   }
 
@@ -377,8 +434,7 @@ export class DualSlotEngine {
       const d = s.pending ?? s.design;
       if (!d) continue;
       const given: unknown = plans?.[s.name];
-      s.pendingPlan = this.planFor(d, given, factor);
-      s.pending = d;
+      s.setPending(d, this.planFor(d, given, factor));
     }
   }
 
@@ -398,8 +454,7 @@ export class DualSlotEngine {
       }
       case 'clear-slot': {
         const s = needSlot(msg.slot);
-        s.pending = null;
-        s.pendingPlan = null;
+        s.setPending(null, null);
         if (immediate) this.clear(s);
         else s.pendingClear = true;
         return;
@@ -423,6 +478,7 @@ export class DualSlotEngine {
         if (!isOversamplingFactor(msg.factor)) throw new Error(`set-quality: factor must be 1, 2, 4, 8, 16, 32, 64 or 128 (got ${JSON.stringify(msg.factor)})`);
         if (msg.factor === this.targetFactor && msg.factor === this.factorNow) return;
         this.plansFor(msg.plans, msg.factor);
+        this.latencyFor(msg.factor); // here, not in the block that swaps
         this.pendingFactor = msg.factor;
         if (immediate) this.rebuildAll();
         return;
@@ -574,11 +630,12 @@ export class DualSlotEngine {
    * Swap a slot to a model instantiated from `plan` (no compile, no DC solve). If `design` has
    * values the plan was not built with (edits since), they are applied as a value change.
    */
-  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true): boolean {
+  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true, warmed?: { model: SlotModel; design: Design }): boolean {
     let model: SlotModel;
     try {
-      model = this.createModel(plan);
-      if (d !== plan.design) applyDesignValues(model, plan.design, d);
+      model = warmed ? warmed.model : this.createModel(plan);
+      const from = warmed ? warmed.design : plan.design;
+      if (d !== from) applyDesignValues(model, from, d);
     } catch (e) {
       this.error(`slot ${s.name}: could not start "${d.name}": ${errMsg(e)}`, requestId);
       return false;
@@ -638,10 +695,9 @@ export class DualSlotEngine {
     this.pendingFactor = null;
     this.pendingReset = false;
     for (const s of this.slots) {
-      const d = s.pending, plan = s.pendingPlan;
-      s.pending = null;
-      s.pendingPlan = null;
-      if (d && plan) this.build(s, d, plan, s.pendingRequest);
+      const d = s.pending, plan = s.pendingPlan, warm = s.warm, warmDesign = s.warmDesign;
+      s.setPending(null, null);
+      if (d && plan) this.build(s, d, plan, s.pendingRequest, true, warm && warmDesign ? { model: warm, design: warmDesign } : undefined);
       s.pendingRequest = undefined;
     }
   }
@@ -672,10 +728,56 @@ export class DualSlotEngine {
     return g.value > 0 || g.target > 0;
   }
 
-  /** Block-boundary work: pending loads, quality changes, resets (plans instantiated, nothing compiled). */
+  /**
+   * A pending plan's model: made (one per block at most), then warmed a few samples per block
+   * until WARM_BASE_SAMPLES, then reset to its operating point. True once it is ready to swap in.
+   */
+  private prepare(s: SlotState, mayMake: boolean): boolean {
+    const plan = s.pendingPlan, d = s.pending;
+    if (!plan || !d) return true;
+    if (!s.warm) {
+      if (!mayMake) return false;
+      try {
+        const model = this.createModel(plan);
+        if (d !== plan.design) applyDesignValues(model, plan.design, d);
+        s.warm = model;
+        s.warmDesign = d;
+        // a model that cannot be reset is not warmed (it would be heard off its operating point)
+        if (!model.reset) s.warmDone = WARM_BASE_SAMPLES;
+      } catch (e) {
+        this.error(`slot ${s.name}: could not start "${d.name}": ${errMsg(e)}`, s.pendingRequest);
+        s.setPending(null, null);
+        s.pendingRequest = undefined;
+        return true;
+      }
+      return false;
+    }
+    if (s.warmDone >= WARM_BASE_SAMPLES) return true;
+    const n = Math.min(s.warmChunk, WARM_BASE_SAMPLES - s.warmDone);
+    const t0 = this.nowMs();
+    s.warm.processRange(this.warmIn, this.warmOut, s.warmDone, n);
+    const dt = this.nowMs() - t0;
+    s.warmDone += n;
+    if (++s.warmBlocks >= WARM_MAX_BLOCKS) s.warmDone = WARM_BASE_SAMPLES;
+    // next chunk: what fits the budget at this chunk's cost per sample (at most double; a clock
+    // too coarse to see the chunk doubles it)
+    s.warmChunk = dt > 0 ? Math.max(1, Math.min(WARM_CHUNK_MAX, 2 * n, Math.floor((WARM_BUDGET_MS * n) / dt))) : Math.min(WARM_CHUNK_MAX, 2 * n);
+    if (s.warmDone < WARM_BASE_SAMPLES) return false;
+    s.warm.reset?.();
+    return true;
+  }
+
+  /** Block-boundary work: pending loads, quality changes, resets (plans instantiated and warmed, nothing compiled). */
   private boundary(): void {
     const gf = this.globalFade;
+    let made = false, ready = true;
+    for (const s of this.slots) {
+      const had = s.warm !== null;
+      if (!this.prepare(s, !made)) ready = false;
+      if (!had && s.warm !== null) made = true;
+    }
     if (this.pendingFactor !== null || this.pendingReset) {
+      if (!ready) return;
       if (gf.value === 0 && !gf.moving) {
         this.rebuildAll();
         gf.to(1, this.xfadeSamples);
@@ -683,14 +785,14 @@ export class DualSlotEngine {
       return;
     }
     for (const s of this.slots) {
-      if ((s.pending && s.pendingPlan) || s.pendingClear) {
+      if ((s.pending && s.pendingPlan && s.warmed) || s.pendingClear) {
         if (s.fade.target !== 0) s.fade.to(0, this.audible(s) && s.model ? this.xfadeSamples : 0);
         if (s.fade.value === 0 && !s.fade.moving) {
           if (s.pendingClear) this.clear(s);
-          else if (s.pending && s.pendingPlan) {
-            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest;
-            s.pending = null; s.pendingPlan = null; s.pendingRequest = undefined;
-            this.build(s, d, plan, id);
+          else if (s.pending && s.pendingPlan && s.warm && s.warmDesign) {
+            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest, warmed = { model: s.warm, design: s.warmDesign };
+            s.setPending(null, null); s.pendingRequest = undefined;
+            this.build(s, d, plan, id, true, warmed);
           }
           s.fade.to(1, this.audible(s) ? this.xfadeSamples : 0);
         }

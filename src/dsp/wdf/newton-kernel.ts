@@ -18,12 +18,27 @@
 /** Whether `new Function` may be used here (false under a CSP without 'unsafe-eval'); tried once. */
 let codegenAllowed: boolean | null = null;
 
-/** Run `source` (a function body returning the kernel), or return null when code generation is forbidden. */
+const kernelCache = new Map<string, unknown>();
+/** Distinct kernel sources kept (a few per circuit shape); beyond it the cache starts over. */
+const KERNEL_CACHE_SIZE = 64;
+
+/**
+ * Run `source` (a function body returning the kernel), or return null when code generation is
+ * forbidden. Compiled once per distinct source: engines of the same shape (every reload, tube
+ * change or quality change of a design) share one function, so a new engine starts with code
+ * the JIT has already optimised instead of interpreting fresh code on the audio thread. The
+ * kernels hold no state (everything comes in through their arguments).
+ */
 export function generated<T>(source: string): T | null {
   if (codegenAllowed === false) return null;
+  // (after setCodegenAllowed(null) the first kernel probes again, cached or not)
+  const known = codegenAllowed === true ? kernelCache.get(source) : undefined;
+  if (known !== undefined) return known as T;
   try {
     const f = new Function(source)() as T;
     codegenAllowed = true;
+    if (kernelCache.size >= KERNEL_CACHE_SIZE) kernelCache.clear();
+    kernelCache.set(source, f);
     return f;
   } catch (e) {
     // EvalError: the page's Content Security Policy forbids code generation
