@@ -7,8 +7,13 @@ import { benchReport, parseBenchArgs } from '../src/cli/commands/bench.ts';
 const argv = process.argv.slice(2);
 const o = parseBenchArgs(argv);
 const bundled = !import.meta.url.endsWith('.ts');
-const command = bundled
-  ? `npx valvewright bench${argv.map((x) => ' ' + x).join('')}`
-  : `npx tsx bench/engine.bench.ts${argv.map((x) => ' ' + x).join('')}`;
-const report = benchReport(command, o.names, o.seconds, o.tubes, bundled ? 'esbuild bundle (as shipped)' : 'tsx loader', o.json ? undefined : (l) => console.log(l));
+const command = bundled ? `npx valvewright bench${argv.map((x) => ' ' + x).join('')}` : `npx tsx bench/engine.bench.ts${argv.map((x) => ' ' + x).join('')}`;
+const report = benchReport(
+  command,
+  o.names,
+  o.seconds,
+  o.tubes,
+  bundled ? 'esbuild bundle (as shipped)' : 'tsx loader',
+  o.json ? undefined : (l) => console.log(l),
+);
 if (o.json) console.log(JSON.stringify(report, null, 2));

@@ -49,15 +49,21 @@ async function measure(name: string): Promise<Row> {
   if (!pot) throw new Error(`${name} has no ${POT_ID} pot`);
   const e = new CircuitEngine(designCircuit(design), RATE_HZ);
   // the pot's two resistances at STEPS positions, computed before the measured loop
-  const upper = new Float64Array(STEPS), lower = new Float64Array(STEPS);
+  const upper = new Float64Array(STEPS),
+    lower = new Float64Array(STEPS);
   for (let s = 0; s < STEPS; s++) {
     const r = potResistors({ ...pot, position: 0.05 + (0.9 * s) / (STEPS - 1) });
-    upper[s] = r.upperOhms; lower[s] = r.lowerOhms;
+    upper[s] = r.upperOhms;
+    lower[s] = r.lowerOhms;
   }
-  const updates = [{ id: potUpperId(POT_ID), value: 0 }, { id: potLowerId(POT_ID), value: 0 }];
+  const updates = [
+    { id: potUpperId(POT_ID), value: 0 },
+    { id: potLowerId(POT_ID), value: 0 },
+  ];
   const run = (n: number) => {
     for (let k = 0; k < n; k++) {
-      const s = k % (2 * STEPS), at = s < STEPS ? s : 2 * STEPS - 1 - s;
+      const s = k % (2 * STEPS),
+        at = s < STEPS ? s : 2 * STEPS - 1 - s;
       updates[0]!.value = upper[at]!;
       updates[1]!.value = lower[at]!;
       e.setValues(updates);
@@ -65,7 +71,9 @@ async function measure(name: string): Promise<Row> {
   };
   run(3000); // warm-up: optimised code
   const entries: PerformanceEntry[] = [];
-  const observer = new PerformanceObserver((list) => { for (const en of list.getEntries()) entries.push(en); });
+  const observer = new PerformanceObserver((list) => {
+    for (const en of list.getEntries()) entries.push(en);
+  });
   observer.observe({ entryTypes: ['gc'] });
   collect();
   await sleep(20);
@@ -93,12 +101,18 @@ async function measure(name: string): Promise<Row> {
 
 const rows: Row[] = [];
 for (const name of Object.keys(TEMPLATES)) rows.push(await measure(name));
-console.log(JSON.stringify({
-  command: `npx tsx bench/glide-alloc.bench.ts${argv.map((x) => ' ' + x).join('')}`,
-  node: process.version,
-  sampleRateHz: RATE_HZ,
-  calls: CALLS,
-  update: `setValues([${potUpperId(POT_ID)}, ${potLowerId(POT_ID)}]) sweeping the pot over ${STEPS} positions`,
-  gcExposed: typeof gcFn === 'function',
-  results: rows,
-}, null, 2));
+console.log(
+  JSON.stringify(
+    {
+      command: `npx tsx bench/glide-alloc.bench.ts${argv.map((x) => ' ' + x).join('')}`,
+      node: process.version,
+      sampleRateHz: RATE_HZ,
+      calls: CALLS,
+      update: `setValues([${potUpperId(POT_ID)}, ${potLowerId(POT_ID)}]) sweeping the pot over ${STEPS} positions`,
+      gcExposed: typeof gcFn === 'function',
+      results: rows,
+    },
+    null,
+    2,
+  ),
+);

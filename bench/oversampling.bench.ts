@@ -122,7 +122,11 @@ for (const quality of QUALITIES) {
       quality,
       stages: os.stageDesigns.map((d) =>
         d.kind === 'iir'
-          ? { kind: 'iir-allpass', coefficients: d.path0Coefficients.length + d.path1Coefficients.length, designedAttenuationDb: round(d.predictedAttenuationDb, 2) }
+          ? {
+              kind: 'iir-allpass',
+              coefficients: d.path0Coefficients.length + d.path1Coefficients.length,
+              designedAttenuationDb: round(d.predictedAttenuationDb, 2),
+            }
           : { kind: 'fir-kaiser', taps: d.taps.length, designedAttenuationDb: round(d.predictedAttenuationDb, 2) },
       ),
       costNsPerBaseSampleUpDown: round(costNs(os), 1),

@@ -9,7 +9,7 @@ if (!isRoot) {
   console.error(`browser tests need ${CHROMIUM}: install it with "sudo apt-get install -y chromium"`);
   process.exit(process.env.CI ? 1 : 0);
 }
-console.error('installing Debian\'s chromium for the browser tests (apt-get) ...');
+console.error("installing Debian's chromium for the browser tests (apt-get) ...");
 try {
   execSync('apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium', { stdio: ['ignore', 'ignore', 'inherit'] });
 } catch {

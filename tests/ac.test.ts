@@ -15,8 +15,15 @@ const KOREN_12AX7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600
 
 describe('plain RC low-pass', () => {
   it('matches 1/(1 + j w R C) in magnitude and phase from 20 Hz to 20 kHz', () => {
-    const R = 10e3, C = 10e-9;
-    const n: Netlist = { schema: NETLIST_SCHEMA, ground: '0', input: { node: 'a', ohms: R }, output: { node: 'a' }, elements: [{ id: 'C1', kind: 'capacitor', nodes: ['a', '0'], farads: C }] };
+    const R = 10e3,
+      C = 10e-9;
+    const n: Netlist = {
+      schema: NETLIST_SCHEMA,
+      ground: '0',
+      input: { node: 'a', ohms: R },
+      output: { node: 'a' },
+      elements: [{ id: 'C1', kind: 'capacitor', nodes: ['a', '0'], farads: C }],
+    };
     const r = acAnalysis(n);
     r.frequenciesHz.forEach((f, i) => {
       const wrc = 2 * Math.PI * f * R * C;
@@ -27,8 +34,18 @@ describe('plain RC low-pass', () => {
     expect(r.frequenciesHz[r.frequenciesHz.length - 1]).toBeCloseTo(20000, 6);
   });
   it('RC high-pass: j w R C / (1 + j w R C)', () => {
-    const R = 100e3, C = 22e-9;
-    const n: Netlist = { schema: NETLIST_SCHEMA, ground: '0', input: { node: 'a', ohms: 0 }, output: { node: 'b' }, elements: [{ id: 'C1', kind: 'capacitor', nodes: ['a', 'b'], farads: C }, { id: 'R1', kind: 'resistor', nodes: ['b', '0'], ohms: R }] };
+    const R = 100e3,
+      C = 22e-9;
+    const n: Netlist = {
+      schema: NETLIST_SCHEMA,
+      ground: '0',
+      input: { node: 'a', ohms: 0 },
+      output: { node: 'b' },
+      elements: [
+        { id: 'C1', kind: 'capacitor', nodes: ['a', 'b'], farads: C },
+        { id: 'R1', kind: 'resistor', nodes: ['b', '0'], ohms: R },
+      ],
+    };
     const r = acAnalysis(n, { frequenciesHz: logFrequencies(20, 20000, 13) });
     r.frequenciesHz.forEach((f, i) => {
       const wrc = 2 * Math.PI * f * R * C;
@@ -42,7 +59,10 @@ describe('plain RC low-pass', () => {
 function stage(bypassFarads: number | null): Netlist {
   const tube: NetTriode = { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 };
   return {
-    schema: NETLIST_SCHEMA, ground: '0', input: { node: 'g', ohms: 1 }, output: { node: 'p' },
+    schema: NETLIST_SCHEMA,
+    ground: '0',
+    input: { node: 'g', ohms: 1 },
+    output: { node: 'p' },
     elements: [
       { id: 'B1', kind: 'dc-source', nodes: ['bp', '0'], volts: 330, ohms: 0 },
       { id: 'RP', kind: 'resistor', nodes: ['bp', 'p'], ohms: 100e3 },
@@ -65,8 +85,12 @@ describe('triode gain formulas against the Koren model', () => {
     expect(ss.gmSiemens * 1e3).toBeCloseTo(1.67, 2);
     expect(ss.plateOhms / 1e3).toBeCloseTo(53.7, 1);
     // the analytic derivatives agree with central differences of the plate current
-    const s = newSlopes(), h = 1e-5;
-    const ip = (vg: number, vp: number) => { korenTriode(KOREN_12AX7, vg, vp, 1, s); return s.amps; };
+    const s = newSlopes(),
+      h = 1e-5;
+    const ip = (vg: number, vp: number) => {
+      korenTriode(KOREN_12AX7, vg, vp, 1, s);
+      return s.amps;
+    };
     expect(ss.gmSiemens).toBeCloseTo((ip(-2 + h, 250) - ip(-2 - h, 250)) / (2 * h), 9);
     expect(ss.plateSiemens).toBeCloseTo((ip(-2, 250 + h) - ip(-2, 250 - h)) / (2 * h), 10);
   });
@@ -75,8 +99,16 @@ describe('triode gain formulas against the Koren model', () => {
       const n = stage(bypassed ? 10 : null);
       const op = new CircuitEngine(n, 48000).operatingPoint();
       const t = op.tubes.V1!;
-      const ss = tubeSmallSignal(n.elements.find((e): e is NetTriode => e.kind === 'triode')!, t.vgk, t.vpk, 0);
-      const Rac = 100e3, Rk = 1.5e3, mu = ss.mu, rp = ss.plateOhms;
+      const ss = tubeSmallSignal(
+        n.elements.find((e): e is NetTriode => e.kind === 'triode')!,
+        t.vgk,
+        t.vpk,
+        0,
+      );
+      const Rac = 100e3,
+        Rk = 1.5e3,
+        mu = ss.mu,
+        rp = ss.plateOhms;
       const formula = bypassed ? (mu * Rac) / (rp + Rac) : (mu * Rac) / (rp + Rac + (mu + 1) * Rk);
       const r = acAnalysis(n, { op, frequenciesHz: [1000] });
       const divider = 1e6 / (1e6 + 1); // 1 ohm source into the 1 M grid resistor
@@ -86,7 +118,10 @@ describe('triode gain formulas against the Koren model', () => {
       const e = new CircuitEngine(n, 96000);
       const dc = op.nodes.p!;
       let peak = 0;
-      for (let k = 0; k < 9600; k++) { const y = e.processSample(1e-3 * Math.sin((2 * Math.PI * 1000 * k) / 96000)); if (k > 4800) peak = Math.max(peak, Math.abs(y - dc)); }
+      for (let k = 0; k < 9600; k++) {
+        const y = e.processSample(1e-3 * Math.sin((2 * Math.PI * 1000 * k) / 96000));
+        if (k > 4800) peak = Math.max(peak, Math.abs(y - dc));
+      }
       expect(peak / 1e-3 / formula).toBeCloseTo(1, 1);
       expect(Math.abs(peak / 1e-3 / formula - 1)).toBeLessThan(0.01);
     });
@@ -101,12 +136,19 @@ describe('tone network', () => {
     expect([...t.partIds].sort()).toEqual(['C5', 'C6', 'R8', 'TONE', 'VOL', 'load'].sort());
     // alone (from a source of Rs at p2) it equals the ladder worked by hand with complex impedances (circuit theory)
     const parts = TRIODE_INTO_TRIODE.parts;
-    const val = (id: string) => { const p = parts.find((q) => q.id === id)!; return p.kind === 'resistor' ? p.ohms : p.kind === 'capacitor' ? p.farads : NaN; };
-    const tone = potResistors(parts.find((p) => p.id === 'TONE') as PotPart), vol = potResistors(parts.find((p) => p.id === 'VOL') as PotPart);
+    const val = (id: string) => {
+      const p = parts.find((q) => q.id === id)!;
+      return p.kind === 'resistor' ? p.ohms : p.kind === 'capacitor' ? p.farads : NaN;
+    };
+    const tone = potResistors(parts.find((p) => p.id === 'TONE') as PotPart),
+      vol = potResistors(parts.find((p) => p.id === 'VOL') as PotPart);
     type Z = [number, number];
     const add = (a: Z, b: Z): Z => [a[0] + b[0], a[1] + b[1]];
     const mul = (a: Z, b: Z): Z => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
-    const div = (a: Z, b: Z): Z => { const d = b[0] ** 2 + b[1] ** 2; return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d]; };
+    const div = (a: Z, b: Z): Z => {
+      const d = b[0] ** 2 + b[1] ** 2;
+      return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
+    };
     const par = (a: Z, b: Z): Z => div(mul(a, b), add(a, b));
     for (const sourceOhms of [0, 38e3]) {
       const r = toneNetworkAc(c, t, { sourceOhms });

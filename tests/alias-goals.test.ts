@@ -15,7 +15,8 @@ import { BEST_OVERSAMPLING_FACTOR, OversampledCircuit } from '../src/dsp/render/
 import { DEFAULT_LIVE_FACTOR } from '../src/dsp/realtime/dual-slot-engine.ts';
 import { aliasFreeTestFrequency, measureAliasing } from '../src/dsp/analysis/aliasing.ts';
 
-const fs = 48000, n = 16384;
+const fs = 48000,
+  n = 16384;
 
 describe('measureAliasing against Parseval', () => {
   it.each([-40, -60, -80])('harmonics plus a non-harmonic tone at %d dB read as that level within 0.5 dB', (db) => {
@@ -28,7 +29,9 @@ describe('measureAliasing against Parseval', () => {
     const x = new Float64Array(n);
     for (let k = 0; k < n; k++) {
       let v = strayAmp * Math.sin((2 * Math.PI * stray * k) / fs);
-      amps.forEach((a, h) => { v += a * Math.sin((2 * Math.PI * (h + 1) * f0 * k) / fs + h); });
+      amps.forEach((a, h) => {
+        v += a * Math.sin((2 * Math.PI * (h + 1) * f0 * k) / fs + h);
+      });
       x[k] = v;
     }
     // expected: stray power against the total (harmonics + stray)
@@ -42,17 +45,26 @@ describe('alias goals on the EF86 into 12AX7 netlist, 1 V peak', () => {
   const aliasDb = (factor: typeof DEFAULT_LIVE_FACTOR, target: number): number => {
     const f0 = aliasFreeTestFrequency(target, fs, n);
     const m = new OversampledCircuit(netlist, fs, factor);
-    const settle = 4800, y = new Float64Array(n);
+    const settle = 4800,
+      y = new Float64Array(n);
     for (let k = 0; k < settle + n; k++) {
       const o = m.processSample(Math.sin((2 * Math.PI * f0 * k) / fs));
       if (k >= settle) y[k - settle] = o;
     }
     return measureAliasing(y, fs, f0).aliasDb;
   };
-  it.each([1000, 2500])(`live default (${DEFAULT_LIVE_FACTOR}x), near %d Hz: at least 50 dB down`, (target) => {
-    expect(aliasDb(DEFAULT_LIVE_FACTOR, target)).toBeLessThan(-50);
-  }, 60000);
-  it.each([1000, 2500])(`best quality (${BEST_OVERSAMPLING_FACTOR}x), near %d Hz: at least 70 dB down`, (target) => {
-    expect(aliasDb(BEST_OVERSAMPLING_FACTOR, target)).toBeLessThan(-70);
-  }, 120000);
+  it.each([1000, 2500])(
+    `live default (${DEFAULT_LIVE_FACTOR}x), near %d Hz: at least 50 dB down`,
+    (target) => {
+      expect(aliasDb(DEFAULT_LIVE_FACTOR, target)).toBeLessThan(-50);
+    },
+    60000,
+  );
+  it.each([1000, 2500])(
+    `best quality (${BEST_OVERSAMPLING_FACTOR}x), near %d Hz: at least 70 dB down`,
+    (target) => {
+      expect(aliasDb(BEST_OVERSAMPLING_FACTOR, target)).toBeLessThan(-70);
+    },
+    120000,
+  );
 });

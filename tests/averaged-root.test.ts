@@ -55,7 +55,8 @@ function bruteMean(p0: Float64Array, p1: Float64Array, start: Float64Array, poin
 describe('RootAverager: the mean of the root solution map over a step', () => {
   // a step from cut-off (grid -5 V) into grid conduction (+3 V), plate supply 250 V: the
   // currents have both knees inside the step
-  const p0 = Float64Array.of(-5, 250), p1 = Float64Array.of(3, 250);
+  const p0 = Float64Array.of(-5, 250),
+    p1 = Float64Array.of(3, 250);
   const s0 = solveAt(p0, Float64Array.of(-5, 250));
   const s1 = solveAt(p1, s0.v);
   const reference = bruteMean(p0, p1, s0.v, 4000);
@@ -80,9 +81,13 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
 
   it('a smooth step needs no interior solve and equals the end-corrected trapezoid', () => {
     const av = new RootAverager([new TriodeDevice(AX7, DZ_12AX7_GRID)], F);
-    const ps = [Float64Array.of(-1.50, 250), Float64Array.of(-1.49, 250), Float64Array.of(-1.48, 250)];
+    const ps = [Float64Array.of(-1.5, 250), Float64Array.of(-1.49, 250), Float64Array.of(-1.48, 250)];
     let guess: Float64Array<ArrayBuffer> = Float64Array.of(-1.5, 200);
-    const sols = ps.map((p) => { const s = solveAt(p, guess); guess = s.v; return s; });
+    const sols = ps.map((p) => {
+      const s = solveAt(p, guess);
+      guess = s.v;
+      return s;
+    });
     sols.forEach((s, k) => av.step(ps[k]!, s.v, s.i));
     expect(av.interiorSolves[0]).toBe(0);
     const ref = bruteMean(ps[1]!, ps[2]!, sols[1]!.v, 200);
@@ -91,7 +96,9 @@ describe('RootAverager: the mean of the root solution map over a step', () => {
 });
 
 describe('the averaged engine against the plain discretisation', () => {
-  const fs = 48000, n = 16384, settle = 9600;
+  const fs = 48000,
+    n = 16384,
+    settle = 9600;
   const alias = (factor: 2 | 4, antialiasing: 'averaged' | 'off', target: number) => {
     const f0 = aliasFreeTestFrequency(target, fs, n);
     const m = new OversampledCircuit(designCircuit(TEMPLATES['pentode-triode']!), fs, factor, undefined, { antialiasing });
@@ -103,27 +110,40 @@ describe('the averaged engine against the plain discretisation', () => {
     return measureAliasing(y, fs, f0).aliasDb;
   };
 
-  it.each([1000, 2500])('pentode-triode, 1 V peak near %d Hz at 2x: aliases at least 15 dB lower than plain', (target) => {
-    const plain = alias(2, 'off', target), averaged = alias(2, 'averaged', target);
-    expect(averaged).toBeLessThan(plain - 15);
-  }, 60000);
+  it.each([1000, 2500])(
+    'pentode-triode, 1 V peak near %d Hz at 2x: aliases at least 15 dB lower than plain',
+    (target) => {
+      const plain = alias(2, 'off', target),
+        averaged = alias(2, 'averaged', target);
+      expect(averaged).toBeLessThan(plain - 15);
+    },
+    60000,
+  );
 
-  it.each(['pentode-triode', 'triode-triode', 'single-pentode'])('%s (as a netlist) at 1x and 4x: back at the operating point after a hard burst', (name) => {
-    for (const factor of [1, 4]) {
-      const fsx = fs * factor;
-      const netlist = designToNetlist(TEMPLATES[name]!);
-      const e = new CircuitEngine(netlist, fsx);
-      const dc = e.operatingPoint().nodes[netlist.output.node]!;
-      let peak = 0;
-      const burst = Math.round(0.05 * fsx), rest = Math.round(0.6 * fsx);
-      for (let k = 0; k < burst; k++) peak = Math.max(peak, Math.abs(e.processSample(3 * Math.sin((2 * Math.PI * 440 * k) / fsx)) - dc));
-      let tail = 0;
-      for (let k = 0; k < rest; k++) { const d = Math.abs(e.processSample(0) - dc); if (k > rest - Math.round(0.05 * fsx)) tail = Math.max(tail, d); }
-      expect(peak).toBeGreaterThan(1); // it was driven
-      expect(tail).toBeLessThan(1e-3 * peak + 1e-3);
-      expect(e.solverStats.failures).toBe(0);
-    }
-  }, 60000);
+  it.each(['pentode-triode', 'triode-triode', 'single-pentode'])(
+    '%s (as a netlist) at 1x and 4x: back at the operating point after a hard burst',
+    (name) => {
+      for (const factor of [1, 4]) {
+        const fsx = fs * factor;
+        const netlist = designToNetlist(TEMPLATES[name]!);
+        const e = new CircuitEngine(netlist, fsx);
+        const dc = e.operatingPoint().nodes[netlist.output.node]!;
+        let peak = 0;
+        const burst = Math.round(0.05 * fsx),
+          rest = Math.round(0.6 * fsx);
+        for (let k = 0; k < burst; k++) peak = Math.max(peak, Math.abs(e.processSample(3 * Math.sin((2 * Math.PI * 440 * k) / fsx)) - dc));
+        let tail = 0;
+        for (let k = 0; k < rest; k++) {
+          const d = Math.abs(e.processSample(0) - dc);
+          if (k > rest - Math.round(0.05 * fsx)) tail = Math.max(tail, d);
+        }
+        expect(peak).toBeGreaterThan(1); // it was driven
+        expect(tail).toBeLessThan(1e-3 * peak + 1e-3);
+        expect(e.solverStats.failures).toBe(0);
+      }
+    },
+    60000,
+  );
 
   // The template and randomised variants (every resistor and capacitor scaled by a seeded factor
   // in [1/3, 3]; without STIFF_BELOW_FARADS the triode-triode template as a netlist fails here):
@@ -132,36 +152,54 @@ describe('the averaged engine against the plain discretisation', () => {
   // averaged one must settle as smoothly, not ring at Nyquist on top: its tail's largest second
   // difference at most 1.5 times the plain one's. (Tails compared over 12 variants per template,
   // designs and netlists, 1x and 4x: 0 of 144 differed.)
-  it.each(['pentode-triode', 'triode-triode', 'single-pentode'])('%s, the template and 2 seeded variants (1x, 4x, and as a netlist at 1x): after a burst the averaged engine settles as smoothly as the plain one', (name) => {
-    const rnd = makeRandom(20261202);
-    for (let trial = 0; trial < 3; trial++) {
-      const d0 = TEMPLATES[name]!;
-      const d = { ...d0, parts: d0.parts.map((p) => {
-        const f = trial === 0 ? 1 : Math.exp((rnd() * 2 - 1) * Math.log(3)); // variant 0: the template itself
-        return p.kind === 'resistor' ? { ...p, ohms: p.ohms * f } : p.kind === 'capacitor' ? { ...p, farads: p.farads * f } : p;
-      }) } as Design;
-      for (const [factor, c] of [[1, designCircuit(d)], [4, designCircuit(d)], [1, designToNetlist(d)]] as const) {
-        const fsx = fs * factor;
-        // tail roughness: the largest second difference over the last 50 ms (a slow recovery
-        // is smooth; a ringing Nyquist mode is not)
-        const rough = (['averaged', 'off'] as const).map((antialiasing) => {
-          const e = new CircuitEngine(c, fsx, { antialiasing });
-          const burst = Math.round(0.04 * fsx), rest = Math.round(0.3 * fsx), from = rest - Math.round(0.05 * fsx);
-          for (let k = 0; k < burst; k++) e.processSample(3 * Math.sin((2 * Math.PI * 440 * k) / fsx));
-          let y1 = 0, y2 = 0, worst = 0;
-          for (let k = 0; k < rest; k++) {
-            const y = e.processSample(0);
-            expect(Number.isFinite(y)).toBe(true);
-            if (k >= from + 2) worst = Math.max(worst, Math.abs(y - 2 * y1 + y2));
-            y2 = y1; y1 = y;
-          }
-          expect(e.solverStats.failures).toBe(0);
-          return worst;
-        });
-        // measured: equal to within 0.3 % on all 27 runs (a Nyquist ring would be orders larger:
-        // 2 V at the output before BDF2 on the stiff capacitors)
-        expect(rough[0]!, `${name} variant ${trial} at ${factor}x${'schema' in c ? ' (netlist)' : ''}: second difference`).toBeLessThan(1.5 * rough[1]! + 1e-12);
+  it.each(['pentode-triode', 'triode-triode', 'single-pentode'])(
+    '%s, the template and 2 seeded variants (1x, 4x, and as a netlist at 1x): after a burst the averaged engine settles as smoothly as the plain one',
+    (name) => {
+      const rnd = makeRandom(20261202);
+      for (let trial = 0; trial < 3; trial++) {
+        const d0 = TEMPLATES[name]!;
+        const d = {
+          ...d0,
+          parts: d0.parts.map((p) => {
+            const f = trial === 0 ? 1 : Math.exp((rnd() * 2 - 1) * Math.log(3)); // variant 0: the template itself
+            return p.kind === 'resistor' ? { ...p, ohms: p.ohms * f } : p.kind === 'capacitor' ? { ...p, farads: p.farads * f } : p;
+          }),
+        } as Design;
+        for (const [factor, c] of [
+          [1, designCircuit(d)],
+          [4, designCircuit(d)],
+          [1, designToNetlist(d)],
+        ] as const) {
+          const fsx = fs * factor;
+          // tail roughness: the largest second difference over the last 50 ms (a slow recovery
+          // is smooth; a ringing Nyquist mode is not)
+          const rough = (['averaged', 'off'] as const).map((antialiasing) => {
+            const e = new CircuitEngine(c, fsx, { antialiasing });
+            const burst = Math.round(0.04 * fsx),
+              rest = Math.round(0.3 * fsx),
+              from = rest - Math.round(0.05 * fsx);
+            for (let k = 0; k < burst; k++) e.processSample(3 * Math.sin((2 * Math.PI * 440 * k) / fsx));
+            let y1 = 0,
+              y2 = 0,
+              worst = 0;
+            for (let k = 0; k < rest; k++) {
+              const y = e.processSample(0);
+              expect(Number.isFinite(y)).toBe(true);
+              if (k >= from + 2) worst = Math.max(worst, Math.abs(y - 2 * y1 + y2));
+              y2 = y1;
+              y1 = y;
+            }
+            expect(e.solverStats.failures).toBe(0);
+            return worst;
+          });
+          // measured: equal to within 0.3 % on all 27 runs (a Nyquist ring would be orders larger:
+          // 2 V at the output before BDF2 on the stiff capacitors)
+          expect(rough[0]!, `${name} variant ${trial} at ${factor}x${'schema' in c ? ' (netlist)' : ''}: second difference`).toBeLessThan(
+            1.5 * rough[1]! + 1e-12,
+          );
+        }
       }
-    }
-  }, 120000);
+    },
+    120000,
+  );
 });

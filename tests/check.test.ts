@@ -58,7 +58,12 @@ describe('designed-in wiring faults (common practice)', () => {
     expect(serious(f)).toEqual([]);
   });
   it('a floating node between two series capacitors', () => {
-    const d = edit(cleanStage(), { add: [{ id: 'C8', kind: 'capacitor', nodes: ['out', 'mid'], farads: 1e-9 }, { id: 'C9', kind: 'capacitor', nodes: ['mid', '0'], farads: 1e-9 }] });
+    const d = edit(cleanStage(), {
+      add: [
+        { id: 'C8', kind: 'capacitor', nodes: ['out', 'mid'], farads: 1e-9 },
+        { id: 'C9', kind: 'capacitor', nodes: ['mid', '0'], farads: 1e-9 },
+      ],
+    });
     const f = find(d, 'node-floats');
     expect(f.map((x) => x.nodes[0])).toEqual(['mid']);
     expect([...f[0]!.parts].sort()).toEqual(['C8', 'C9']);
@@ -70,13 +75,19 @@ describe('designed-in wiring faults (common practice)', () => {
     expect(f[0]!.nodes).toEqual(['s1']);
   });
   it('input wired to the plate instead of the grid', () => {
-    const d = edit(cleanStage(), { replace: [{ id: 'C2', kind: 'capacitor', nodes: ['in', 'p1'], farads: 22e-9 }], add: [{ id: 'R9', kind: 'resistor', nodes: ['g1', '0'], ohms: 1e6 }] });
+    const d = edit(cleanStage(), {
+      replace: [{ id: 'C2', kind: 'capacitor', nodes: ['in', 'p1'], farads: 22e-9 }],
+      add: [{ id: 'R9', kind: 'resistor', nodes: ['g1', '0'], ohms: 1e6 }],
+    });
     const all = checkWiring(validateDesign(d, { wiring: false }));
     expect(codes(all)).toContain('input-on-plate');
     expect(codes(all)).toContain('input-reaches-no-grid');
   });
   it('input wired to a screen', () => {
-    const d = edit(pentodeStage(), { replace: [{ id: 'C2', kind: 'capacitor', nodes: ['in', 's1'], farads: 22e-9 }], add: [{ id: 'R9', kind: 'resistor', nodes: ['g1', '0'], ohms: 1e6 }] });
+    const d = edit(pentodeStage(), {
+      replace: [{ id: 'C2', kind: 'capacitor', nodes: ['in', 's1'], farads: 22e-9 }],
+      add: [{ id: 'R9', kind: 'resistor', nodes: ['g1', '0'], ohms: 1e6 }],
+    });
     expect(codes(checkWiring(validateDesign(d, { wiring: false })))).toContain('input-on-screen');
   });
   it('B+ reaching a control grid through a small resistance', () => {
@@ -96,7 +107,9 @@ describe('designed-in wiring faults (common practice)', () => {
     expect(f).toHaveLength(1);
     expect(f[0]!.parts).toEqual(['C3']);
     // the same capacitor the right way round is fine
-    expect(checkWiring(cleanStage(), { warmNodes: new CircuitEngine(designCircuit(cleanStage()), 48000).operatingPoint().nodes }).map((x) => x.code)).not.toContain('capacitor-reversed');
+    expect(
+      checkWiring(cleanStage(), { warmNodes: new CircuitEngine(designCircuit(cleanStage()), 48000).operatingPoint().nodes }).map((x) => x.code),
+    ).not.toContain('capacitor-reversed');
   });
   it('a misspelt node (one terminal only)', () => {
     const d = edit(cleanStage(), { replace: [{ id: 'R3', kind: 'resistor', nodes: ['b1', 'pl'], ohms: 1e5 }] });

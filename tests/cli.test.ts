@@ -15,34 +15,41 @@ const dir = mkdtempSync(join(tmpdir(), 'vw-cli-'));
 const fixture = new URL('./fixtures/netlists/ef86-12ax7-direct-coupled.json', import.meta.url).pathname;
 
 async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  const out: string[] = [], err: string[] = [];
+  const out: string[] = [],
+    err: string[] = [];
   const code = await main(argv, { out: (l) => out.push(l), err: (l) => err.push(l) });
   return { code, out: out.join('\n'), err: err.join('\n') };
 }
 
 function tone(fs: number, seconds: number, amp: number, hz = 196): Float32Array {
   const x = new Float32Array(Math.round(fs * seconds));
-  for (let k = 0; k < x.length; k++) x[k] = amp * Math.sin((2 * Math.PI * hz * k) / fs) * Math.exp(-3 * k / fs);
+  for (let k = 0; k < x.length; k++) x[k] = amp * Math.sin((2 * Math.PI * hz * k) / fs) * Math.exp((-3 * k) / fs);
   return x;
 }
 
 describe('render', () => {
   it('--raw gives the plain circuit: matches the independent nodal reference within -60 dB', async () => {
     const x = tone(48000, 0.1, 0.8);
-    const inPath = join(dir, 'in-raw.wav'), outPath = join(dir, 'out-raw.wav');
+    const inPath = join(dir, 'in-raw.wav'),
+      outPath = join(dir, 'out-raw.wav');
     writeFileSync(inPath, encodeWav([x], 48000, { bitDepth: 32, float: true }));
     const r = await run('render', '--netlist', fixture, '--input', inPath, '--output', outPath, '--raw');
     expect(r.code, r.err).toBe(0);
     const y = decodeWav(readFileSync(outPath)).channels[0]!;
     const ref = simulateNetlist(JSON.parse(readFileSync(fixture, 'utf8')), Float64Array.from(x), 48000).output;
-    let es = 0, ee = 0;
-    for (let k = 0; k < ref.length; k++) { es += (ref[k]! - ref[0]!) ** 2; ee += (y[k]! - ref[k]!) ** 2; }
+    let es = 0,
+      ee = 0;
+    for (let k = 0; k < ref.length; k++) {
+      es += (ref[k]! - ref[0]!) ** 2;
+      ee += (y[k]! - ref[k]!) ** 2;
+    }
     expect(10 * Math.log10(ee / es)).toBeLessThan(-60);
   });
 
   it('default render: oversampled, levelled, under the -1 dBFS limiter, same length and rate; stereo is mixed with a notice', async () => {
     const x = tone(44100, 0.3, 0.9);
-    const inPath = join(dir, 'in-st.wav'), outPath = join(dir, 'out-st.wav');
+    const inPath = join(dir, 'in-st.wav'),
+      outPath = join(dir, 'out-st.wav');
     writeFileSync(inPath, encodeWav([x, x], 44100, { bitDepth: 16 }));
     const r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', outPath, '--oversample', '2');
     expect(r.code, r.err).toBe(0);
@@ -57,7 +64,8 @@ describe('render', () => {
 
   it('24-bit input is read', async () => {
     const x = tone(48000, 0.05, 0.5);
-    const inPath = join(dir, 'in24.wav'), outPath = join(dir, 'out24.wav');
+    const inPath = join(dir, 'in24.wav'),
+      outPath = join(dir, 'out24.wav');
     writeFileSync(inPath, encodeWav([x], 48000, { bitDepth: 24 }));
     expect((await run('render', '--design', 'single-pentode', '--input', inPath, '--output', outPath, '--oversample', '1')).code).toBe(0);
   });
@@ -65,12 +73,31 @@ describe('render', () => {
   const bad: [string, (b: Uint8Array) => Uint8Array, RegExp][] = [
     ['truncated data', (b) => b.slice(0, b.length - 100), /missing|truncat/i],
     ['not a WAV', () => new TextEncoder().encode('hello, this is not audio at all, not even close........'), /RIFF|WAVE/],
-    ['0 channels', (b) => { const c = b.slice(); c[22] = 0; c[23] = 0; return c; }, /channel/i],
-    ['compressed format code', (b) => { const c = b.slice(); c[20] = 2; c[21] = 0; return c; }, /0x0002|ADPCM|format/i],
+    [
+      '0 channels',
+      (b) => {
+        const c = b.slice();
+        c[22] = 0;
+        c[23] = 0;
+        return c;
+      },
+      /channel/i,
+    ],
+    [
+      'compressed format code',
+      (b) => {
+        const c = b.slice();
+        c[20] = 2;
+        c[21] = 0;
+        return c;
+      },
+      /0x0002|ADPCM|format/i,
+    ],
   ];
   it.each(bad)('a malformed WAV (%s) gets one clear line, a non-zero exit and no output file', async (name, mangle, msg) => {
     const good = encodeWav([tone(48000, 0.05, 0.5)], 48000, { bitDepth: 16 });
-    const inPath = join(dir, `bad-${name.replace(/\W/g, '')}.wav`), outPath = join(dir, `bad-out-${name.replace(/\W/g, '')}.wav`);
+    const inPath = join(dir, `bad-${name.replace(/\W/g, '')}.wav`),
+      outPath = join(dir, `bad-out-${name.replace(/\W/g, '')}.wav`);
     writeFileSync(inPath, mangle(good));
     const r = await run('render', '--design', 'pentode-triode', '--input', inPath, '--output', outPath);
     expect(r.code).not.toBe(0);
@@ -154,7 +181,9 @@ describe('op and netlist', () => {
     expect(parseNetlist(r.out)).toEqual(parseNetlist(designToNetlist(TEMPLATES['single-pentode']!)));
   });
   it('the installed bin runs (npx valvewright)', () => {
-    const p = spawnSync(process.execPath, [new URL('../bin/valvewright.mjs', import.meta.url).pathname, 'op', '--design', 'triode-triode', '--json'], { encoding: 'utf8' });
+    const p = spawnSync(process.execPath, [new URL('../bin/valvewright.mjs', import.meta.url).pathname, 'op', '--design', 'triode-triode', '--json'], {
+      encoding: 'utf8',
+    });
     expect(p.status, p.stderr).toBe(0);
     expect(Object.keys(JSON.parse(p.stdout).tubes)).toEqual(['V1', 'V2']);
   });

@@ -10,8 +10,12 @@ import { main } from '../src/cli/main.ts';
 const withSupply: Design = {
   ...TRIODE_INTO_TRIODE,
   powerSupply: {
-    secondary: { rmsVolts: 230, ratedAmps: 0.05 }, rectifier: { topology: 'bridge', diode: 'silicon' }, mainsHertz: 50,
-    reservoirFarads: 47e-6, stages: [{ droppingOhms: 1000, farads: 47e-6 }], heaterWinding: { volts: 6.3, amps: 1 },
+    secondary: { rmsVolts: 230, ratedAmps: 0.05 },
+    rectifier: { topology: 'bridge', diode: 'silicon' },
+    mainsHertz: 50,
+    reservoirFarads: 47e-6,
+    stages: [{ droppingOhms: 1000, farads: 47e-6 }],
+    heaterWinding: { volts: 6.3, amps: 1 },
   },
 };
 
@@ -33,11 +37,16 @@ describe('design supply', () => {
     const hum = new BPlusHum(s, fs);
     const e = new CircuitEngine(designCircuit(s.design), fs);
     e.setProbes([s.design.supply.node]);
-    let lo = Infinity, hi = -Infinity;
+    let lo = Infinity,
+      hi = -Infinity;
     for (let k = 0; k < fs; k++) {
       e.setSourceVolts(hum.sourceId, hum.next());
       e.processSample(0);
-      if (k > fs / 2) { const v = e.probeValues[0]!; lo = Math.min(lo, v); hi = Math.max(hi, v); }
+      if (k > fs / 2) {
+        const v = e.probeValues[0]!;
+        lo = Math.min(lo, v);
+        hi = Math.max(hi, v);
+      }
     }
     expect((hi - lo) / s.ripplePeakToPeakVolts).toBeCloseTo(1, 1);
   });
@@ -45,7 +54,10 @@ describe('design supply', () => {
     const out: string[] = [];
     const rc = await main(['check', '--design', 'triode-triode', '--json', '--max-input-volts', '1'], { out: (l) => out.push(l), err: () => {} });
     expect(rc).toBe(0);
-    const j = JSON.parse(out.join('\n')) as { findings: { severity: string; code: string; parts: string[]; message: string }[]; ratings: { capacitors: unknown[] } };
+    const j = JSON.parse(out.join('\n')) as {
+      findings: { severity: string; code: string; parts: string[]; message: string }[];
+      ratings: { capacitors: unknown[] };
+    };
     // the grid-leak template always has its grid-leak note: the loop below must have something to check
     expect(j.findings.length).toBeGreaterThan(0);
     for (const f of j.findings) expect(Object.keys(f)).toEqual(expect.arrayContaining(['severity', 'code', 'parts', 'message']));

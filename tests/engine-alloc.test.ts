@@ -33,7 +33,10 @@ function template(name: string): EngineCircuit {
 function withValues(c: EngineCircuit, values: ReadonlyMap<string, number>, switches: ReadonlyMap<string, boolean> = new Map()): EngineCircuit {
   const elements = c.elements.map((e): EngineElement => {
     const v = values.get(e.id);
-    if (e.kind === 'switch') { const closed = switches.get(e.id); return closed === undefined ? e : { ...e, closed }; }
+    if (e.kind === 'switch') {
+      const closed = switches.get(e.id);
+      return closed === undefined ? e : { ...e, closed };
+    }
     if (v === undefined) return e;
     if (e.kind === 'resistor') return { ...e, ohms: v };
     if (e.kind === 'capacitor') return { ...e, farads: v };
@@ -46,10 +49,15 @@ function withValues(c: EngineCircuit, values: ReadonlyMap<string, number>, switc
 function expectSameMatrices(a: RootMatrices, b: RootMatrices): void {
   expect([a.nodeCount, a.nu, a.m]).toEqual([b.nodeCount, b.nu, b.m]);
   for (const key of ['E', 'F', 'Pu', 'Pi', 'Zu', 'Zi'] as const) {
-    const x = a[key], y = b[key];
+    const x = a[key],
+      y = b[key];
     expect(x.length).toBe(y.length);
-    let scale = 0, err = 0;
-    for (let i = 0; i < y.length; i++) { scale = Math.max(scale, Math.abs(y[i]!)); err = Math.max(err, Math.abs(x[i]! - y[i]!)); }
+    let scale = 0,
+      err = 0;
+    for (let i = 0; i < y.length; i++) {
+      scale = Math.max(scale, Math.abs(y[i]!));
+      err = Math.max(err, Math.abs(x[i]! - y[i]!));
+    }
     expect(err, key).toBeLessThanOrEqual(1e-12 * scale);
   }
 }
@@ -62,17 +70,28 @@ describe('LinearNetworkCompiler reused for new values', () => {
   it('matches the voltage-divider formulas after every value change', () => {
     const compiler = new LinearNetworkCompiler({
       nodeCount: 2,
-      conductances: [{ a: 0, b: 1 }, { a: 1, b: -1 }],
+      conductances: [
+        { a: 0, b: 1 },
+        { a: 1, b: -1 },
+      ],
       wavePorts: [{ a: 0, b: -1 }],
       idealPorts: [true],
       nonlinearPorts: [{ a: 1, b: -1 }],
       gminSiemens: GMIN_SIEMENS,
     });
     const out = compiler.createMatrices();
-    const E = out.E, F = out.F;
-    const siemens = new Float64Array(2), ohms = new Float64Array([0]);
-    for (const [r1, r2] of [[10e3, 10e3], [1e3, 1e6], [470e3, 2.2e3], [100, 100e3]] as const) {
-      siemens[0] = 1 / r1; siemens[1] = 1 / r2;
+    const E = out.E,
+      F = out.F;
+    const siemens = new Float64Array(2),
+      ohms = new Float64Array([0]);
+    for (const [r1, r2] of [
+      [10e3, 10e3],
+      [1e3, 1e6],
+      [470e3, 2.2e3],
+      [100, 100e3],
+    ] as const) {
+      siemens[0] = 1 / r1;
+      siemens[1] = 1 / r2;
       compiler.compile(siemens, ohms, out);
       const g = 1 / r1 + 1 / r2 + GMIN_SIEMENS;
       expect(out.E).toBe(E); // written in place
@@ -86,7 +105,12 @@ describe('LinearNetworkCompiler reused for new values', () => {
 
   it('refuses to turn a resistive port into an ideal source at run time', () => {
     const compiler = new LinearNetworkCompiler({
-      nodeCount: 1, conductances: [], wavePorts: [{ a: 0, b: -1 }], idealPorts: [false], nonlinearPorts: [], gminSiemens: GMIN_SIEMENS,
+      nodeCount: 1,
+      conductances: [],
+      wavePorts: [{ a: 0, b: -1 }],
+      idealPorts: [false],
+      nonlinearPorts: [],
+      gminSiemens: GMIN_SIEMENS,
     });
     const out = compiler.createMatrices();
     compiler.compile(new Float64Array(0), new Float64Array([1e3]), out);
@@ -107,8 +131,11 @@ describe('a glided engine equals a fresh engine with the final values', () => {
       const circuit = template(c.name);
       const e = new CircuitEngine(circuit, RATE_HZ);
       const matrices = e.linearMatrices;
-      const up = { id: 'R3', value: 0 }, cap = { id: c.cap, value: 0 }, pu = { id: potUpperId(c.pot), value: 0 };
-      const pl = { id: potLowerId(c.pot), value: 0 }, bp = { id: SUPPLY_ID, value: 0 };
+      const up = { id: 'R3', value: 0 },
+        cap = { id: c.cap, value: 0 },
+        pu = { id: potUpperId(c.pot), value: 0 };
+      const pl = { id: potLowerId(c.pot), value: 0 },
+        bp = { id: SUPPLY_ID, value: 0 };
       const hasLower = circuit.elements.some((x) => x.id === pl.id);
       const updates = hasLower ? [up, cap, pu, pl] : [up, cap, pu];
       const values = new Map<string, number>();
@@ -121,7 +148,10 @@ describe('a glided engine equals a fresh engine with the final values', () => {
         pu.value = 1e3 + 300e3 * f;
         pl.value = 200e3 - 150e3 * f;
         e.setValues(updates);
-        if (k % 10 === 0) { bp.value = 300 - k; e.setValues([bp]); }
+        if (k % 10 === 0) {
+          bp.value = 300 - k;
+          e.setValues([bp]);
+        }
         if (c.sw !== undefined && k % 7 === 0) {
           // closed, open, ..., closed at k = 35 (with S1 open the engine finds no DC operating
           // point: the cathode has no DC path, so a fresh engine cannot be built open)
@@ -136,7 +166,8 @@ describe('a glided engine equals a fresh engine with the final values', () => {
       expect(e.linearMatrices).toBe(matrices); // the kernels read these arrays in place
       expectSameMatrices(e.linearMatrices, fresh.linearMatrices);
 
-      const opA = e.operatingPoint(), opB = fresh.operatingPoint();
+      const opA = e.operatingPoint(),
+        opB = fresh.operatingPoint();
       for (const [node, volts] of Object.entries(opB.nodes)) expect(Math.abs(opA.nodes[node]! - volts), node).toBeLessThan(1e-9 * Math.max(1, Math.abs(volts)));
 
       // Same state (both at the operating point), same input: same output. The Newton solver
@@ -146,10 +177,12 @@ describe('a glided engine equals a fresh engine with the final values', () => {
       // coupling capacitors' states, so allow 1e-4 V on an output of volts.
       e.resetToOperatingPoint();
       fresh.resetToOperatingPoint();
-      let maxDiff = 0, peak = 0;
+      let maxDiff = 0,
+        peak = 0;
       for (let n = 0; n < 4000; n++) {
         const vin = 1.5 * Math.sin((2 * Math.PI * 440 * n) / RATE_HZ);
-        const a = e.processSample(vin), b = fresh.processSample(vin);
+        const a = e.processSample(vin),
+          b = fresh.processSample(vin);
         maxDiff = Math.max(maxDiff, Math.abs(a - b));
         peak = Math.max(peak, Math.abs(b - opB.nodes[fresh.outputNodeName]!));
       }
@@ -175,7 +208,9 @@ async function inChild<T>(imports: string, body: string): Promise<T> {
   const dir = mkdtempSync(join(tmpdir(), 'vw-alloc-'));
   try {
     const entry = join(dir, 'entry.ts');
-    writeFileSync(entry, `${imports}
+    writeFileSync(
+      entry,
+      `${imports}
       const gc = (globalThis as unknown as { gc: () => void }).gc;
       const { PerformanceObserver } = await import('node:perf_hooks');
       const { getHeapSpaceStatistics } = await import('node:v8');
@@ -196,7 +231,8 @@ async function inChild<T>(imports: string, body: string): Promise<T> {
         return { minorCollections: minor, heapGrowthBytes: h1 - h0 };
       }
       ${body}
-    `);
+    `,
+    );
     const out = join(dir, 'entry.mjs');
     await build({ entryPoints: [entry], bundle: true, platform: 'node', format: 'esm', outfile: out, logLevel: 'silent' });
     // --no-concurrent-recompilation: V8 optimises on the main thread, so warm-up ends with the
@@ -204,7 +240,9 @@ async function inChild<T>(imports: string, body: string): Promise<T> {
     // machine left the measured loop in unoptimised code that boxes doubles, now and then)
     const text = execFileSync(process.execPath, ['--expose-gc', '--max-semi-space-size=1', '--no-concurrent-recompilation', out], { encoding: 'utf8' });
     return JSON.parse(text.trim().split('\n').pop()!) as T;
-  } finally { rmSync(dir, { recursive: true, force: true }); }
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
 }
 
 const SRC = new URL('../src/', import.meta.url).pathname;
@@ -219,15 +257,24 @@ describe('value changes allocate nothing (child process, 1 MB semi-space)', () =
   const CALLS = 20_000; // at most 50 bytes per call before a 1 MB semi-space fills and collects
   const cases: { name: string; updates: string[]; lo: number[]; hi: number[]; sw?: string }[] = [
     // pentode-triode: R3, the volume pot's two halves, C3, B+
-    { name: 'pentode-triode', updates: ['R3', 'VOL.upper', 'VOL.lower', 'C3', 'SUPPLY'], lo: [470e3, 200e3, 300e3, 100e-9, 300], hi: [330e3, 250e3, 250e3, 82e-9, 295] },
+    {
+      name: 'pentode-triode',
+      updates: ['R3', 'VOL.upper', 'VOL.lower', 'C3', 'SUPPLY'],
+      lo: [470e3, 200e3, 300e3, 100e-9, 300],
+      hi: [330e3, 250e3, 250e3, 82e-9, 295],
+    },
     // single-pentode: R5, C7 and the switch S1
     { name: 'single-pentode', updates: ['R5', 'C7'], lo: [2.2e3, 22e-6], hi: [1.5e3, 10e-6], sw: 'S1' },
   ];
   for (const c of cases) {
     it(`${c.name}: ${CALLS} setValues (${c.updates.join(', ')})${c.sw ? ` and setSwitch (${c.sw})` : ''}: no minor collection`, async () => {
-      const ids = c.updates.map((u) => u === 'VOL.upper' ? 'potUpperId("VOL")' : u === 'VOL.lower' ? 'potLowerId("VOL")' : u === 'SUPPLY' ? 'SUPPLY_ID' : JSON.stringify(u));
+      const ids = c.updates.map((u) =>
+        u === 'VOL.upper' ? 'potUpperId("VOL")' : u === 'VOL.lower' ? 'potLowerId("VOL")' : u === 'SUPPLY' ? 'SUPPLY_ID' : JSON.stringify(u),
+      );
       const r = await inChild<{ minorCollections: number; heapGrowthBytes: number; finite: boolean }>(
-        importFrom('CircuitEngine', 'dsp/circuit/engine.ts') + importFrom('designCircuit, potLowerId, potUpperId, SUPPLY_ID', 'dsp/circuit/design.ts') + importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
+        importFrom('CircuitEngine', 'dsp/circuit/engine.ts') +
+          importFrom('designCircuit, potLowerId, potUpperId, SUPPLY_ID', 'dsp/circuit/design.ts') +
+          importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
         `
         const e = new CircuitEngine(designCircuit(TEMPLATES[${JSON.stringify(c.name)}]!), ${RATE_HZ});
         const updates = [${ids.map((id) => `{ id: ${id}, value: 0 }`).join(', ')}];
@@ -247,7 +294,8 @@ describe('value changes allocate nothing (child process, 1 MB semi-space)', () =
         let finite = true;
         for (let n = 0; n < 100; n++) if (!Number.isFinite(e.processSample(0.1))) finite = false;
         console.log(JSON.stringify({ ...m, finite }));
-        `);
+        `,
+      );
       expect(r.minorCollections, JSON.stringify(r)).toBe(0);
       expect(r.heapGrowthBytes / CALLS, JSON.stringify(r)).toBeLessThan(50);
       expect(r.finite).toBe(true); // and the engine still works
@@ -265,10 +313,16 @@ describe('the audio path allocates nothing per block', () => {
   // What allocated, found this way: branches that yield a constant (a module-level const, or
   // a field V8 tracks as constant) beside a computed double, e.g. `if (e > CAP) e = CAP`, make
   // TurboFan merge the value as a tagged number and box it; the code uses Math.min/Math.max.
-  it.each([[0.7, false], [1.5, false], [1.5, true]] as const)('DualSlotEngine.process, two slots at the live default, %d of full scale, live input %s: no minor collection in 4000 blocks', async (level, live) => {
-    const r = await inChild<{ minorCollections: number; heapGrowthBytes: number; finite: boolean }>(
-      importFrom('DualSlotEngine', 'dsp/realtime/dual-slot-engine.ts') + importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
-      `
+  it.each([
+    [0.7, false],
+    [1.5, false],
+    [1.5, true],
+  ] as const)(
+    'DualSlotEngine.process, two slots at the live default, %d of full scale, live input %s: no minor collection in 4000 blocks',
+    async (level, live) => {
+      const r = await inChild<{ minorCollections: number; heapGrowthBytes: number; finite: boolean }>(
+        importFrom('DualSlotEngine', 'dsp/realtime/dual-slot-engine.ts') + importFrom('TEMPLATES', 'dsp/circuit/templates.ts'),
+        `
       const e = new DualSlotEngine({ sampleRateHz: 48000, meterHz: 0, post: () => {}, initial: [
         { type: 'load-design', slot: 'A', design: TEMPLATES['pentode-triode']! },
         { type: 'load-design', slot: 'B', design: TEMPLATES['triode-triode']! },
@@ -279,9 +333,12 @@ describe('the audio path allocates nothing per block', () => {
       blocks(3000);
       const m = await measure(() => blocks(4000));
       console.log(JSON.stringify({ ...m, finite }));
-      `);
-    expect(r.finite).toBe(true);
-    expect(r.minorCollections, JSON.stringify(r)).toBe(0);
-    expect(r.heapGrowthBytes / (4000 * 128), JSON.stringify(r)).toBeLessThan(2);
-  }, 120_000);
+      `,
+      );
+      expect(r.finite).toBe(true);
+      expect(r.minorCollections, JSON.stringify(r)).toBe(0);
+      expect(r.heapGrowthBytes / (4000 * 128), JSON.stringify(r)).toBeLessThan(2);
+    },
+    120_000,
+  );
 });

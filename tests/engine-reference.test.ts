@@ -12,7 +12,9 @@ import { drive, errorDb } from './helpers/signals.ts';
 
 const dir = new URL('./fixtures/netlists/', import.meta.url);
 const cases: [string, Netlist][] = [
-  ...readdirSync(dir).filter((f) => f.endsWith('.json')).map((f): [string, Netlist] => [f, parseNetlist(readFileSync(new URL(f, dir), 'utf8'))]),
+  ...readdirSync(dir)
+    .filter((f) => f.endsWith('.json'))
+    .map((f): [string, Netlist] => [f, parseNetlist(readFileSync(new URL(f, dir), 'utf8'))]),
   ...Object.entries(TEMPLATES).map(([name, d]): [string, Netlist] => [`template ${name}`, designToNetlist(d)]),
 ];
 
@@ -30,7 +32,11 @@ describe.each(cases)('%s', (_name, netlist) => {
     }
   });
 
-  it.each([[48000, 0.3], [48000, 2], [96000, 1]])('transient at %d Hz, %d V peak: error energy >= 60 dB below the signal', (fs, peak) => {
+  it.each([
+    [48000, 0.3],
+    [48000, 2],
+    [96000, 1],
+  ])('transient at %d Hz, %d V peak: error energy >= 60 dB below the signal', (fs, peak) => {
     const x = drive(fs, 0.12, peak);
     const ref = simulateNetlist(netlist, x, fs).output;
     // the plain discretisation, which is what the reference solves (the default 'averaged'

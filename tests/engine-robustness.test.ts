@@ -18,7 +18,6 @@ import { sweep } from '../src/dsp/analysis/ac.ts';
 import { linearNetwork, type LinearNetwork } from '../src/dsp/analysis/linear.ts';
 import { tubeType } from '../src/dsp/tubes/library.ts';
 
-
 // ---------------------------------------------------------------------------------------------
 // 1. Newton-step kernel
 // ---------------------------------------------------------------------------------------------
@@ -92,7 +91,12 @@ function randomProblem(rand: () => number, m: number, fScale: number, tinyLeadin
   const u = (s: number) => (2 * rand() - 1) * s;
   const pos: [number, number][] = [];
   for (let r = 0; r < m; r++) for (let c = 0; c < m; c++) if (rand() < 0.4 || (tinyLeadingPivot && r === 0 && c === 0)) pos.push([r, c]);
-  for (let k = pos.length - 1; k > 0; k--) { const j = Math.floor(rand() * (k + 1)); const t = pos[k]!; pos[k] = pos[j]!; pos[j] = t; }
+  for (let k = pos.length - 1; k > 0; k--) {
+    const j = Math.floor(rand() * (k + 1));
+    const t = pos[k]!;
+    pos[k] = pos[j]!;
+    pos[j] = t;
+  }
   const nzRow = Int32Array.from(pos, (x) => x[0]);
   const nzCol = Int32Array.from(pos, (x) => x[1]);
   const F = Float64Array.from({ length: m * m }, () => u(fScale));
@@ -102,11 +106,17 @@ function randomProblem(rand: () => number, m: number, fScale: number, tinyLeadin
     const z00 = pos.findIndex(([r, c]) => r === 0 && c === 0);
     if (Math.abs(F[0]!) < 0.1 * fScale) F[0] = 0.1 * fScale;
     let others = 0;
-    pos.forEach(([r, c], z) => { if (c === 0 && z !== z00) others += F[r]! * d[z]!; });
+    pos.forEach(([r, c], z) => {
+      if (c === 0 && z !== z00) others += F[r]! * d[z]!;
+    });
     d[z00] = (1 - u(1e-6) - others) / F[0]!;
   }
   return {
-    m, nzRow, nzCol, F, d,
+    m,
+    nzRow,
+    nzCol,
+    F,
+    d,
     p: Float64Array.from({ length: m }, () => u(200)),
     v: Float64Array.from({ length: m }, () => u(200)),
     i: Float64Array.from({ length: m }, () => u(1e-2)),
@@ -122,10 +132,17 @@ function runKernel(pr: StepProblem): { ok: boolean; r: Float64Array } {
 
 /** Normwise relative residual ||J δ + g||∞ / (||J||∞ ||δ||∞ + ||g||∞) (backward-error style, Higham, from memory). */
 function relativeResidual(J: Float64Array, delta: Float64Array, g: Float64Array, m: number): number {
-  let res = 0, jNorm = 0, dNorm = 0, gNorm = 0;
+  let res = 0,
+    jNorm = 0,
+    dNorm = 0,
+    gNorm = 0;
   for (let r = 0; r < m; r++) {
-    let s = g[r]!, rowSum = 0;
-    for (let c = 0; c < m; c++) { s += J[r * m + c]! * delta[c]!; rowSum += Math.abs(J[r * m + c]!); }
+    let s = g[r]!,
+      rowSum = 0;
+    for (let c = 0; c < m; c++) {
+      s += J[r * m + c]! * delta[c]!;
+      rowSum += Math.abs(J[r * m + c]!);
+    }
     res = Math.max(res, Math.abs(s));
     jNorm = Math.max(jNorm, rowSum);
     dNorm = Math.max(dNorm, Math.abs(delta[r]!));
@@ -142,9 +159,15 @@ describe('generated current update (compileCurrentUpdate): i + (d i / d v)·δ',
       const pr = randomProblem(rand, m, 1, false);
       // dense D from the pattern (duplicates add, as the sparse sum does)
       const D = new Float64Array(m * m);
-      pr.nzRow.forEach((r, z) => { D[r * m + pr.nzCol[z]!]! += pr.d[z]!; });
+      pr.nzRow.forEach((r, z) => {
+        D[r * m + pr.nzCol[z]!]! += pr.d[z]!;
+      });
       const delta = Float64Array.from({ length: m + 1 }, () => 2 * rand() - 1);
-      const want = Float64Array.from(pr.i, (x, r) => { let s = x; for (let c = 0; c < m; c++) s += D[r * m + c]! * delta[c]!; return s; });
+      const want = Float64Array.from(pr.i, (x, r) => {
+        let s = x;
+        for (let c = 0; c < m; c++) s += D[r * m + c]! * delta[c]!;
+        return s;
+      });
       const got = Float64Array.from(pr.i);
       compileCurrentUpdate(m, pr.nzRow, pr.nzCol)(got, pr.d, delta);
       for (let r = 0; r < m; r++) expect(Math.abs(got[r]! - want[r]!)).toBeLessThanOrEqual(1e-12 * (Math.abs(want[r]!) + 1e-3));
@@ -155,7 +178,9 @@ describe('generated current update (compileCurrentUpdate): i + (d i / d v)·δ',
 describe('generated Newton step (compileNewtonStep) against the linear system J·δ = -g', () => {
   it('on random matrices and patterns: when it accepts, J·δ = -g (explicit product) and r[m] = Σ g²', () => {
     const rand = makeRandom(20261201);
-    let accepted = 0, declined = 0, worst = 0;
+    let accepted = 0,
+      declined = 0,
+      worst = 0;
     const scales = [0.05, 0.3, 1, 3];
     for (let trial = 0; trial < 600; trial++) {
       const m = 1 + (trial % 10);
@@ -168,7 +193,10 @@ describe('generated Newton step (compileNewtonStep) against the linear system J�
       // it declines exactly when elimination without exchanges meets a pivot failing the
       // documented threshold test
       expect(ok).toBe(noExchangePivotsPass(J, m, PIVOT_RATIO));
-      if (!ok) { declined++; continue; }
+      if (!ok) {
+        declined++;
+        continue;
+      }
       accepted++;
       const g = residualG(pr);
       const delta = r.subarray(0, m);
@@ -191,8 +219,14 @@ describe('generated Newton step (compileNewtonStep) against the linear system J�
     const tiny = 1e-9;
     const d0 = 1 - tiny;
     const make = (f10: number): StepProblem => ({
-      m: 2, nzRow: Int32Array.of(0), nzCol: Int32Array.of(0),
-      F: Float64Array.of(1, 0, f10, 0), p: Float64Array.of(0.3, -0.2), v: Float64Array.of(0.1, 0.4), i: Float64Array.of(2e-3, 0), d: Float64Array.of(d0),
+      m: 2,
+      nzRow: Int32Array.of(0),
+      nzCol: Int32Array.of(0),
+      F: Float64Array.of(1, 0, f10, 0),
+      p: Float64Array.of(0.3, -0.2),
+      v: Float64Array.of(0.1, 0.4),
+      i: Float64Array.of(2e-3, 0),
+      d: Float64Array.of(d0),
     });
     const bad = make(-1 / d0);
     const Jbad = jacobian(bad);
@@ -227,7 +261,9 @@ const FS_HZ = 48000;
 /** Source of R_OHMS into node "out", capacitor from "out" to ground: tau = R·C. */
 function rcLowPass(farads: number, integration: CapacitorIntegration): EngineCircuit {
   return {
-    ground: '0', input: { node: 'out', ohms: R_OHMS }, output: { node: 'out' },
+    ground: '0',
+    input: { node: 'out', ohms: R_OHMS },
+    output: { node: 'out' },
     elements: [{ id: 'C1', kind: 'capacitor', nodes: ['out', '0'], farads, integration }],
   };
 }
@@ -249,14 +285,16 @@ function engineStep(farads: number, integration: CapacitorIntegration, sampleRat
  */
 function handRecurrence(integration: CapacitorIntegration, h: number, samples: number): number[] {
   const out: number[] = [];
-  let v1 = 0, v2 = 0, u1 = 0;
+  let v1 = 0,
+    v2 = 0,
+    u1 = 0;
   for (let n = 0; n < samples; n++) {
     const u = 1;
-    const v = integration === 'bdf2'
-      ? (4 * v1 - v2 + 2 * h * u) / (3 + 2 * h)
-      : ((1 - h / 2) * v1 + (h / 2) * (u + u1)) / (1 + h / 2);
+    const v = integration === 'bdf2' ? (4 * v1 - v2 + 2 * h * u) / (3 + 2 * h) : ((1 - h / 2) * v1 + (h / 2) * (u + u1)) / (1 + h / 2);
     out.push(v);
-    v2 = v1; v1 = v; u1 = u;
+    v2 = v1;
+    v1 = v;
+    u1 = u;
   }
   return out;
 }
@@ -274,7 +312,8 @@ describe('capacitor integration (trapezoidal, BDF2) on an RC low-pass step', () 
     const maxError = (integration: CapacitorIntegration, rateHz: number): { early: number; late: number } => {
       const n = Math.round(5 * tauSeconds * rateHz);
       const y = engineStep(farads, integration, rateHz, n);
-      let early = 0, late = 0;
+      let early = 0,
+        late = 0;
       y.forEach((v, k) => {
         const t = (k + 0.5) / rateHz;
         const err = Math.abs(v - (1 - Math.exp(-t / tauSeconds)));
@@ -284,7 +323,8 @@ describe('capacitor integration (trapezoidal, BDF2) on an RC low-pass step', () 
       return { early, late };
     };
     for (const integration of ['trapezoidal', 'bdf2'] as const) {
-      const e1 = maxError(integration, FS_HZ), e2 = maxError(integration, 2 * FS_HZ);
+      const e1 = maxError(integration, FS_HZ),
+        e2 = maxError(integration, 2 * FS_HZ);
       // within a few percent of the 1 V step after the first 3 samples (here: 1 %)
       expect(e1.early).toBeLessThan(0.01);
       expect(e2.early).toBeLessThan(0.01);
@@ -316,7 +356,8 @@ describe('capacitor integration (trapezoidal, BDF2) on an RC low-pass step', () 
     const bdf2 = engineStep(stiffFarads, 'bdf2', FS_HZ, n).map((v) => v - 1);
     const h = 1 / 0.01;
     // both are what the rules give by hand
-    const trapRef = handRecurrence('trapezoidal', h, n), bdfRef = handRecurrence('bdf2', h, n);
+    const trapRef = handRecurrence('trapezoidal', h, n),
+      bdfRef = handRecurrence('bdf2', h, n);
     // (to 1e-8: the engine's gmin, see above)
     trap.forEach((e, k) => expect(Math.abs(e + 1 - trapRef[k]!)).toBeLessThan(1e-8));
     bdf2.forEach((e, k) => expect(Math.abs(e + 1 - bdfRef[k]!)).toBeLessThan(1e-8));
@@ -357,7 +398,10 @@ describe('Newton robustness: templates at 1x and 2x with a hard two-tone drive',
         const bPlusVolts = design.supply.volts;
         const limitVolts = bPlusVolts + 1;
         const samples = Math.round(0.25 * rateHz);
-        let nonFinite = 0, outside = 0, lo = Infinity, hi = -Infinity;
+        let nonFinite = 0,
+          outside = 0,
+          lo = Infinity,
+          hi = -Infinity;
         for (let k = 0; k < samples; k++) {
           const t = k / rateHz;
           const vin = 2 * Math.sin(2 * Math.PI * 997 * t) + 0.5 * Math.sin(2 * Math.PI * 3311 * t);
@@ -384,13 +428,17 @@ describe('Newton robustness: templates at 1x and 2x with a hard two-tone drive',
 // 4. Interelectrode capacitance: Miller roll-off of a grid-stopped 12AX7 stage
 // ---------------------------------------------------------------------------------------------
 
-const kOhm = 1e3, MOhm = 1e6, uF = 1e-6;
-const RS_OHMS = 470 * kOhm, RG_OHMS = 1 * MOhm;
+const kOhm = 1e3,
+  MOhm = 1e6,
+  uF = 1e-6;
+const RS_OHMS = 470 * kOhm,
+  RG_OHMS = 1 * MOhm;
 
 /** 12AX7 common-cathode stage (common-practice values) with a 470 k grid stopper from an ideal source. */
 function millerStage(interelectrode: boolean): Design {
   return {
-    schema: DESIGN_SCHEMA, name: 'grid-stopped 12AX7 stage',
+    schema: DESIGN_SCHEMA,
+    name: 'grid-stopped 12AX7 stage',
     input: { node: 'in', ohms: 0 },
     output: { node: 'out', loadOhms: 1 * MOhm },
     supply: { node: 'bp', volts: 250, ohms: 0, filterFarads: 100 * uF },
@@ -434,12 +482,14 @@ describe('interelectrode capacitance: Miller roll-off against the handbook formu
     expect(gain).toBeLessThan(75);
     // -3 dB point of the whole response by bisection on a log scale
     const target = midband / Math.SQRT2;
-    let lo = 200, hi = 200000;
+    let lo = 200,
+      hi = 200000;
     expect(magnitude(withCaps, lo)).toBeGreaterThan(target);
     expect(magnitude(withCaps, hi)).toBeLessThan(target);
     for (let k = 0; k < 50; k++) {
       const mid = Math.sqrt(lo * hi);
-      if (magnitude(withCaps, mid) > target) lo = mid; else hi = mid;
+      if (magnitude(withCaps, mid) > target) lo = mid;
+      else hi = mid;
     }
     const f3Hz = Math.sqrt(lo * hi);
     // grid-stopper / Miller formula (valve-wizard style; common practice), data-sheet capacitances

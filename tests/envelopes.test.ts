@@ -6,7 +6,13 @@ import { heaterLoads } from '../src/dsp/analysis/design-supply.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import type { Design, TubePart } from '../src/dsp/circuit/design.ts';
 
-const tube = (id: string, type: string, pentode = false): TubePart => ({ id, kind: 'tube', type, sample: 1, nodes: { plate: `p${id}`, grid: `g${id}`, cathode: '0', ...(pentode ? { screen: `s${id}` } : {}) } });
+const tube = (id: string, type: string, pentode = false): TubePart => ({
+  id,
+  kind: 'tube',
+  type,
+  sample: 1,
+  nodes: { plate: `p${id}`, grid: `g${id}`, cathode: '0', ...(pentode ? { screen: `s${id}` } : {}) },
+});
 const withTubes = (tubes: TubePart[]): Design => ({ ...TEMPLATES['triode-triode']!, parts: tubes });
 
 describe('heater budget by envelope', () => {

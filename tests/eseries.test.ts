@@ -3,9 +3,7 @@ import { seriesMantissas, seriesTolerance, seriesValuesBetween, snapToSeries } f
 
 // IEC 60063:2015 tables as given in check-values.md (confirmed).
 const IEC_E12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
-const IEC_E24 = [
-  1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1,
-];
+const IEC_E24 = [1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1];
 // E6 ±20 %: KiCad pcb_calculator help text (cites IEC 60063).
 const KICAD_E6 = [1.0, 1.5, 2.2, 3.3, 4.7, 6.8];
 

@@ -17,7 +17,8 @@ const FS = 48000;
 function drive(n: number, peak: number): Float64Array {
   const x = new Float64Array(n);
   for (let k = 0; k < n; k++) {
-    const t = k / FS, env = Math.exp(-3 * t);
+    const t = k / FS,
+      env = Math.exp(-3 * t);
     x[k] = peak * env * (0.6 * Math.sin(2 * Math.PI * 110 * t) + 0.3 * Math.sin(2 * Math.PI * 331 * t) + 0.1 * Math.sin(2 * Math.PI * 1247 * t));
   }
   return x;
@@ -28,8 +29,12 @@ function errorDb(y: Float64Array, ref: Float64Array): number {
   let mean = 0;
   for (const v of ref) mean += v;
   mean /= ref.length;
-  let e = 0, s = 0;
-  for (let k = 0; k < ref.length; k++) { e += (y[k]! - ref[k]!) ** 2; s += (ref[k]! - mean) ** 2; }
+  let e = 0,
+    s = 0;
+  for (let k = 0; k < ref.length; k++) {
+    e += (y[k]! - ref[k]!) ** 2;
+    s += (ref[k]! - mean) ** 2;
+  }
   return 10 * Math.log10(e / s);
 }
 
@@ -42,14 +47,21 @@ function render(d: Design, tubeFunctions: 'exact' | 'table', x: Float64Array, fa
 function randomDesign(base: Design, seed: number): Design {
   const rnd = makeRandom(seed);
   const scale = () => Math.pow(2, 2 * rnd() - 1);
-  const triodes = Object.values(TUBE_LIBRARY).filter((t) => t.kind === 'triode').map((t) => t.name);
+  const triodes = Object.values(TUBE_LIBRARY)
+    .filter((t) => t.kind === 'triode')
+    .map((t) => t.name);
   const parts = base.parts.map((p): Part => {
     switch (p.kind) {
-      case 'resistor': return { ...p, ohms: p.ohms * scale() };
-      case 'capacitor': return { ...p, farads: p.farads * scale() };
-      case 'pot': return { ...p, position: 0.05 + 0.9 * rnd() };
-      case 'tube': return p.nodes.screen ? { ...p, sample: 0.8 + 0.4 * rnd() } : { ...p, type: triodes[Math.floor(rnd() * triodes.length)]!, sample: 0.8 + 0.4 * rnd() };
-      default: return p;
+      case 'resistor':
+        return { ...p, ohms: p.ohms * scale() };
+      case 'capacitor':
+        return { ...p, farads: p.farads * scale() };
+      case 'pot':
+        return { ...p, position: 0.05 + 0.9 * rnd() };
+      case 'tube':
+        return p.nodes.screen ? { ...p, sample: 0.8 + 0.4 * rnd() } : { ...p, type: triodes[Math.floor(rnd() * triodes.length)]!, sample: 0.8 + 0.4 * rnd() };
+      default:
+        return p;
     }
   });
   return { ...base, name: `${base.name} (random ${seed})`, parts, supply: { ...base.supply, volts: 200 + 150 * rnd() } };
@@ -57,7 +69,17 @@ function randomDesign(base: Design, seed: number): Design {
 
 describe('generic law tables', () => {
   it('tabulate any fused law: a Hermite table of a cubic is exact (de Boor: Hermite interpolation reproduces cubics)', () => {
-    const t = lawTable('test:cubic', (x, xo, out, o) => { const v = x[xo]!; out[o] = v * v * v - 2 * v; out[o + 1] = 3 * v * v - 2; }, -3, 3, 7);
+    const t = lawTable(
+      'test:cubic',
+      (x, xo, out, o) => {
+        const v = x[xo]!;
+        out[o] = v * v * v - 2 * v;
+        out[o + 1] = 3 * v * v - 2;
+      },
+      -3,
+      3,
+      7,
+    );
     const out = new Float64Array(2);
     for (let v = -3; v <= 3; v += 0.0137) {
       expect(t.lookup(v, out, 0)).toBe(true);
@@ -71,7 +93,8 @@ describe('generic law tables', () => {
     const k = 2e-4;
     const law = (x: Float64Array, xo: number, out: Float64Array, o: number) => {
       const v = x[xo]!;
-      out[o] = v > 0 ? k * v ** 1.5 : 0; out[o + 1] = v > 0 ? 1.5 * k * Math.sqrt(v) : 0;
+      out[o] = v > 0 ? k * v ** 1.5 : 0;
+      out[o + 1] = v > 0 ? 1.5 * k * Math.sqrt(v) : 0;
     };
     const t: HermiteTable = gridLawTable('test:cl', law);
     const out = new Float64Array(2);

@@ -17,10 +17,17 @@ function independentLufs(x: Float32Array | Float64Array): number {
   const rlb = { b: [1, -2, 1], a: [1, -1.99004745483398, 0.99007225036621] };
   const biquad = (f: { b: number[]; a: number[] }, input: Float64Array): Float64Array => {
     const y = new Float64Array(input.length);
-    let x1 = 0, x2 = 0, y1 = 0, y2 = 0;
+    let x1 = 0,
+      x2 = 0,
+      y1 = 0,
+      y2 = 0;
     for (let n = 0; n < input.length; n++) {
       const v = f.b[0]! * input[n]! + f.b[1]! * x1 + f.b[2]! * x2 - f.a[1]! * y1 - f.a[2]! * y2;
-      x2 = x1; x1 = input[n]!; y2 = y1; y1 = v; y[n] = v;
+      x2 = x1;
+      x1 = input[n]!;
+      y2 = y1;
+      y1 = v;
+      y[n] = v;
     }
     return y;
   };
@@ -34,7 +41,9 @@ function independentLufs(x: Float32Array | Float64Array): number {
 function di(seconds: number): Float32Array {
   const x = new Float32Array(Math.round(FS * seconds));
   for (let k = 0; k < x.length; k++) {
-    const t = k / FS, tn = t % 0.5, f = [110, 147, 196][Math.floor(t / 0.5) % 3]!;
+    const t = k / FS,
+      tn = t % 0.5,
+      f = [110, 147, 196][Math.floor(t / 0.5) % 3]!;
     x[k] = 0.25 * Math.exp(-5 * tn) * (Math.sin(2 * Math.PI * f * t) + 0.4 * Math.sin(4 * Math.PI * f * t));
   }
   return x;
@@ -47,13 +56,24 @@ function run(a: Design, b: Design, matchOn: boolean): { outA: Float32Array; outB
   const meters: MeterReport[] = [];
   const initial: ToProcessor[] = [
     { type: 'set-input-calibration', voltsAtFullScale: 1 },
-    { type: 'load-design', slot: 'A', design: a }, { type: 'load-design', slot: 'B', design: b },
+    { type: 'load-design', slot: 'A', design: a },
+    { type: 'load-design', slot: 'B', design: b },
     // one output scale for both: the level difference is the designs' own
-    { type: 'set-output-scale', slot: 'A', voltsAtFullScale: scale }, { type: 'set-output-scale', slot: 'B', voltsAtFullScale: scale },
+    { type: 'set-output-scale', slot: 'A', voltsAtFullScale: scale },
+    { type: 'set-output-scale', slot: 'B', voltsAtFullScale: scale },
     { type: 'set-loudness-match', on: matchOn },
   ];
-  const e = new DualSlotEngine({ sampleRateHz: FS, factor: 1, meterHz: 10, initial, post: (m: FromProcessor) => { if (m.type === 'meter') meters.push({ ...m }); } });
-  const settle = 8, listen = 3;
+  const e = new DualSlotEngine({
+    sampleRateHz: FS,
+    factor: 1,
+    meterHz: 10,
+    initial,
+    post: (m: FromProcessor) => {
+      if (m.type === 'meter') meters.push({ ...m });
+    },
+  });
+  const settle = 8,
+    listen = 3;
   const x = di(settle + 2 * listen);
   const y = new Float32Array(x.length);
   const at = (s: number) => Math.round(s * FS);
@@ -65,7 +85,7 @@ function run(a: Design, b: Design, matchOn: boolean): { outA: Float32Array; outB
   return { outA: y.subarray(at(settle), at(settle + listen)), outB: y.subarray(at(settle + listen + 0.5), at(settle + 2 * listen)), meters };
 }
 
-describe('live A/B loudness match (measured from the slots\' sound)', () => {
+describe("live A/B loudness match (measured from the slots' sound)", () => {
   const A = setVol(TEMPLATES['pentode-triode']!, 0.95);
   // the log taper (10 % of the track at half rotation, common practice) puts B about 15 dB down
   const B = setVol(TEMPLATES['pentode-triode']!, 0.56);
@@ -81,7 +101,8 @@ describe('live A/B loudness match (measured from the slots\' sound)', () => {
 
   it('matched: after settling, the two outputs read the same loudness within 1 LU on an independent meter', () => {
     const r = run(A, B, true);
-    const la = independentLufs(r.outA), lb = independentLufs(r.outB);
+    const la = independentLufs(r.outA),
+      lb = independentLufs(r.outB);
     expect(Math.abs(lb - la)).toBeLessThan(1);
     const last = r.meters[r.meters.length - 1]!;
     expect(last.matchGainDb).toBeGreaterThan(12); // it did lift B by about the offset

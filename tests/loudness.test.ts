@@ -115,9 +115,23 @@ describe('integrated loudness (BS.1770-4, EBU Tech 3341)', () => {
     // case 4: -72/-36/-23/-36/-72 for 10/10/60/10/10 s (absolute gate removes -72);
     // case 5: -26/-20/-26 for 20/20.1/20 s (all blocks pass; power mean is -23).
     for (const segs of [
-      [[-36, 10], [-23, 60], [-36, 10]],
-      [[-72, 10], [-36, 10], [-23, 60], [-36, 10], [-72, 10]],
-      [[-26, 20], [-20, 20.1], [-26, 20]],
+      [
+        [-36, 10],
+        [-23, 60],
+        [-36, 10],
+      ],
+      [
+        [-72, 10],
+        [-36, 10],
+        [-23, 60],
+        [-36, 10],
+        [-72, 10],
+      ],
+      [
+        [-26, 20],
+        [-20, 20.1],
+        [-26, 20],
+      ],
     ] as const) {
       const r = measureLoudness(steps(segs), 48000);
       expect(Math.abs(r.integratedLufs + 23), JSON.stringify(segs)).toBeLessThan(0.1);
@@ -155,7 +169,11 @@ describe('integrated loudness (BS.1770-4, EBU Tech 3341)', () => {
   });
 
   it('block-wise metering equals whole-signal metering', () => {
-    const [l, r] = steps([[-30, 4], [-18, 3.3], [-40, 2]]);
+    const [l, r] = steps([
+      [-30, 4],
+      [-18, 3.3],
+      [-40, 2],
+    ]);
     const whole = measureLoudness([l as Float32Array, r as Float32Array], 48000);
     const m = new LoudnessMeter(48000, 2);
     const sizes = [1, 127, 4800, 333, 70000];
@@ -186,10 +204,37 @@ describe('loudness range (EBU Tech 3342)', () => {
   // LRA with tolerance +-1 LU. With constant-level segments the 10th and 95th percentiles
   // fall on plateaus, so the exact result is the level difference: we check within 0.1 LU.
   const cases: readonly { segs: readonly (readonly [number, number])[]; lraLu: number }[] = [
-    { segs: [[-20, 20], [-30, 20]], lraLu: 10 }, // case 1
-    { segs: [[-20, 20], [-15, 20]], lraLu: 5 }, // case 2
-    { segs: [[-40, 20], [-20, 20]], lraLu: 20 }, // case 3
-    { segs: [[-50, 20], [-35, 20], [-20, 20], [-35, 20], [-50, 20]], lraLu: 15 }, // case 4: -50 parts fall below the -20 LU gate
+    {
+      segs: [
+        [-20, 20],
+        [-30, 20],
+      ],
+      lraLu: 10,
+    }, // case 1
+    {
+      segs: [
+        [-20, 20],
+        [-15, 20],
+      ],
+      lraLu: 5,
+    }, // case 2
+    {
+      segs: [
+        [-40, 20],
+        [-20, 20],
+      ],
+      lraLu: 20,
+    }, // case 3
+    {
+      segs: [
+        [-50, 20],
+        [-35, 20],
+        [-20, 20],
+        [-35, 20],
+        [-50, 20],
+      ],
+      lraLu: 15,
+    }, // case 4: -50 parts fall below the -20 LU gate
   ];
   for (const { segs, lraLu } of cases) {
     it(`${JSON.stringify(segs)} gives ${lraLu} LU`, () => {

@@ -15,8 +15,10 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('pair renders on worker threads', () => {
   it('equal the same renders on the main thread, sample for sample, with progress reported', async () => {
-    const fs = 48000, n = 60000;
-    const left = new Float32Array(n), right = new Float32Array(n);
+    const fs = 48000,
+      n = 60000;
+    const left = new Float32Array(n),
+      right = new Float32Array(n);
     for (let k = 0; k < n; k++) {
       left[k] = 0.5 * Math.sin((2 * Math.PI * 196 * k) / fs) * Math.exp(-k / 30000);
       right[k] = 0.2 * Math.sin((2 * Math.PI * 330 * k) / fs);
@@ -25,7 +27,10 @@ describe('pair renders on worker threads', () => {
     writeFileSync(path, encodeWav([left, right], fs, { bitDepth: 32, float: true }));
     const designs = [TEMPLATES['pentode-triode']!, TEMPLATES['triode-triode']!];
     const progress: number[][] = [[], []];
-    const got = await renderInParallel(designs.map((design) => ({ inPath: path, design, factor: 2, inputVolts: 1.5 })), (j, f) => progress[j]!.push(f));
+    const got = await renderInParallel(
+      designs.map((design) => ({ inPath: path, design, factor: 2, inputVolts: 1.5 })),
+      (j, f) => progress[j]!.push(f),
+    );
     for (let j = 0; j < 2; j++) {
       const r = new AlignedRender(designCircuit(designs[j]!), fs, 2, 1.5);
       const mono = Float64Array.from(left, (v, k) => (v + right[k]!) / 2);
@@ -43,7 +48,8 @@ describe('pair renders on worker threads', () => {
   }, 60000);
 
   it('a missing input gives a one-line error naming the design', async () => {
-    await expect(renderInParallel([{ inPath: join(dir, 'absent.wav'), design: TEMPLATES['triode-triode']!, factor: 1, inputVolts: 1 }], () => {}))
-      .rejects.toThrow(/rendering .* failed: /);
+    await expect(
+      renderInParallel([{ inPath: join(dir, 'absent.wav'), design: TEMPLATES['triode-triode']!, factor: 1, inputVolts: 1 }], () => {}),
+    ).rejects.toThrow(/rendering .* failed: /);
   });
 });

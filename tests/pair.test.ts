@@ -27,18 +27,31 @@ async function readWav(path: string): Promise<{ samples: Float64Array; fmt: Wave
 // K-weighting coefficients: ITU-R BS.1770-4, Annex 1, Tables 1 and 2 (confirmed). Gating: 400 ms blocks, 75 % overlap, absolute gate -70 LKFS, relative gate -10 LU,
 // L = -0.691 + 10 log10(mean square) (same source). Direct form I, written here from the equations.
 function bs1770IntegratedLufs(x: ArrayLike<number>): number {
-  const sb = [1.53512485958697, -2.69169618940638, 1.19839281085285], sa = [-1.69065929318241, 0.73248077421585];
-  const hb = [1, -2, 1], ha = [-1.99004745483398, 0.99007225036621];
+  const sb = [1.53512485958697, -2.69169618940638, 1.19839281085285],
+    sa = [-1.69065929318241, 0.73248077421585];
+  const hb = [1, -2, 1],
+    ha = [-1.99004745483398, 0.99007225036621];
   const y = new Float64Array(x.length);
-  let x1 = 0, x2 = 0, u1 = 0, u2 = 0, y1 = 0, y2 = 0;
+  let x1 = 0,
+    x2 = 0,
+    u1 = 0,
+    u2 = 0,
+    y1 = 0,
+    y2 = 0;
   for (let n = 0; n < x.length; n++) {
     const xn = x[n] ?? 0;
     const u = sb[0]! * xn + sb[1]! * x1 + sb[2]! * x2 - sa[0]! * u1 - sa[1]! * u2;
     const v = hb[0]! * u + hb[1]! * u1 + hb[2]! * u2 - ha[0]! * y1 - ha[1]! * y2;
-    x2 = x1; x1 = xn; u2 = u1; u1 = u; y2 = y1; y1 = v;
+    x2 = x1;
+    x1 = xn;
+    u2 = u1;
+    u1 = u;
+    y2 = y1;
+    y1 = v;
     y[n] = v;
   }
-  const block = 0.4 * FS, hop = 0.1 * FS;
+  const block = 0.4 * FS,
+    hop = 0.1 * FS;
   const z: number[] = [];
   for (let s = 0; s + block <= y.length; s += hop) {
     let e = 0;
@@ -55,8 +68,12 @@ function bs1770IntegratedLufs(x: ArrayLike<number>): number {
 // --- a short DI of our own: plucked strings through a bridge single coil, peak at -12 dBFS ---
 // (DI peak level near -12 dBFS: common practice for recorded guitar DI.)
 const RIFF: Riff = {
-  name: 'pair-test', title: 'Pair test', description: 'three notes and a fifth, for the pair tests', lengthSeconds: 2.5,
-  pickup: SINGLE_COIL_BRIDGE, seed: 5,
+  name: 'pair-test',
+  title: 'Pair test',
+  description: 'three notes and a fifth, for the pair tests',
+  lengthSeconds: 2.5,
+  pickup: SINGLE_COIL_BRIDGE,
+  seed: 5,
   notes: [
     { midiNote: 45, startSeconds: 0.05, durationSeconds: 0.6, velocity: 0.7 },
     { midiNote: 52, startSeconds: 0.7, durationSeconds: 0.6, velocity: 0.5 },
@@ -84,7 +101,8 @@ afterAll(async () => {
 });
 
 async function run(args: string[]): Promise<{ code: number; out: string[]; err: string[] }> {
-  const out: string[] = [], err: string[] = [];
+  const out: string[] = [],
+    err: string[] = [];
   const code = await main(['pair', ...args], { out: (l) => out.push(l), err: (l) => err.push(l) });
   return { code, out, err };
 }
@@ -94,7 +112,13 @@ interface SheetJson {
   input: { file: string; integratedLufs: number };
   matching: { ceilingBound: boolean; note: string; differenceLu: number; commonLufs: number };
   files: { variant: string; file: string; integratedLufs: number; truePeakDbtp: number; loudnessRangeLu: number; gainDb: number }[];
-  designs: { ref: string; name: string; components: { id: string; value: string }[]; operatingPoint: { nodes: Record<string, number>; tubes: Record<string, Record<string, number>> }; ratingMargins: unknown[] }[];
+  designs: {
+    ref: string;
+    name: string;
+    components: { id: string; value: string }[];
+    operatingPoint: { nodes: Record<string, number>; tubes: Record<string, Record<string, number>> };
+    ratingMargins: unknown[];
+  }[];
 }
 
 const readSheet = async (d: string) => JSON.parse(await readFile(join(d, 'pair-sheet.json'), 'utf8')) as SheetJson;
@@ -106,7 +130,20 @@ describe('valvewright pair: A/B', () => {
   let first: Awaited<ReturnType<typeof run>>;
 
   beforeAll(async () => {
-    first = await run(['--input', diPath, '--design', 'pentode-triode', '--design', 'triode-triode', '--out', out(), '--oversample', '2', '--input-volts', String(voltsAtFullScale)]);
+    first = await run([
+      '--input',
+      diPath,
+      '--design',
+      'pentode-triode',
+      '--design',
+      'triode-triode',
+      '--out',
+      out(),
+      '--oversample',
+      '2',
+      '--input-volts',
+      String(voltsAtFullScale),
+    ]);
   });
 
   it('writes names that carry design, variant, rate and bit depth', async () => {
@@ -123,8 +160,10 @@ describe('valvewright pair: A/B', () => {
   it('matches within 0.1 LU by an independent BS.1770 meter and the project meter, under -1 dBTP', async () => {
     const a = (await readWav(join(out(), A))).samples;
     const b = (await readWav(join(out(), B))).samples;
-    const la = bs1770IntegratedLufs(a), lb = bs1770IntegratedLufs(b);
-    const ma = measureLoudness([a], FS), mb = measureLoudness([b], FS);
+    const la = bs1770IntegratedLufs(a),
+      lb = bs1770IntegratedLufs(b);
+    const ma = measureLoudness([a], FS),
+      mb = measureLoudness([b], FS);
     expect(Math.abs(la - lb)).toBeLessThanOrEqual(0.1); // issue 5: matched within 0.1 LU
     expect(Math.abs(ma.integratedLufs - mb.integratedLufs)).toBeLessThanOrEqual(0.1);
     expect(Math.abs(la - ma.integratedLufs)).toBeLessThanOrEqual(0.1); // two meters agree
@@ -136,10 +175,12 @@ describe('valvewright pair: A/B', () => {
     expect(fa.file).toBe(A);
     expect(Math.abs(fa.integratedLufs - la)).toBeLessThan(0.05);
     expect(Math.abs(fa.truePeakDbtp - ma.truePeakDbtp)).toBeLessThan(1e-6);
-    console.log(`A/B: independent ${la.toFixed(4)} / ${lb.toFixed(4)} LUFS, project ${ma.integratedLufs.toFixed(4)} / ${mb.integratedLufs.toFixed(4)}, TP ${ma.truePeakDbtp.toFixed(3)} / ${mb.truePeakDbtp.toFixed(3)} dBTP`);
+    console.log(
+      `A/B: independent ${la.toFixed(4)} / ${lb.toFixed(4)} LUFS, project ${ma.integratedLufs.toFixed(4)} / ${mb.integratedLufs.toFixed(4)}, TP ${ma.truePeakDbtp.toFixed(3)} / ${mb.truePeakDbtp.toFixed(3)} dBTP`,
+    );
   });
 
-  it("sheet operating points equal `valvewright op` for the same designs", async () => {
+  it('sheet operating points equal `valvewright op` for the same designs', async () => {
     const sheet = await readSheet(out());
     expect(sheet.designs.map((d) => d.ref)).toEqual(['pentode-triode', 'triode-triode']);
     for (const d of sheet.designs) {
@@ -168,13 +209,42 @@ describe('valvewright pair: A/B', () => {
     expect(again.err.join('\n')).toMatch(/would overwrite .*hearthstone-pentode-front\.a\.48k\.24bit\.wav.*--force/);
     expect(again.err).toHaveLength(1);
     expect((await stat(join(out(), A))).mtimeMs).toBe(before.mtimeMs);
-    const forced = await run(['--input', diPath, '--design', 'pentode-triode', '--design', 'triode-triode', '--out', out(), '--oversample', '2', '--input-volts', String(voltsAtFullScale), '--force']);
+    const forced = await run([
+      '--input',
+      diPath,
+      '--design',
+      'pentode-triode',
+      '--design',
+      'triode-triode',
+      '--out',
+      out(),
+      '--oversample',
+      '2',
+      '--input-volts',
+      String(voltsAtFullScale),
+      '--force',
+    ]);
     expect(forced.code, forced.err.join('\n')).toBe(0);
   });
 
   it('the streaming path (renders not kept, rendered again) writes the same bytes', async () => {
     const s = join(dir, 'ab-stream');
-    const r = await run(['--input', diPath, '--design', 'pentode-triode', '--design', 'triode-triode', '--out', s, '--oversample', '2', '--input-volts', String(voltsAtFullScale), '--max-memory-mb', '0']);
+    const r = await run([
+      '--input',
+      diPath,
+      '--design',
+      'pentode-triode',
+      '--design',
+      'triode-triode',
+      '--out',
+      s,
+      '--oversample',
+      '2',
+      '--input-volts',
+      String(voltsAtFullScale),
+      '--max-memory-mb',
+      '0',
+    ]);
     expect(r.code, r.err.join('\n')).toBe(0);
     expect(r.err.join('\n')).toMatch(/not kept/);
     for (const f of [A, B]) expect(Buffer.compare(await readFile(join(s, f)), await readFile(join(out(), f)))).toBe(0);
@@ -184,13 +254,28 @@ describe('valvewright pair: A/B', () => {
 describe('valvewright pair --dry', () => {
   it('pairs the DI itself with a design, to a target, with the DI scaled only', async () => {
     const d = join(dir, 'dry');
-    const r = await run(['--input', diPath, '--dry', '--design', 'single-pentode', '--out', d, '--oversample', '2', '--input-volts', String(voltsAtFullScale), '--target-lufs', '-24']);
+    const r = await run([
+      '--input',
+      diPath,
+      '--dry',
+      '--design',
+      'single-pentode',
+      '--out',
+      d,
+      '--oversample',
+      '2',
+      '--input-volts',
+      String(voltsAtFullScale),
+      '--target-lufs',
+      '-24',
+    ]);
     expect(r.code, r.err.join('\n')).toBe(0);
     const dryName = 'bench-take-1.dry.48k.24bit.wav';
     const wetName = 'lantern-single-pentode.b.48k.24bit.wav';
     const dry = (await readWav(join(d, dryName))).samples;
     const wet = (await readWav(join(d, wetName))).samples;
-    const ld = bs1770IntegratedLufs(dry), lw = bs1770IntegratedLufs(wet);
+    const ld = bs1770IntegratedLufs(dry),
+      lw = bs1770IntegratedLufs(wet);
     expect(Math.abs(ld - lw)).toBeLessThanOrEqual(0.1);
     expect(Math.abs(ld + 24)).toBeLessThanOrEqual(0.1); // the target, ceiling not binding here
     const sheet = await readSheet(d);
@@ -207,7 +292,23 @@ describe('valvewright pair --dry', () => {
 
   it('lowers both together when the ceiling binds, and says so', async () => {
     const d = join(dir, 'ceiling');
-    const r = await run(['--input', diPath, '--dry', '--design', 'pentode-triode', '--out', d, '--oversample', '2', '--input-volts', String(voltsAtFullScale), '--target-lufs', '-6', '--peak-ceiling', '-3']);
+    const r = await run([
+      '--input',
+      diPath,
+      '--dry',
+      '--design',
+      'pentode-triode',
+      '--out',
+      d,
+      '--oversample',
+      '2',
+      '--input-volts',
+      String(voltsAtFullScale),
+      '--target-lufs',
+      '-6',
+      '--peak-ceiling',
+      '-3',
+    ]);
     expect(r.code, r.err.join('\n')).toBe(0);
     const sheet = await readSheet(d);
     expect(sheet.matching.ceilingBound).toBe(true);
@@ -217,7 +318,9 @@ describe('valvewright pair --dry', () => {
     expect(Math.abs(L[0]! - L[1]!)).toBeLessThanOrEqual(0.1);
     expect(L[0]!).toBeLessThan(-6.5);
     for (const s of files) expect(measureLoudness([s], FS).truePeakDbtp).toBeLessThanOrEqual(-3);
-    console.log(`ceiling -3 dBTP: ${L.map((x) => x.toFixed(3)).join(' / ')} LUFS, TP ${files.map((s) => measureLoudness([s], FS).truePeakDbtp.toFixed(3)).join(' / ')}`);
+    console.log(
+      `ceiling -3 dBTP: ${L.map((x) => x.toFixed(3)).join(' / ')} LUFS, TP ${files.map((s) => measureLoudness([s], FS).truePeakDbtp.toFixed(3)).join(' / ')}`,
+    );
   });
 
   it('rejects bad combinations with one line', async () => {
@@ -239,11 +342,15 @@ describe('valvewright pair --dry', () => {
 
 // Cross-correlation lag (in samples) of best |correlation| of y against x over -maxLag..maxLag.
 function bestLag(x: ArrayLike<number>, y: ArrayLike<number>, maxLag: number, from: number, to: number): number {
-  let best = 0, bestV = -1;
+  let best = 0,
+    bestV = -1;
   for (let lag = -maxLag; lag <= maxLag; lag++) {
     let s = 0;
     for (let n = from; n < to; n++) s += (x[n] ?? 0) * (y[n + lag] ?? 0);
-    if (Math.abs(s) > bestV) { bestV = Math.abs(s); best = lag; }
+    if (Math.abs(s) > bestV) {
+      bestV = Math.abs(s);
+      best = lag;
+    }
   }
   return best;
 }
@@ -254,12 +361,14 @@ describe('latency alignment', () => {
   // oversampler's group delay is about its DC value there and grows toward 18 kHz
   // (src/dsp/oversampling/oversampler.ts header), which the compensation does not follow.
   const noise = (() => {
-    let s = 12345, l1 = 0, l2 = 0;
+    let s = 12345,
+      l1 = 0,
+      l2 = 0;
     const k = 1 - Math.exp((-2 * Math.PI * 2000) / FS);
     const x = new Float64Array(FS / 2);
     for (let n = 0; n < x.length; n++) {
       s = (s * 1103515245 + 12345) >>> 0;
-      l1 += k * (((s / 2 ** 32) - 0.5) * 0.08 - l1);
+      l1 += k * ((s / 2 ** 32 - 0.5) * 0.08 - l1);
       l2 += k * (l1 - l2);
       x[n] = l2;
     }
@@ -274,8 +383,13 @@ describe('latency alignment', () => {
     const ref = new OversampledCircuit(c, FS, 1, undefined, { antialiasing: 'off' });
     const raw = new OversampledCircuit(c, FS, 8);
     const al = new AlignedRender(c, FS, 8, 0.05);
-    const r1 = new Float64Array(noise.length), r8 = new Float64Array(noise.length), a8 = new Float64Array(noise.length);
-    for (let n = 0; n < noise.length; n++) { r1[n] = ref.processSample(noise[n]! * 0.05); r8[n] = raw.processSample(noise[n]! * 0.05); }
+    const r1 = new Float64Array(noise.length),
+      r8 = new Float64Array(noise.length),
+      a8 = new Float64Array(noise.length);
+    for (let n = 0; n < noise.length; n++) {
+      r1[n] = ref.processSample(noise[n]! * 0.05);
+      r8[n] = raw.processSample(noise[n]! * 0.05);
+    }
     const w = al.process(noise, noise.length, a8);
     al.flush(a8.subarray(w));
     expect(al.advanceSamples).toBe(Math.round(raw.latencySamples));
@@ -300,16 +414,30 @@ describe('latency alignment', () => {
 
 describe('pair.ts pure parts', () => {
   it('plans gains: to the quieter file, or to a target, both lowered by the same amount when the ceiling binds', () => {
-    const q = planPairGains([{ integratedLufs: -14, truePeakDbtp: -6 }, { integratedLufs: -18, truePeakDbtp: -9 }]);
+    const q = planPairGains([
+      { integratedLufs: -14, truePeakDbtp: -6 },
+      { integratedLufs: -18, truePeakDbtp: -9 },
+    ]);
     expect(q.commonLufs).toBe(-18);
     expect(q.gainsDb).toEqual([-4, 0]);
     expect(q.ceilingBound).toBe(false);
-    const t = planPairGains([{ integratedLufs: -14, truePeakDbtp: -6 }, { integratedLufs: -18, truePeakDbtp: -2 }], { targetLufs: -14, ceilingDbtp: -1 });
+    const t = planPairGains(
+      [
+        { integratedLufs: -14, truePeakDbtp: -6 },
+        { integratedLufs: -18, truePeakDbtp: -2 },
+      ],
+      { targetLufs: -14, ceilingDbtp: -1 },
+    );
     // B at +4 dB would peak at +2 dBTP; the largest common level keeping B at -1 dBTP is -17 LUFS (minus the margin).
     expect(t.ceilingBound).toBe(true);
     expect(t.commonLufs).toBeCloseTo(-17.001, 6);
     expect(t.gainsDb[0] - t.gainsDb[1]).toBeCloseTo(-4, 9); // the 4 dB between them is kept
-    expect(() => planPairGains([{ integratedLufs: -Infinity, truePeakDbtp: -50 }, { integratedLufs: -20, truePeakDbtp: -5 }])).toThrow(/silent/);
+    expect(() =>
+      planPairGains([
+        { integratedLufs: -Infinity, truePeakDbtp: -50 },
+        { integratedLufs: -20, truePeakDbtp: -5 },
+      ]),
+    ).toThrow(/silent/);
   });
 
   it('names files', () => {

@@ -14,14 +14,29 @@ import type { NetTube } from '../src/dsp/circuit/netlist.ts';
 /** RFC 4180 reader: quoted fields, doubled quotes, CRLF records. */
 function readCsv(text: string): string[][] {
   const rows: string[][] = [];
-  let row: string[] = [], field = '', q = false;
+  let row: string[] = [],
+    field = '',
+    q = false;
   for (let i = 0; i < text.length; i++) {
     const c = text[i]!;
-    if (q) { if (c === '"') { if (text[i + 1] === '"') { field += '"'; i++; } else q = false; } else field += c; }
-    else if (c === '"') q = true;
-    else if (c === ',') { row.push(field); field = ''; }
-    else if (c === '\r' && text[i + 1] === '\n') { row.push(field); rows.push(row); row = []; field = ''; i++; }
-    else field += c;
+    if (q) {
+      if (c === '"') {
+        if (text[i + 1] === '"') {
+          field += '"';
+          i++;
+        } else q = false;
+      } else field += c;
+    } else if (c === '"') q = true;
+    else if (c === ',') {
+      row.push(field);
+      field = '';
+    } else if (c === '\r' && text[i + 1] === '\n') {
+      row.push(field);
+      rows.push(row);
+      row = [];
+      field = '';
+      i++;
+    } else field += c;
   }
   return rows;
 }
@@ -46,16 +61,35 @@ type Env = (a: string, b: string) => number;
 function evaluate(src: string, V: Env): number {
   let i = 0;
   const peek = () => src[i];
-  const eat = (s: string) => { if (src.startsWith(s, i)) { i += s.length; return true; } return false; };
+  const eat = (s: string) => {
+    if (src.startsWith(s, i)) {
+      i += s.length;
+      return true;
+    }
+    return false;
+  };
   const fns: Record<string, (...x: number[]) => number> = {
-    exp: Math.exp, ln: Math.log, sqrt: Math.sqrt, atan: Math.atan, abs: Math.abs, max: Math.max, min: Math.min,
+    exp: Math.exp,
+    ln: Math.log,
+    sqrt: Math.sqrt,
+    atan: Math.atan,
+    abs: Math.abs,
+    max: Math.max,
+    min: Math.min,
     pwr: (x, y) => Math.pow(Math.abs(x), y),
   };
   const primary = (): number => {
-    if (eat('(')) { const v = ternary(); if (!eat(')')) throw new Error(`) expected at ${i}`); return v; }
+    if (eat('(')) {
+      const v = ternary();
+      if (!eat(')')) throw new Error(`) expected at ${i}`);
+      return v;
+    }
     if (eat('-')) return -primary();
     const m = /^(\d+\.?\d*(?:e[+-]?\d+)?|\.\d+(?:e[+-]?\d+)?)/i.exec(src.slice(i));
-    if (m) { i += m[0].length; return Number(m[0]); }
+    if (m) {
+      i += m[0].length;
+      return Number(m[0]);
+    }
     const id = /^[A-Za-z_]\w*/.exec(src.slice(i));
     if (!id) throw new Error(`unexpected ${peek()} at ${i}`);
     i += id[0].length;
@@ -73,16 +107,50 @@ function evaluate(src: string, V: Env): number {
     if (!f) throw new Error(`unknown function ${id[0]}`);
     return f(...args);
   };
-  const term = (): number => { let v = primary(); for (;;) { if (eat('*')) v *= primary(); else if (eat('/')) v /= primary(); else return v; } };
-  const sum = (): number => { let v = term(); for (;;) { if (eat('+')) v += term(); else if (peek() === '-') { i++; v -= term(); } else return v; } };
-  const cmp = (): number => { const v = sum(); if (eat('>')) return v > sum() ? 1 : 0; if (eat('<')) return v < sum() ? 1 : 0; return v; };
-  const ternary = (): number => { const c = cmp(); if (eat('?')) { const a = ternary(); if (!eat(':')) throw new Error(': expected'); const b = ternary(); return c !== 0 ? a : b; } return c; };
+  const term = (): number => {
+    let v = primary();
+    for (;;) {
+      if (eat('*')) v *= primary();
+      else if (eat('/')) v /= primary();
+      else return v;
+    }
+  };
+  const sum = (): number => {
+    let v = term();
+    for (;;) {
+      if (eat('+')) v += term();
+      else if (peek() === '-') {
+        i++;
+        v -= term();
+      } else return v;
+    }
+  };
+  const cmp = (): number => {
+    const v = sum();
+    if (eat('>')) return v > sum() ? 1 : 0;
+    if (eat('<')) return v < sum() ? 1 : 0;
+    return v;
+  };
+  const ternary = (): number => {
+    const c = cmp();
+    if (eat('?')) {
+      const a = ternary();
+      if (!eat(':')) throw new Error(': expected');
+      const b = ternary();
+      return c !== 0 ? a : b;
+    }
+    return c;
+  };
   const v = ternary();
   if (i !== src.length) throw new Error(`trailing input at ${i}: ${src.slice(i, i + 20)}`);
   return v;
 }
 
-interface SpiceLine { name: string; nodes: string[]; rest: string }
+interface SpiceLine {
+  name: string;
+  nodes: string[];
+  rest: string;
+}
 function parseSpice(text: string): SpiceLine[] {
   const lines = text.split('\n').filter((l) => l && !l.startsWith('*') && !l.startsWith('.'));
   return lines.map((l) => {
@@ -118,7 +186,15 @@ describe('SPICE export', () => {
     });
     it(`${design.name}: behavioural sources evaluate to the model currents`, () => {
       const tubes = n.elements.filter((e) => e.kind === 'triode' || e.kind === 'pentode') as NetTube[];
-      const points: [number, number, number][] = [[-2, 250, 140], [-0.5, 100, 60], [0.3, 50, 20], [-8, 300, 200], [0, 5, 2], [-1, -10, 50], [-1, 100, -5]];
+      const points: [number, number, number][] = [
+        [-2, 250, 140],
+        [-0.5, 100, 60],
+        [0.3, 50, 20],
+        [-8, 300, 200],
+        [0, 5, 2],
+        [-1, -10, 50],
+        [-1, 100, -5],
+      ];
       const s = newSlopes();
       for (const t of tubes) {
         const k = map.get(t.nodes.cathode)!;
@@ -127,10 +203,14 @@ describe('SPICE export', () => {
           if (t.kind === 'pentode') volts[map.get(t.nodes.screen)!] = vsk;
           const V: Env = (a, b) => (volts[a] ?? 0) - (volts[b] ?? 0);
           const b = (suffix: string) => els.find((x) => x.name === `B${t.id}_${suffix}`)!;
-          if (t.kind === 'triode') korenTriode(t.model, vgk, vpk, 1, s); else korenPentodePlate(t.model, vgk, vpk, vsk, 1, s);
+          if (t.kind === 'triode') korenTriode(t.model, vgk, vpk, 1, s);
+          else korenPentodePlate(t.model, vgk, vpk, vsk, 1, s);
           expect(evaluate(b('P').rest, V)).toBeCloseTo(s.amps, 15);
           expect(b('P').nodes).toEqual([map.get(t.nodes.plate), k]);
-          if (t.kind === 'pentode') { korenPentodeScreen(t.model, vgk, vsk, 1, s); expect(evaluate(b('S').rest, V)).toBeCloseTo(s.amps, 15); }
+          if (t.kind === 'pentode') {
+            korenPentodeScreen(t.model, vgk, vsk, 1, s);
+            expect(evaluate(b('S').rest, V)).toBeCloseTo(s.amps, 15);
+          }
           gridCurrentAt(t.gridCurrent!, vgk, s);
           expect(evaluate(b('G').rest, V) / s.amps).toBeCloseTo(1, 12);
         }

@@ -7,7 +7,15 @@ import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
 import { designCircuit, withPart, type Design, type Part, type PotPart, type ResistorPart } from '../src/dsp/circuit/design.ts';
 import { OversampledCircuit } from '../src/dsp/render/oversampled.ts';
 import { Oversampler } from '../src/dsp/oversampling/oversampler.ts';
-import { planModel, DualSlotEngine, CROSSFADE_SECONDS, DEFAULT_LIVE_FACTOR, SAFETY_SUSTAIN_SECONDS, WARM_BASE_SAMPLES, type SlotModel } from '../src/dsp/realtime/dual-slot-engine.ts';
+import {
+  planModel,
+  DualSlotEngine,
+  CROSSFADE_SECONDS,
+  DEFAULT_LIVE_FACTOR,
+  SAFETY_SUSTAIN_SECONDS,
+  WARM_BASE_SAMPLES,
+  type SlotModel,
+} from '../src/dsp/realtime/dual-slot-engine.ts';
 import type { FromProcessor, MeterReport, ToProcessor } from '../src/dsp/realtime/messages.ts';
 import { LIVE_TUBE_FUNCTIONS, type SlotPlan } from '../src/dsp/circuit/plan.ts';
 
@@ -50,7 +58,9 @@ const part = <T extends Part>(d: Design, id: string): T => d.parts.find((p) => p
 const meters = (m: readonly FromProcessor[]): MeterReport[] => m.filter((x): x is MeterReport => x.type === 'meter');
 const errors = (m: readonly FromProcessor[]): string[] => m.flatMap((x) => (x.type === 'error' ? [x.message] : []));
 
-beforeAll(async () => { await installShim(FS); });
+beforeAll(async () => {
+  await installShim(FS);
+});
 
 describe('processor messages', () => {
   it('announces itself, loads designs and answers bad messages with one-line errors', () => {
@@ -58,7 +68,7 @@ describe('processor messages', () => {
     expect(p.posted[0]).toEqual({ type: 'ready', sampleRateHz: FS, factor: DEFAULT_LIVE_FACTOR });
     p.send({ type: 'load-design', slot: 'A', design: TT } satisfies ToProcessor);
     // instantiated, warmed up a few samples per block (dual-slot-engine.ts), faded in
-    for (let b = 0; b < 8 * WARM_BASE_SAMPLES / 32 && !p.posted.some((m) => m.type === 'loaded'); b++) p.run(new Float32Array(128));
+    for (let b = 0; b < (8 * WARM_BASE_SAMPLES) / 32 && !p.posted.some((m) => m.type === 'loaded'); b++) p.run(new Float32Array(128));
     const loaded = p.posted.find((m) => m.type === 'loaded');
     expect(loaded).toMatchObject({ type: 'loaded', slot: 'A', designName: TT.name, tubeIds: ['V1', 'V2'] });
     const bad: unknown[] = [
@@ -78,7 +88,10 @@ describe('processor messages', () => {
     for (const m of bad) p.send(m);
     const errs = errors(p.posted);
     expect(errs).toHaveLength(bad.length);
-    for (const e of errs) { expect(e).not.toContain('\n'); expect(e.length).toBeGreaterThan(10); }
+    for (const e of errs) {
+      expect(e).not.toContain('\n');
+      expect(e.length).toBeGreaterThan(10);
+    }
     expect(errs[2]).toContain('R99');
     expect(errs[5]).toMatch(/positive/);
     // the slot still plays after the rejected messages
@@ -99,14 +112,23 @@ describe('processor messages', () => {
     expect(last.gridVolts).toBeLessThan(-0.5);
     // Plates sit between ground and B+ (300 V) at DC (common practice: resistive loads).
     expect(last.plateVolts).toHaveLength(2);
-    for (const v of last.plateVolts) { expect(v).toBeGreaterThan(0); expect(v).toBeLessThan(300); }
+    for (const v of last.plateVolts) {
+      expect(v).toBeGreaterThan(0);
+      expect(v).toBeLessThan(300);
+    }
     expect(last.inputPeakVolts).toBe(0);
     expect(last.limiterOn).toBe(true);
     expect(last.loadFraction).toBeGreaterThan(0);
   });
 
-  it('every report carries both slots\' traces, whatever is monitored: at rest each equals its own DC operating point', () => {
-    const p = makeProcessor({ initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT }, { type: 'monitor', target: 'B' }] });
+  it("every report carries both slots' traces, whatever is monitored: at rest each equals its own DC operating point", () => {
+    const p = makeProcessor({
+      initial: [
+        { type: 'load-design', slot: 'A', design: TT },
+        { type: 'load-design', slot: 'B', design: PT },
+        { type: 'monitor', target: 'B' },
+      ],
+    });
     p.run(new Float32Array(FS / 2)); // silence: both slots stay at their operating points
     const last = meters(p.posted).at(-1)!;
     // the DC operating point (a separate solve: capacitors open, supplies stepped up) per design
@@ -140,11 +162,16 @@ describe('processor messages', () => {
 
 describe('block processing', () => {
   it('slot A equals the oversampled circuit scaled to full scale; dry is the input delayed by the filter latency', () => {
-    const cal = 0.3, scale = 40;
-    const p = makeProcessor({ initial: [
-      { type: 'load-design', slot: 'A', design: PT }, { type: 'set-input-calibration', voltsAtFullScale: cal },
-      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: scale }, { type: 'set-limiter', enabled: false },
-    ] });
+    const cal = 0.3,
+      scale = 40;
+    const p = makeProcessor({
+      initial: [
+        { type: 'load-design', slot: 'A', design: PT },
+        { type: 'set-input-calibration', voltsAtFullScale: cal },
+        { type: 'set-output-scale', slot: 'A', voltsAtFullScale: scale },
+        { type: 'set-limiter', enabled: false },
+      ],
+    });
     const x = sine(330, 0.8, 6000);
     const y = p.run(x);
     const oc = new OversampledCircuit(designCircuit(PT), FS, DEFAULT_LIVE_FACTOR, undefined, LIVE);
@@ -156,7 +183,12 @@ describe('block processing', () => {
     }
     expect(worst).toBeLessThan(1e-6);
     // dry: delayed by round(latency) of the same oversampler (sample-aligned with the slots)
-    const d = makeProcessor({ initial: [{ type: 'monitor', target: 'dry' }, { type: 'set-limiter', enabled: false }] });
+    const d = makeProcessor({
+      initial: [
+        { type: 'monitor', target: 'dry' },
+        { type: 'set-limiter', enabled: false },
+      ],
+    });
     const yd = d.run(x);
     const delay = Math.round(new Oversampler(DEFAULT_LIVE_FACTOR).latencyBaseSamples);
     expect(delay).toBeGreaterThan(0);
@@ -164,7 +196,12 @@ describe('block processing', () => {
   });
 
   it('gives the same output for any block size when nothing changes', () => {
-    const init = { initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: SP }] as ToProcessor[] };
+    const init = {
+      initial: [
+        { type: 'load-design', slot: 'A', design: TT },
+        { type: 'load-design', slot: 'B', design: SP },
+      ] as ToProcessor[],
+    };
     const x = sine(220, 0.6, 3000);
     const a = makeProcessor(init).run(x, 128);
     const b = makeProcessor(init).run(x, 37);
@@ -176,10 +213,17 @@ describe('robustness', () => {
   it('never emits NaN/Inf or exceeds the ceiling under a seeded random message storm', () => {
     const r = makeRandom(20240607);
     const designs = [TT, PT, SP];
-    const pick = <T,>(xs: readonly T[]): T => xs[Math.floor(r() * xs.length)]!;
-    const p = makeProcessor({ initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT }, { type: 'set-live-input', live: true }] });
+    const pick = <T>(xs: readonly T[]): T => xs[Math.floor(r() * xs.length)]!;
+    const p = makeProcessor({
+      initial: [
+        { type: 'load-design', slot: 'A', design: TT },
+        { type: 'load-design', slot: 'B', design: PT },
+        { type: 'set-live-input', live: true },
+      ],
+    });
     const slotDesign: Record<'A' | 'B', Design> = { A: TT, B: PT };
-    let worst = 0, nonFinite = 0;
+    let worst = 0,
+      nonFinite = 0;
     const wild = () => pick([r() * 2, -r(), Number.NaN, Infinity, 1e300, 0, r() * 1e6]);
     for (let step = 0; step < 120; step++) {
       const slot = pick(['A', 'B'] as const);
@@ -192,11 +236,15 @@ describe('robustness', () => {
         { type: 'set-output-scale', slot, voltsAtFullScale: pick([1, 10, 100, wild()]) },
         { type: 'set-limiter', enabled: r() < 0.5 },
         { type: 'set-mute', muted: r() < 0.2 },
-        pt.kind === 'pot' ? { type: 'set-part', slot, part: { ...pt, position: pick([0, 1, r(), wild()]) } }
-          : pt.kind === 'resistor' ? { type: 'set-part', slot, part: { ...pt, ohms: pt.ohms * pick([0.5, 2, r() * 10, wild()]) } }
-          : pt.kind === 'capacitor' ? { type: 'set-part', slot, part: { ...pt, farads: pt.farads * pick([0.1, 3, wild()]) } }
-          : pt.kind === 'tube' ? { type: 'set-tube-sample', slot, tubeId: pt.id, sample: pick([0.7, 1.3, wild()]) }
-          : { type: 'set-part', slot, part: pt },
+        pt.kind === 'pot'
+          ? { type: 'set-part', slot, part: { ...pt, position: pick([0, 1, r(), wild()]) } }
+          : pt.kind === 'resistor'
+            ? { type: 'set-part', slot, part: { ...pt, ohms: pt.ohms * pick([0.5, 2, r() * 10, wild()]) } }
+            : pt.kind === 'capacitor'
+              ? { type: 'set-part', slot, part: { ...pt, farads: pt.farads * pick([0.1, 3, wild()]) } }
+              : pt.kind === 'tube'
+                ? { type: 'set-tube-sample', slot, tubeId: pt.id, sample: pick([0.7, 1.3, wild()]) }
+                : { type: 'set-part', slot, part: pt },
         { type: 'load-design', slot, design: pick(designs) },
         { type: 'set-quality', factor: pick([1, 2, 4]) },
         { type: 'reset' },
@@ -205,9 +253,12 @@ describe('robustness', () => {
       const m = pick(msgs) as ToProcessor;
       if (m.type === 'load-design') slotDesign[m.slot] = m.design;
       p.send(m);
-      const x = Float32Array.from({ length: 128 * (1 + Math.floor(r() * 4)) }, () => (r() < 0.01 ? pick([1, -1, Number.NaN]) : (r() * 2 - 1)));
+      const x = Float32Array.from({ length: 128 * (1 + Math.floor(r() * 4)) }, () => (r() < 0.01 ? pick([1, -1, Number.NaN]) : r() * 2 - 1));
       const y = p.run(x);
-      for (const v of y) { if (!Number.isFinite(v)) nonFinite++; worst = Math.max(worst, Math.abs(v)); }
+      for (const v of y) {
+        if (!Number.isFinite(v)) nonFinite++;
+        worst = Math.max(worst, Math.abs(v));
+      }
     }
     expect(nonFinite).toBe(0);
     // live input is on all along: the limiter cannot be turned off (float32 rounding allowed)
@@ -224,17 +275,38 @@ describe('robustness', () => {
       const bad = new Float64Array(inner.probeValues.length).fill(Number.NaN);
       let n = 0;
       return {
-        processSample: (v) => { n++; return poison >= 0 && n >= poison ? Number.NaN : inner.processSample(v); },
-        processRange(src, dst, off, len) { for (let k = off; k < off + len; k++) dst[k] = this.processSample(src[k]!); },
-        get latencySamples() { return inner.latencySamples; },
-        get outputDcVolts() { return inner.outputDcVolts; },
-        get probeValues() { return poison >= 0 && n >= poison ? bad : inner.probeValues; },
-        setValues: (u) => inner.setValues(u), setSwitch: (i, c) => inner.setSwitch(i, c), setTubeSample: (i, s) => inner.setTubeSample(i, s),
+        processSample: (v) => {
+          n++;
+          return poison >= 0 && n >= poison ? Number.NaN : inner.processSample(v);
+        },
+        processRange(src, dst, off, len) {
+          for (let k = off; k < off + len; k++) dst[k] = this.processSample(src[k]!);
+        },
+        get latencySamples() {
+          return inner.latencySamples;
+        },
+        get outputDcVolts() {
+          return inner.outputDcVolts;
+        },
+        get probeValues() {
+          return poison >= 0 && n >= poison ? bad : inner.probeValues;
+        },
+        setValues: (u) => inner.setValues(u),
+        setSwitch: (i, c) => inner.setSwitch(i, c),
+        setTubeSample: (i, s) => inner.setTubeSample(i, s),
       };
     };
     const posted: FromProcessor[] = [];
-    const e = new DualSlotEngine({ sampleRateHz: FS, createModel: factory, post: (m) => posted.push(structuredClone(m)), meterHz: 0,
-      initial: [{ type: 'load-design', slot: 'A', design: TT }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 30 }] });
+    const e = new DualSlotEngine({
+      sampleRateHz: FS,
+      createModel: factory,
+      post: (m) => posted.push(structuredClone(m)),
+      meterHz: 0,
+      initial: [
+        { type: 'load-design', slot: 'A', design: TT },
+        { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 30 },
+      ],
+    });
     const x = sine(440, 0.5, 128 * 40);
     const y = new Float32Array(x.length);
     const block = (b: number) => e.process(x.subarray(b * 128, b * 128 + 128), y.subarray(b * 128, b * 128 + 128), 128);
@@ -257,14 +329,20 @@ describe('click-free editing', () => {
     // single-pentode (shortest time constants among the templates), plate load 220 k -> 330 k
     const r3 = part<ResistorPart>(SP, 'R3');
     const changed: ResistorPart = { ...r3, ohms: 330e3 };
-    const init = (d: Design): ToProcessor[] => [{ type: 'load-design', slot: 'A', design: d }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 20 }, { type: 'set-limiter', enabled: false }];
-    const n = Math.round(1.5 * FS), at = 128 * 112; // the change lands on a block boundary (0.3 s)
+    const init = (d: Design): ToProcessor[] => [
+      { type: 'load-design', slot: 'A', design: d },
+      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 20 },
+      { type: 'set-limiter', enabled: false },
+    ];
+    const n = Math.round(1.5 * FS),
+      at = 128 * 112; // the change lands on a block boundary (0.3 s)
     const x = sine(200, 0.5, n);
     const p = makeProcessor({ initial: init(SP) });
     const y1 = p.run(x.subarray(0, at));
     p.send({ type: 'set-part', slot: 'A', part: changed });
     const y = new Float32Array(n);
-    y.set(y1); y.set(p.run(x.subarray(at)), at);
+    y.set(y1);
+    y.set(p.run(x.subarray(at)), at);
     const ref = makeProcessor({ initial: init(withPart(SP, changed)) }).run(x); // had the new value all along
     const same = makeProcessor({ initial: init(SP) }).run(x); // never changed
     const diff = y.map((v, k) => v - ref[k]!);
@@ -278,7 +356,9 @@ describe('click-free editing', () => {
     }
     console.log(`component change: without a glide the max jump is ${maxJump(yj, at - 2000, at + 4000).toFixed(4)}`);
     expect(maxJump(yj, at - 2000, at + 4000)).toBeGreaterThan(maxJump(same, at - 2000, at + 4000) * 2); // the measure sees a step
-    console.log(`component change: diff rms ${early.toExponential(2)} just after -> ${late.toExponential(2)} after 1.1 s; max jump ${maxJump(y, at - 2000, at + 4000).toFixed(4)} vs unchanged ${maxJump(same, at - 2000, at + 4000).toFixed(4)}`);
+    console.log(
+      `component change: diff rms ${early.toExponential(2)} just after -> ${late.toExponential(2)} after 1.1 s; max jump ${maxJump(y, at - 2000, at + 4000).toFixed(4)} vs unchanged ${maxJump(same, at - 2000, at + 4000).toFixed(4)}`,
+    );
     expect(early).toBeGreaterThan(1e-4); // the change did something
     expect(late).toBeLessThan(early * 0.1); // ... and the state difference decays
     // No step: the largest sample-to-sample jump around the change stays within 25 % of the unchanged run's.
@@ -290,16 +370,30 @@ describe('click-free editing', () => {
     // differ in level and phase: an abrupt switch between them is a step.
     const x = sine(150, 0.02, 9600);
     const base: ToProcessor[] = [
-      { type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT },
-      { type: 'set-input-calibration', voltsAtFullScale: 0.2 }, { type: 'set-limiter', enabled: false },
+      { type: 'load-design', slot: 'A', design: TT },
+      { type: 'load-design', slot: 'B', design: PT },
+      { type: 'set-input-calibration', voltsAtFullScale: 0.2 },
+      { type: 'set-limiter', enabled: false },
     ];
-    const peakOf = (t: 'A' | 'B') => Math.max(...makeProcessor({ initial: [...base, { type: 'monitor', target: t }] }).run(x).map(Math.abs));
+    const peakOf = (t: 'A' | 'B') =>
+      Math.max(
+        ...makeProcessor({ initial: [...base, { type: 'monitor', target: t }] })
+          .run(x)
+          .map(Math.abs),
+      );
     // levels: A at 0.6 of full scale, B at 0.3, dry at 0.02
-    const init: ToProcessor[] = [...base, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: peakOf('A') / 0.6 }, { type: 'set-output-scale', slot: 'B', voltsAtFullScale: peakOf('B') / 0.3 }];
+    const init: ToProcessor[] = [
+      ...base,
+      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: peakOf('A') / 0.6 },
+      { type: 'set-output-scale', slot: 'B', voltsAtFullScale: peakOf('B') / 0.3 },
+    ];
     const only = (t: 'A' | 'B' | 'dry') => makeProcessor({ initial: [...init, { type: 'monitor', target: t }] }).run(x);
-    const a = only('A'), b = only('B'), dry = only('dry');
+    const a = only('A'),
+      b = only('B'),
+      dry = only('dry');
     const p = makeProcessor({ initial: init });
-    const sw1 = 128 * 25, sw2 = 128 * 50;
+    const sw1 = 128 * 25,
+      sw2 = 128 * 50;
     const y = new Float32Array(x.length);
     y.set(p.run(x.subarray(0, sw1)));
     p.send({ type: 'monitor', target: 'B' });
@@ -313,7 +407,9 @@ describe('click-free editing', () => {
     const own = Math.max(maxJump(a), maxJump(b), maxJump(dry));
     const bound = own + spread / N + 1e-6;
     const abrupt = Float32Array.from(x, (_, k) => (k < sw1 ? a[k]! : k < sw2 ? b[k]! : dry[k]!));
-    console.log(`crossfade: max jump ${maxJump(y).toFixed(4)}, bound ${bound.toFixed(4)}, the signals' own ${own.toFixed(4)}, an abrupt switch ${maxJump(abrupt).toFixed(4)}`);
+    console.log(
+      `crossfade: max jump ${maxJump(y).toFixed(4)}, bound ${bound.toFixed(4)}, the signals' own ${own.toFixed(4)}, an abrupt switch ${maxJump(abrupt).toFixed(4)}`,
+    );
     expect(maxJump(abrupt)).toBeGreaterThan(3 * own); // an abrupt switch would click
     expect(maxJump(y)).toBeLessThanOrEqual(bound);
     // settles on the new monitor: after the fade it is exactly B, then exactly dry
@@ -323,7 +419,11 @@ describe('click-free editing', () => {
 
   it('holds the -1 dBFS ceiling (and without the limiter the same signal goes over)', () => {
     const x = sine(700, 1, 9600);
-    const init: ToProcessor[] = [{ type: 'load-design', slot: 'A', design: PT }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 5 }, { type: 'set-output-level', db: 12 }];
+    const init: ToProcessor[] = [
+      { type: 'load-design', slot: 'A', design: PT },
+      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 5 },
+      { type: 'set-output-level', db: 12 },
+    ];
     const y = makeProcessor({ initial: init }).run(x);
     const peak = Math.max(...y.map(Math.abs));
     expect(peak).toBeLessThanOrEqual(CEILING * (1 + F32_EPS));
@@ -335,7 +435,11 @@ describe('click-free editing', () => {
   it('with live input, an output pinned in the limiter for 1 s is muted once and reported; not without live input, not at a sane level', () => {
     // A 700 Hz sine driven +12 dB into the ceiling (as above) stands for runaway feedback.
     const x = sine(700, 1, 2 * FS);
-    const loud: ToProcessor[] = [{ type: 'load-design', slot: 'A', design: PT }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 5 }, { type: 'set-output-level', db: 12 }];
+    const loud: ToProcessor[] = [
+      { type: 'load-design', slot: 'A', design: PT },
+      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 5 },
+      { type: 'set-output-level', db: 12 },
+    ];
     const live = makeProcessor({ initial: [...loud, { type: 'set-live-input', live: true }] });
     const y = live.run(x);
     const muted = live.posted.filter((m) => m.type === 'safety-muted');
@@ -367,8 +471,13 @@ describe('click-free editing', () => {
     // (below soft single-coil picking, 10-30 mV, check-values.md) so the circuit stays nearly linear.
     const vol = part<PotPart>(TT, 'VOL');
     const x = sine(200, 0.01, Math.round(0.8 * FS));
-    const init: ToProcessor[] = [{ type: 'load-design', slot: 'A', design: TT }, { type: 'set-input-calibration', voltsAtFullScale: 0.2 },
-      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 2 }, { type: 'set-limiter', enabled: false }, { type: 'set-part', slot: 'A', part: { ...vol, position: 0.35 } }];
+    const init: ToProcessor[] = [
+      { type: 'load-design', slot: 'A', design: TT },
+      { type: 'set-input-calibration', voltsAtFullScale: 0.2 },
+      { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 2 },
+      { type: 'set-limiter', enabled: false },
+      { type: 'set-part', slot: 'A', part: { ...vol, position: 0.35 } },
+    ];
     const stepEvery = 800; // 60 Hz at 48 kHz
     const sweep = (smooth: boolean): Float32Array => {
       const posted: FromProcessor[] = [];
@@ -382,13 +491,19 @@ describe('click-free editing', () => {
       expect(errors(posted)).toEqual([]);
       return y;
     };
-    const smooth = sweep(true), jumpy = sweep(false);
+    const smooth = sweep(true),
+      jumpy = sweep(false);
     const steady = makeProcessor({ initial: [...init, { type: 'set-part', slot: 'A', part: { ...vol, position: 0.85 } }] }).run(x);
-    const from = 6 * stepEvery, to = 37 * stepEvery;
+    const from = 6 * stepEvery,
+      to = 37 * stepEvery;
     // largest second difference (steps show up there; a 200 Hz tone is 63 dB down) over the peak level
     const z = (y: Float32Array) => maxD2(y, from, to) / maxAbs(y, from, to);
-    const zs = z(smooth), zj = z(jumpy), z0 = z(steady);
-    console.log(`zipper (max 2nd difference / peak): smoothed ${(20 * Math.log10(zs / z0)).toFixed(1)} dB, jumping ${(20 * Math.log10(zj / z0)).toFixed(1)} dB above a steady pot`);
+    const zs = z(smooth),
+      zj = z(jumpy),
+      z0 = z(steady);
+    console.log(
+      `zipper (max 2nd difference / peak): smoothed ${(20 * Math.log10(zs / z0)).toFixed(1)} dB, jumping ${(20 * Math.log10(zj / z0)).toFixed(1)} dB above a steady pot`,
+    );
     expect(zj / z0).toBeGreaterThan(2); // the measure sees zipper noise when the pot jumps
     // Smoothing cuts the steps by the ratio of message interval to glide step (800 / 64 samples,
     // 22 dB in theory); ask for at least 14 dB.

@@ -27,8 +27,12 @@ describe('capacitor voltage', () => {
     expect(f[0]!.message).toMatch(/cold start/);
   });
   it('a capacitor under 80 % of its rating passes; above 80 % warns', () => {
-    expect(codesOf(edit(cleanStage(), { replace: [{ id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9, ratedVolts: 400 }] }))).not.toContain('warning:capacitor-voltage');
-    expect(codesOf(edit(cleanStage(), { replace: [{ id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9, ratedVolts: 350 }] }))).toContain('warning:capacitor-voltage');
+    expect(codesOf(edit(cleanStage(), { replace: [{ id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9, ratedVolts: 400 }] }))).not.toContain(
+      'warning:capacitor-voltage',
+    );
+    expect(codesOf(edit(cleanStage(), { replace: [{ id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9, ratedVolts: 350 }] }))).toContain(
+      'warning:capacitor-voltage',
+    );
   });
 });
 
@@ -48,14 +52,23 @@ describe('resistor power', () => {
 
 describe('tube ratings (library maxima from the data sheets)', () => {
   it('plate dissipation over 1 W (12AX7, RCA/Sylvania sheet, confirmed)', () => {
-    const d = edit(cleanStage(), { replace: [{ id: 'R1', kind: 'resistor', nodes: ['bp', 'b1'], ohms: 100 }, { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 10e3 }, { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 47 }] });
+    const d = edit(cleanStage(), {
+      replace: [
+        { id: 'R1', kind: 'resistor', nodes: ['bp', 'b1'], ohms: 100 },
+        { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 10e3 },
+        { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 47 },
+      ],
+    });
     const s = ratingsSheet(d, fast);
     expect(s.tubes[0]!.plateWatts.warm!).toBeGreaterThan(1);
     expect(codesOf(d)).toContain('error:plate-dissipation');
   });
   it('plate voltage over 300 V (12AX7 sheet, confirmed)', () => {
     // a starved stage (100 k cathode resistor) off 450 V: almost no plate current, so the plate sits near B+
-    const d = { ...edit(cleanStage(), { replace: [{ id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 100e3 }] }), supply: { node: 'bp', volts: 450, ohms: 1000, filterFarads: 47e-6 } };
+    const d = {
+      ...edit(cleanStage(), { replace: [{ id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 100e3 }] }),
+      supply: { node: 'bp', volts: 450, ohms: 1000, filterFarads: 47e-6 },
+    };
     expect(codesOf(d)).toContain('error:plate-voltage');
   });
   it('screen voltage over 200 V and screen dissipation over 0.2 W (EF86, from memory)', () => {
@@ -65,24 +78,31 @@ describe('tube ratings (library maxima from the data sheets)', () => {
     expect(c).toContain('error:screen-dissipation');
   });
   it('cathode current over 15 mA (12AT7 / ECC81 sheet, confirmed)', () => {
-    const d = edit(cleanStage(), { replace: [
-      { id: 'V1', kind: 'tube', type: '12AT7', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: 'k1' } },
-      { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 2.2e3 }, { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 47 },
-      { id: 'R1', kind: 'resistor', nodes: ['bp', 'b1'], ohms: 100 },
-    ] });
+    const d = edit(cleanStage(), {
+      replace: [
+        { id: 'V1', kind: 'tube', type: '12AT7', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: 'k1' } },
+        { id: 'R3', kind: 'resistor', nodes: ['b1', 'p1'], ohms: 2.2e3 },
+        { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 47 },
+        { id: 'R1', kind: 'resistor', nodes: ['bp', 'b1'], ohms: 100 },
+      ],
+    });
     expect(ratingsSheet(d, fast).tubes[0]!.cathodeAmps.warm!).toBeGreaterThan(0.015);
     expect(codesOf(d)).toContain('error:cathode-current');
   });
   it('heater-cathode voltage over 180 V (12AX7, confirmed) with the heater elevation that fixes it', () => {
     // a cathode follower straight off a 350 V B+: the cathode sits near 200 V
-    const follower = (heaterVolts: number): Design => edit(cleanStage({ supply: { node: 'bp', volts: 350, ohms: 1000, filterFarads: 47e-6 } }), { replace: [
-      { id: 'R2', kind: 'resistor', nodes: ['g1', 'gb'], ohms: 1e6 },
-      { id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'b1', grid: 'g1', cathode: 'k1' }, heaterVolts },
-      { id: 'R3', kind: 'resistor', nodes: ['b1', 'gb'], ohms: 100e3 },
-      { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 100e3 },
-      { id: 'C3', kind: 'capacitor', nodes: ['gb', '0'], farads: 1e-6 },
-      { id: 'C4', kind: 'capacitor', nodes: ['k1', 'out'], farads: 22e-9 },
-    ], add: [{ id: 'R5', kind: 'resistor', nodes: ['gb', '0'], ohms: 300e3 }] });
+    const follower = (heaterVolts: number): Design =>
+      edit(cleanStage({ supply: { node: 'bp', volts: 350, ohms: 1000, filterFarads: 47e-6 } }), {
+        replace: [
+          { id: 'R2', kind: 'resistor', nodes: ['g1', 'gb'], ohms: 1e6 },
+          { id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'b1', grid: 'g1', cathode: 'k1' }, heaterVolts },
+          { id: 'R3', kind: 'resistor', nodes: ['b1', 'gb'], ohms: 100e3 },
+          { id: 'R4', kind: 'resistor', nodes: ['k1', '0'], ohms: 100e3 },
+          { id: 'C3', kind: 'capacitor', nodes: ['gb', '0'], farads: 1e-6 },
+          { id: 'C4', kind: 'capacitor', nodes: ['k1', 'out'], farads: 22e-9 },
+        ],
+        add: [{ id: 'R5', kind: 'resistor', nodes: ['gb', '0'], ohms: 300e3 }],
+      });
     const bad = ratingsSheet(follower(0), fast);
     const hk = bad.tubes[0]!.heaterCathode;
     expect(hk.worstVolts).toBeGreaterThan(180);
@@ -99,7 +119,10 @@ describe('tube ratings (library maxima from the data sheets)', () => {
   it('grid-circuit resistance: an error with cathode bias, a note with grid-leak bias', () => {
     const big = edit(cleanStage(), { replace: [{ id: 'R2', kind: 'resistor', nodes: ['g1', '0'], ohms: 10e6 }] });
     expect(codesOf(big)).toContain('error:grid-circuit-resistance');
-    const leak = edit(big, { remove: ['R4', 'C3'], replace: [{ id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: '0' } }] });
+    const leak = edit(big, {
+      remove: ['R4', 'C3'],
+      replace: [{ id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'p1', grid: 'g1', cathode: '0' } }],
+    });
     const c = codesOf(leak);
     expect(c).toContain('note:grid-leak-bias');
     expect(c).not.toContain('error:grid-circuit-resistance');

@@ -22,7 +22,7 @@ const SP = TEMPLATES['single-pentode']!;
  * (WARM_BASE_SAMPLES in chunks of at most 32 per block, fewer while the code is cold and a chunk
  * takes long: more blocks on a loaded machine), the 5 ms fade; with room to spare.
  */
-const LOAD_BLOCKS = 8 * WARM_BASE_SAMPLES / 32;
+const LOAD_BLOCKS = (8 * WARM_BASE_SAMPLES) / 32;
 
 function tube(d: Design, id: string): TubePart {
   const p = d.parts.find((q) => q.id === id);
@@ -64,7 +64,8 @@ describe('slot plans', () => {
     const m = plan.engine.matrices;
     const short = { ...plan, engine: { ...plan.engine, matrices: { ...m, F: m.F.subarray(1) } } };
     expect(() => validateSlotPlan(short)).toThrow(/wrong size/);
-    const nan = m.E.slice(); nan[0] = Number.NaN;
+    const nan = m.E.slice();
+    nan[0] = Number.NaN;
     expect(() => validateSlotPlan({ ...plan, engine: { ...plan.engine, matrices: { ...m, E: nan } } })).toThrow(/not finite/);
     expect(planTransferables(plan).length).toBe(7 + plan.tables.length);
     expect(plan.tables.length).toBeGreaterThan(0);
@@ -73,7 +74,9 @@ describe('slot plans', () => {
 
 describe('the processor only instantiates plans', () => {
   const restore: (() => void)[] = [];
-  afterEach(() => { for (const r of restore.splice(0)) r(); });
+  afterEach(() => {
+    for (const r of restore.splice(0)) r();
+  });
 
   /** Count calls of a prototype method made while `inside(this)` is true. */
   function countInside<T extends object>(proto: T, name: keyof T & string, inside: (self: object) => boolean): { n: number } {
@@ -83,7 +86,9 @@ describe('the processor only instantiates plans', () => {
       if (inside(this)) c.n++;
       return orig.apply(this, a);
     };
-    restore.push(() => { (proto as Record<string, unknown>)[name] = orig; });
+    restore.push(() => {
+      (proto as Record<string, unknown>)[name] = orig;
+    });
     return c;
   }
 
@@ -92,11 +97,17 @@ describe('the processor only instantiates plans', () => {
     // a DC solve is an operatingPoint() call with no cached point (the engine's private `op`)
     const dcSolves = countInside(CircuitEngine.prototype, 'operatingPoint', (self) => inProcess && Reflect.get(self, 'op') === null);
     const compiles = countInside(LinearNetworkCompiler.prototype, 'compile', () => inProcess);
-    let plansInProcess = 0, plansOutside = 0;
-    const planner: Planner = (d, fs, f) => { if (inProcess) plansInProcess++; else plansOutside++; return livePlanner(d, fs, f); };
+    let plansInProcess = 0,
+      plansOutside = 0;
+    const planner: Planner = (d, fs, f) => {
+      if (inProcess) plansInProcess++;
+      else plansOutside++;
+      return livePlanner(d, fs, f);
+    };
     const posted: FromProcessor[] = [];
     const e = new DualSlotEngine({ sampleRateHz: FS, planner, meterHz: 0, post: (m) => posted.push(m) });
-    const out = new Float32Array(128), inp = new Float32Array(128);
+    const out = new Float32Array(128),
+      inp = new Float32Array(128);
     const run = (blocks: number) => {
       for (let b = 0; b < blocks; b++) {
         for (let k = 0; k < 128; k++) inp[k] = 0.3 * Math.sin(k * 0.05 + b);
@@ -116,7 +127,10 @@ describe('the processor only instantiates plans', () => {
       { type: 'set-quality', factor: 4, requestId: 7 },
       { type: 'reset', requestId: 8 },
     ];
-    for (const m of session) { e.handle(m); run(LOAD_BLOCKS / 2); }
+    for (const m of session) {
+      e.handle(m);
+      run(LOAD_BLOCKS / 2);
+    }
     run(20);
     expect(posted.filter((m) => m.type === 'error')).toEqual([]);
     expect(posted.filter((m) => m.type === 'loaded').length).toBeGreaterThanOrEqual(6);
@@ -131,7 +145,15 @@ describe('the processor only instantiates plans', () => {
   it('a plan from another thread is used as sent; a plan for another rate or factor is refused', () => {
     const posted: FromProcessor[] = [];
     let built = 0;
-    const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m), planner: (d, fs, f) => { built++; return livePlanner(d, fs, f); } });
+    const e = new DualSlotEngine({
+      sampleRateHz: FS,
+      meterHz: 0,
+      post: (m) => posted.push(m),
+      planner: (d, fs, f) => {
+        built++;
+        return livePlanner(d, fs, f);
+      },
+    });
     const plan = structuredClone(buildSlotPlan(TT, FS, 4));
     e.handle({ type: 'load-design', slot: 'A', design: TT, plan, requestId: 11 });
     e.handle({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, 44100, 4), requestId: 12 });
@@ -156,7 +178,7 @@ describe('the processor only instantiates plans', () => {
 });
 
 describe('request ids', () => {
-  it('a refused set-part on B answers B\'s id and leaves A\'s pending load to complete with its own', () => {
+  it("a refused set-part on B answers B's id and leaves A's pending load to complete with its own", () => {
     const posted: FromProcessor[] = [];
     const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m) });
     e.handle({ type: 'load-design', slot: 'B', design: TT, requestId: 1 });
@@ -177,24 +199,41 @@ describe('warm-up before the swap', () => {
     // limiter off: its gain memory would carry the fade-in's difference on (this compares the circuits)
     const warmed = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => posted.push(m), initial: [{ type: 'set-limiter', enabled: false }] });
     warmed.handle({ type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4), requestId: 1 });
-    const silence = new Float32Array(128), out = new Float32Array(128);
+    const silence = new Float32Array(128),
+      out = new Float32Array(128);
     let blocks = 0;
-    while (!posted.some((m) => m.type === 'loaded') && blocks < LOAD_BLOCKS) { warmed.process(silence, out, 128); blocks++; }
+    while (!posted.some((m) => m.type === 'loaded') && blocks < LOAD_BLOCKS) {
+      warmed.process(silence, out, 128);
+      blocks++;
+    }
     // not swapped in at once: the warm-up takes at least WARM_BASE_SAMPLES / 32 blocks
     expect(blocks).toBeGreaterThan(WARM_BASE_SAMPLES / 32);
     expect(blocks).toBeLessThan(LOAD_BLOCKS);
     // reference: the same plan loaded before the first block (no warm-up), fed from the swap on;
     // equal to the Newton tolerance (1e-5 V on a full scale of 1 V, the engine's default; from memory)
-    const fresh = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, initial: [{ type: 'set-limiter', enabled: false }, { type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4) }] });
+    const fresh = new DualSlotEngine({
+      sampleRateHz: FS,
+      meterHz: 0,
+      initial: [
+        { type: 'set-limiter', enabled: false },
+        { type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4) },
+      ],
+    });
     fresh.process(silence, out, 128);
-    const a = new Float32Array(128), b = new Float32Array(128);
-    let worst = 0, peak = 0;
+    const a = new Float32Array(128),
+      b = new Float32Array(128);
+    let worst = 0,
+      peak = 0;
     for (let k = 0; k < 40; k++) {
       const x = Float32Array.from({ length: 128 }, (_, j) => 0.8 * Math.sin((2 * Math.PI * 330 * (128 * k + j)) / FS));
       warmed.process(x, a, 128);
       fresh.process(x, b, 128);
       // after the 5 ms fade-in (2 blocks) the warmed slot must equal the fresh one: the warm-up left no state behind
-      if (k >= 3) for (let j = 0; j < 128; j++) { worst = Math.max(worst, Math.abs(a[j]! - b[j]!)); peak = Math.max(peak, Math.abs(b[j]!)); }
+      if (k >= 3)
+        for (let j = 0; j < 128; j++) {
+          worst = Math.max(worst, Math.abs(a[j]! - b[j]!));
+          peak = Math.max(peak, Math.abs(b[j]!));
+        }
     }
     expect(peak).toBeGreaterThan(0.01);
     expect(worst).toBeLessThan(1e-5);
@@ -206,13 +245,26 @@ describe('main-thread requests (src/audio/requests.ts) with the processor', () =
     const e = new DualSlotEngine({ sampleRateHz: FS, meterHz: 0, post: (m) => replies.settle(m) });
     const replies = new PendingReplies();
     const posted: string[] = [];
-    const box = new Outbox((m) => { posted.push(`${m.type}${'slot' in m ? m.slot : ''}`); e.handle(m); });
+    const box = new Outbox((m) => {
+      posted.push(`${m.type}${'slot' in m ? m.slot : ''}`);
+      e.handle(m);
+    });
     const later = <T>(v: T, ms: number): Promise<T> => new Promise((r) => setTimeout(() => r(v), ms));
-    const a = replies.open(), bad = replies.open(), b = replies.open();
-    const badOutcome = bad.reply.then(() => 'resolved', (err: Error) => err.message);
+    const a = replies.open(),
+      bad = replies.open(),
+      b = replies.open();
+    const badOutcome = bad.reply.then(
+      () => 'resolved',
+      (err: Error) => err.message,
+    );
     // A's plan arrives late, the next one fails, B's arrives first: posted in the order sent
     box.send(later({ type: 'load-design', slot: 'A', design: PT, plan: buildSlotPlan(PT, FS, 4), requestId: a.id } as const, 30));
-    box.send(Promise.reject(new Error('no plan')).catch((err: Error) => { replies.fail(bad.id, err); return null; }));
+    box.send(
+      Promise.reject(new Error('no plan')).catch((err: Error) => {
+        replies.fail(bad.id, err);
+        return null;
+      }),
+    );
     box.send({ type: 'set-output-scale', slot: 'A', voltsAtFullScale: 2 });
     box.send(later({ type: 'load-design', slot: 'B', design: TT, plan: buildSlotPlan(TT, FS, 4), requestId: b.id } as const, 1));
     expect(box.pending).toBe(4);

@@ -7,13 +7,21 @@ import type { MeterReport, SlotTrace } from '../src/dsp/realtime/messages.ts';
 function report(k: number, a: SlotTrace | null, b: SlotTrace | null, monitored: 'A' | 'B'): MeterReport {
   const t = monitored === 'A' ? a : b;
   return {
-    type: 'meter', inputPeakVolts: 0, outputPeakDbfs: -k, gridVolts: t?.gridVolts ?? 0, plateVolts: t?.plateVolts ?? [], loadFraction: 0.1,
-    limiterReductionDb: 0, limiterOn: true, traceSlot: t ? monitored : null, slotTraces: [a, b],
+    type: 'meter',
+    inputPeakVolts: 0,
+    outputPeakDbfs: -k,
+    gridVolts: t?.gridVolts ?? 0,
+    plateVolts: t?.plateVolts ?? [],
+    loadFraction: 0.1,
+    limiterReductionDb: 0,
+    limiterOn: true,
+    traceSlot: t ? monitored : null,
+    slotTraces: [a, b],
   };
 }
 
 describe('scope buffer', () => {
-  it('keeps each slot\'s traces through A/B switches, oldest first, wrapping at its capacity', () => {
+  it("keeps each slot's traces through A/B switches, oldest first, wrapping at its capacity", () => {
     const s = new ScopeBuffer(8);
     for (let k = 0; k < 12; k++) {
       s.push(report(k, { gridVolts: -1 - k, plateVolts: [100 + k, 200 + k] }, { gridVolts: -0.5, plateVolts: [50 + k] }, k % 3 === 0 ? 'B' : 'A'));

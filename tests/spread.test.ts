@@ -12,7 +12,8 @@ const D = TRIODE_INTO_TRIODE;
 
 describe('spread', () => {
   it('the same seed gives identical JSON; another seed differs', () => {
-    const a = JSON.stringify(spread(D, 5, 42)), b = JSON.stringify(spread(D, 5, 42));
+    const a = JSON.stringify(spread(D, 5, 42)),
+      b = JSON.stringify(spread(D, 5, 42));
     expect(a).toBe(b);
     expect(JSON.stringify(spread(D, 5, 43))).not.toBe(a);
   });
@@ -27,14 +28,18 @@ describe('spread', () => {
   it('draws tube samples within 0.66-1.33 and part values within their tolerance', () => {
     for (let k = 1; k < 200; k++) {
       const f = runFactors(D, 1, k);
-      for (const s of Object.values(f.tubeSamples)) { expect(s).toBeGreaterThanOrEqual(TUBE_SPREAD.low); expect(s).toBeLessThanOrEqual(TUBE_SPREAD.high); }
+      for (const s of Object.values(f.tubeSamples)) {
+        expect(s).toBeGreaterThanOrEqual(TUBE_SPREAD.low);
+        expect(s).toBeLessThanOrEqual(TUBE_SPREAD.high);
+      }
       expect(Math.abs(f.partFactors.R3! - 1)).toBeLessThanOrEqual(0.05); // R3 is a 5 % part
       expect(Math.abs(f.partFactors.C1! - 1)).toBeLessThanOrEqual(0.2); // C1 a 20 % electrolytic
     }
   });
   it('the random stream is uniform enough (mean 0.5, variance 1/12 of a uniform variable)', () => {
     const s = runStream(9, 3);
-    let m = 0, v = 0;
+    let m = 0,
+      v = 0;
     const n = 20000;
     const xs = Array.from({ length: n }, () => s());
     for (const x of xs) m += x / n;

@@ -36,15 +36,14 @@ describe('rectifier DC (check-values.md "Power supply", confirmed tube design si
   it('light load: DC ≈ 1.41 × RMS less diode drops', () => {
     // winding resistance given, regulation 0: the open-circuit RMS is the rated RMS
     const e = estimateSupply(
-      supply({ secondary: { rmsVolts: 250, ratedAmps: 0.1, regulationFraction: 0, windingOhms: 50 }, stages: [] , reservoirLoadAmps: 0.001 }),
+      supply({ secondary: { rmsVolts: 250, ratedAmps: 0.1, regulationFraction: 0, windingOhms: 50 }, stages: [], reservoirLoadAmps: 0.001 }),
     );
     const expected = 1.41 * 250 - 2 * 1.0;
     expect(Math.abs(reservoir(e).dcVolts - expected) / expected).toBeLessThan(0.01);
   });
 
   it('DC falls as load rises and is about 1.3 × RMS at full rated winding current (bridge)', () => {
-    const at = (amps: number) =>
-      estimateSupply(supply({ stages: [], reservoirLoadAmps: amps, reservoirFarads: 100e-6 }));
+    const at = (amps: number) => estimateSupply(supply({ stages: [], reservoirLoadAmps: amps, reservoirFarads: 100e-6 }));
     let prev = Number.POSITIVE_INFINITY;
     for (const a of [0, 0.005, 0.02, 0.04]) {
       const v = reservoir(at(a)).dcVolts;

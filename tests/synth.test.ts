@@ -151,7 +151,10 @@ describe('plucked string pitch (measured from rendered audio)', () => {
   });
 
   it('frequencyHz notes and odd pluck/hardness settings also land in tune', () => {
-    const riff: Riff = { ...singleNoteRiff(60), notes: [{ frequencyHz: 277.7, startSeconds: 0, durationSeconds: 1.2, velocity: 0.2, pluckPosition: 0.41, pickHardness: 0.05 }] };
+    const riff: Riff = {
+      ...singleNoteRiff(60),
+      notes: [{ frequencyHz: 277.7, startSeconds: 0, durationSeconds: 1.2, velocity: 0.2, pluckPosition: 0.41, pickHardness: 0.05 }],
+    };
     const f = measureF0(renderRiff(riff, FS), 0.1, 1.1, 277.7);
     expect(Math.abs(centsBetween(f, 277.7))).toBeLessThan(5);
   });
@@ -221,9 +224,20 @@ describe('pluck position and pick hardness shape the excitation', () => {
 describe('pickup', () => {
   it('the loaded resonance peak lands at f = 1/(2 pi sqrt(LC)) (handbook LC formula) within 2 %', () => {
     // L and C spanning check-values.md: 1-10 H, 80-200 pF winding + 300-1000 pF cable (confirmed).
-    const cases: Array<[number, number, number]> = [[1.5, 80e-12, 300e-12], [2.6, 110e-12, 600e-12], [4.4, 150e-12, 470e-12], [8, 200e-12, 1000e-12]];
+    const cases: Array<[number, number, number]> = [
+      [1.5, 80e-12, 300e-12],
+      [2.6, 110e-12, 600e-12],
+      [4.4, 150e-12, 470e-12],
+      [8, 200e-12, 1000e-12],
+    ];
     for (const [l, cw, cc] of cases) {
-      const p: PickupParams = { ...SINGLE_COIL_BRIDGE, inductanceHenries: l, windingCapacitanceFarads: cw, cableCapacitanceFarads: cc, windingResistanceOhms: 2000 + 1500 * l };
+      const p: PickupParams = {
+        ...SINGLE_COIL_BRIDGE,
+        inductanceHenries: l,
+        windingCapacitanceFarads: cw,
+        cableCapacitanceFarads: cc,
+        windingResistanceOhms: 2000 + 1500 * l,
+      };
       const ir = new Float64Array(1 << 15);
       ir[0] = 1;
       runBiquad(pickupLoadFilter(p, FS), ir, ir);
@@ -303,7 +317,13 @@ describe('levels (check-values.md, guitar signals)', () => {
 });
 
 describe('demo clip files (public/demo, written by scripts/make-demo-clips.ts)', () => {
-  interface ClipEntry { name: string; file: string; description: string; voltsAtFullScale: number; peakDbfs: number }
+  interface ClipEntry {
+    name: string;
+    file: string;
+    description: string;
+    voltsAtFullScale: number;
+    peakDbfs: number;
+  }
   const indexPath = join(DEMO_DIR, 'clips.json');
 
   it('clips.json lists every demo riff and the files exist, under 3 MB in total', () => {

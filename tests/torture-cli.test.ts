@@ -19,7 +19,8 @@ import { fuzzedNetlist } from './helpers/fuzz-netlists.ts';
 import { gatedSine } from './helpers/signals.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'vw-fuzz-'));
-const FS = 48000, SEED = 4242;
+const FS = 48000,
+  SEED = 4242;
 const x = gatedSine(FS, 0.03, 700, 3, 0.002, 0.011);
 for (let k = Math.round(0.015 * FS); k < Math.round(0.025 * FS); k++) x[k] = 2;
 const inputPeak = 3;
@@ -37,29 +38,40 @@ function railsVolts(json: string): number {
 describe('fuzzed netlists through render --raw: a clean error or a finite output within the rails', () => {
   const cases = Array.from({ length: 500 }, (_, i) => i);
   const outcomes = { rendered: 0, refused: 0 };
-  it.each(cases)('fuzz case %i', async (i) => {
-    const f = fuzzedNetlist(SEED, i);
-    const np = join(dir, `n${i}.json`), op = join(dir, `o${i}.wav`);
-    writeFileSync(np, f.json);
-    const err: string[] = [];
-    const code = await main(['render', '--netlist', np, '--input', inPath, '--output', op, '--raw'], { out: () => {}, err: (l) => err.push(l) });
-    const text = err.join('\n');
-    expect(text, f.label).not.toMatch(INTERNAL);
-    if (code !== 0) {
-      // notes about what a netlist lacks may come first; then the one error line
-      for (const l of err) expect(l, f.label).toMatch(/^(note|valvewright render): /);
-      outcomes.refused++;
-      expect(err.filter((l) => l.startsWith('valvewright render: ')), f.label).toHaveLength(1);
-      expect(err[err.length - 1], f.label).toMatch(/^valvewright render: /);
-      return;
-    }
-    outcomes.rendered++;
-    const y = decodeWav(readFileSync(op)).channels[0]!;
-    expect(y.length).toBe(x.length);
-    let peak = 0;
-    for (const v of y) { expect(Number.isFinite(v), f.label).toBe(true); peak = Math.max(peak, Math.abs(v)); }
-    expect(peak, `${f.label}: output peak ${peak} V`).toBeLessThanOrEqual(2 * railsVolts(f.json) + 1);
-  }, 20000);
+  it.each(cases)(
+    'fuzz case %i',
+    async (i) => {
+      const f = fuzzedNetlist(SEED, i);
+      const np = join(dir, `n${i}.json`),
+        op = join(dir, `o${i}.wav`);
+      writeFileSync(np, f.json);
+      const err: string[] = [];
+      const code = await main(['render', '--netlist', np, '--input', inPath, '--output', op, '--raw'], { out: () => {}, err: (l) => err.push(l) });
+      const text = err.join('\n');
+      expect(text, f.label).not.toMatch(INTERNAL);
+      if (code !== 0) {
+        // notes about what a netlist lacks may come first; then the one error line
+        for (const l of err) expect(l, f.label).toMatch(/^(note|valvewright render): /);
+        outcomes.refused++;
+        expect(
+          err.filter((l) => l.startsWith('valvewright render: ')),
+          f.label,
+        ).toHaveLength(1);
+        expect(err[err.length - 1], f.label).toMatch(/^valvewright render: /);
+        return;
+      }
+      outcomes.rendered++;
+      const y = decodeWav(readFileSync(op)).channels[0]!;
+      expect(y.length).toBe(x.length);
+      let peak = 0;
+      for (const v of y) {
+        expect(Number.isFinite(v), f.label).toBe(true);
+        peak = Math.max(peak, Math.abs(v));
+      }
+      expect(peak, `${f.label}: output peak ${peak} V`).toBeLessThanOrEqual(2 * railsVolts(f.json) + 1);
+    },
+    20000,
+  );
 
   it('the fuzz both rendered and refused a good share of the cases (it exercised the solver, not only the checks)', () => {
     expect(outcomes.rendered + outcomes.refused).toBe(cases.length);
@@ -70,18 +82,31 @@ describe('fuzzed netlists through render --raw: a clean error or a finite output
 
 describe('through the real command (a separate process): no stack trace, no hang', () => {
   const bin = new URL('../bin/valvewright.mjs', import.meta.url).pathname;
-  it.each([0, 1, 2, 3])('fuzz case %i', (i) => {
-    const f = fuzzedNetlist(SEED, i);
-    const np = join(dir, `p${i}.json`);
-    writeFileSync(np, f.json);
-    const r = spawnSync(process.execPath, [bin, 'render', '--netlist', np, '--input', inPath, '--output', join(dir, `p${i}.wav`), '--raw'], { encoding: 'utf8', timeout: 60000 });
-    expect(r.signal, `${f.label}: killed (hang?)`).toBeNull();
-    expect(r.stderr, f.label).not.toMatch(INTERNAL);
-    expect(r.stderr, f.label).not.toMatch(/Warning/);
-    const lines = r.stderr.trim().split('\n').filter((l) => l.length > 0);
-    if (r.status !== 0) {
-      for (const l of lines) expect(l, f.label).toMatch(/^(note|valvewright render): /);
-      expect(lines.filter((l) => l.startsWith('valvewright render: ')), f.label).toHaveLength(1);
-    }
-  }, 70000);
+  it.each([0, 1, 2, 3])(
+    'fuzz case %i',
+    (i) => {
+      const f = fuzzedNetlist(SEED, i);
+      const np = join(dir, `p${i}.json`);
+      writeFileSync(np, f.json);
+      const r = spawnSync(process.execPath, [bin, 'render', '--netlist', np, '--input', inPath, '--output', join(dir, `p${i}.wav`), '--raw'], {
+        encoding: 'utf8',
+        timeout: 60000,
+      });
+      expect(r.signal, `${f.label}: killed (hang?)`).toBeNull();
+      expect(r.stderr, f.label).not.toMatch(INTERNAL);
+      expect(r.stderr, f.label).not.toMatch(/Warning/);
+      const lines = r.stderr
+        .trim()
+        .split('\n')
+        .filter((l) => l.length > 0);
+      if (r.status !== 0) {
+        for (const l of lines) expect(l, f.label).toMatch(/^(note|valvewright render): /);
+        expect(
+          lines.filter((l) => l.startsWith('valvewright render: ')),
+          f.label,
+        ).toHaveLength(1);
+      }
+    },
+    70000,
+  );
 });

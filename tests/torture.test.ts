@@ -25,15 +25,29 @@ function hardTransient(i: number, fs: number, seconds: number): { x: Float64Arra
   const r = seeded(SEED + 7 * i);
   switch (i % 3) {
     case 0: {
-      const hz = 100 * Math.exp(r() * Math.log(30)), peak = 1 + 2 * r(), off = 0.008 + 0.012 * r();
-      return { x: gatedSine(fs, seconds, hz, peak, 0.002, off, 2 * Math.PI * r()), what: `${peak.toFixed(2)} V ${hz.toFixed(0)} Hz sine gated 2-${(1000 * off).toFixed(1)} ms` };
+      const hz = 100 * Math.exp(r() * Math.log(30)),
+        peak = 1 + 2 * r(),
+        off = 0.008 + 0.012 * r();
+      return {
+        x: gatedSine(fs, seconds, hz, peak, 0.002, off, 2 * Math.PI * r()),
+        what: `${peak.toFixed(2)} V ${hz.toFixed(0)} Hz sine gated 2-${(1000 * off).toFixed(1)} ms`,
+      };
     }
     case 1: {
-      const a = (r() < 0.5 ? -1 : 1) * (0.5 + 1.5 * r()), b = (r() < 0.5 ? -1 : 1) * (0.5 + 1.5 * r());
-      return { x: steps(fs, seconds, [[0.003, a], [0.01, b], [0.016, 0]]), what: `steps to ${a.toFixed(2)} V, ${b.toFixed(2)} V, 0 V` };
+      const a = (r() < 0.5 ? -1 : 1) * (0.5 + 1.5 * r()),
+        b = (r() < 0.5 ? -1 : 1) * (0.5 + 1.5 * r());
+      return {
+        x: steps(fs, seconds, [
+          [0.003, a],
+          [0.01, b],
+          [0.016, 0],
+        ]),
+        what: `steps to ${a.toFixed(2)} V, ${b.toFixed(2)} V, 0 V`,
+      };
     }
     default: {
-      const hz = 82 + 300 * r(), peak = 0.3 + 2.7 * r();
+      const hz = 82 + 300 * r(),
+        peak = 0.3 + 2.7 * r();
       return { x: pluck(fs, seconds, hz, peak, 0.002), what: `${peak.toFixed(2)} V pluck at ${hz.toFixed(0)} Hz` };
     }
   }
@@ -47,7 +61,8 @@ function run(netlist: ReturnType<typeof randomNetlist>['netlist'], x: Float64Arr
   return { y, stats: e.solverStats };
 }
 
-const N48 = 300, N192 = 100;
+const N48 = 300,
+  N192 = 100;
 const plainCases: [number, number][] = [
   ...Array.from({ length: N48 }, (_, i): [number, number] => [i, 48000]),
   ...Array.from({ length: N192 }, (_, i): [number, number] => [N48 + i, 192000]),
@@ -82,13 +97,19 @@ describe('random netlists with hard transients, plain discretisation against the
  * audio band is wanted.
  */
 function bandSpectrum(x: Float64Array, K: number, advanceSamples = 0): Float64Array {
-  const n = x.length, out = new Float64Array(2 * K);
+  const n = x.length,
+    out = new Float64Array(2 * K);
   for (let k = 1; k <= K; k++) {
     const w = (2 * Math.PI * k) / n;
-    let re = 0, im = 0;
-    for (let t = 0; t < n; t++) { re += x[t]! * Math.cos(w * t); im -= x[t]! * Math.sin(w * t); }
+    let re = 0,
+      im = 0;
+    for (let t = 0; t < n; t++) {
+      re += x[t]! * Math.cos(w * t);
+      im -= x[t]! * Math.sin(w * t);
+    }
     // x(t + a) has spectrum X(f) e^{j w a}
-    const c = Math.cos(w * advanceSamples), s = Math.sin(w * advanceSamples);
+    const c = Math.cos(w * advanceSamples),
+      s = Math.sin(w * advanceSamples);
     out[2 * (k - 1)] = (re * c - im * s) / n;
     out[2 * k - 1] = (re * s + im * c) / n;
   }
@@ -108,28 +129,37 @@ describe('the shipped default (averaged root, BDF2 below 100 pF) at 192 kHz agai
   // getting worse; the averaged root's in-band error is a known cost of first-order
   // antiderivative anti-aliasing on a stateful circuit (Holters, Appl. Sci. 10(1):20, 2020,
   // discusses the half-sample delay).
-  const fs = 192000, over = 4, seconds = 0.02;
+  const fs = 192000,
+    over = 4,
+    seconds = 0.02;
   const cases = Array.from({ length: 24 }, (_, i) => 5000 + i);
   it.each(cases)('case %i: in-band error energy, plain <= -40 dB, averaged <= -25 dB, every sample converged', (i) => {
     const { netlist, label } = randomNetlist(SEED, i);
     const r = seeded(SEED + 13 * i);
-    const fsHigh = fs * over, hz = 82 + 300 * r(), peak = 0.5 + 2.5 * r();
+    const fsHigh = fs * over,
+      hz = 82 + 300 * r(),
+      peak = 0.5 + 2.5 * r();
     // a plucked note, or a sine gated on and off at zero crossings (a kink, no jump: the engine
     // and the reference then see the same continuous input)
-    const xHigh = i % 2 === 0 ? pluck(fsHigh, seconds, hz, peak, 0.002)
-      : gatedSine(fsHigh, seconds, 500 * Math.round(1 + 4 * r()), peak, 0.002, 0.012);
+    const xHigh = i % 2 === 0 ? pluck(fsHigh, seconds, hz, peak, 0.002) : gatedSine(fsHigh, seconds, 500 * Math.round(1 + 4 * r()), peak, 0.002, 0.012);
     const x = Float64Array.from({ length: xHigh.length / over }, (_, k) => xHigh[k * over]!);
     const K = Math.floor(15000 * seconds);
     const yr = bandSpectrum(simulateNetlist(netlist, xHigh, fsHigh).output, K);
     const inBandDb = (ye: Float64Array) => {
-      let es = 0, ee = 0;
-      for (let k = 0; k < 2 * K; k++) { es += yr[k]! ** 2; ee += (ye[k]! - yr[k]!) ** 2; }
+      let es = 0,
+        ee = 0;
+      for (let k = 0; k < 2 * K; k++) {
+        es += yr[k]! ** 2;
+        ee += (ye[k]! - yr[k]!) ** 2;
+      }
       return 10 * Math.log10(ee / es);
     };
-    const plain = run(netlist, x, fs, 'off'), averaged = run(netlist, x, fs, 'averaged');
+    const plain = run(netlist, x, fs, 'off'),
+      averaged = run(netlist, x, fs, 'averaged');
     expect(plain.stats.failures, label).toBe(0);
     expect(averaged.stats.failures, label).toBe(0);
-    const dbPlain = inBandDb(bandSpectrum(plain.y, K)), dbAveraged = inBandDb(bandSpectrum(averaged.y, K, 0.5));
+    const dbPlain = inBandDb(bandSpectrum(plain.y, K)),
+      dbAveraged = inBandDb(bandSpectrum(averaged.y, K, 0.5));
     expect(dbPlain, `${label}: plain in-band error ${dbPlain.toFixed(1)} dB`).toBeLessThanOrEqual(-40);
     expect(dbAveraged, `${label}: averaged in-band error ${dbAveraged.toFixed(1)} dB`).toBeLessThanOrEqual(-25);
   });

@@ -15,7 +15,8 @@ import { cleanStage, edit } from './helpers/designs.ts';
 const dir = mkdtempSync(join(tmpdir(), 'vw-truth-'));
 
 async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  const out: string[] = [], err: string[] = [];
+  const out: string[] = [],
+    err: string[] = [];
   const code = await main(argv, { out: (l) => out.push(l), err: (l) => err.push(l) });
   return { code, out: out.join('\n'), err: err.join('\n') };
 }
@@ -24,8 +25,10 @@ async function run(...argv: string[]): Promise<{ code: number; out: string; err:
 function diClip(fs: number, seconds: number): Float32Array {
   const x = new Float32Array(Math.round(fs * seconds));
   for (let k = 0; k < x.length; k++) {
-    const t = k / fs, tn = t % 0.5;
-    x[k] = 0.25 * Math.exp(-4 * tn) * (Math.sin(2 * Math.PI * 110 * t) + 0.5 * Math.sin(2 * Math.PI * 220 * t) + 0.25 * Math.sin(2 * Math.PI * 330 * t)) / 1.75;
+    const t = k / fs,
+      tn = t % 0.5;
+    x[k] =
+      (0.25 * Math.exp(-4 * tn) * (Math.sin(2 * Math.PI * 110 * t) + 0.5 * Math.sin(2 * Math.PI * 220 * t) + 0.25 * Math.sin(2 * Math.PI * 330 * t))) / 1.75;
   }
   return x;
 }
@@ -58,7 +61,10 @@ describe('volume controls get louder clockwise (common practice: end 1 at ground
     const d = TEMPLATES['triode-triode']!;
     const vol = d.parts.find((p) => p.id === 'VOL')!;
     if (vol.kind !== 'pot') throw new Error('template has no volume pot');
-    const reversed: Design = { ...d, parts: d.parts.map((p) => (p.id === 'VOL' && p.kind === 'pot' ? { ...p, nodes: [p.nodes[2], p.nodes[1], p.nodes[0]] } : p)) };
+    const reversed: Design = {
+      ...d,
+      parts: d.parts.map((p) => (p.id === 'VOL' && p.kind === 'pot' ? { ...p, nodes: [p.nodes[2], p.nodes[1], p.nodes[0]] } : p)),
+    };
     const r1 = await run('check', '--design', writeJson('vol-reversed.json', reversed), '--json', '--max-input-volts', '0.5');
     const r0 = await run('check', '--design', 'triode-triode', '--json', '--max-input-volts', '0.5');
     const codes = (out: string) => (JSON.parse(out) as { findings: { code: string }[] }).findings.map((f) => f.code);
@@ -100,8 +106,12 @@ const supplied: Design = {
   ...TEMPLATES['pentode-triode']!,
   name: 'supplied fuzz',
   powerSupply: {
-    secondary: { rmsVolts: 220, ratedAmps: 0.05 }, rectifier: { topology: 'bridge', diode: 'silicon' }, mainsHertz: 50,
-    reservoirFarads: 47e-6, reservoirRatedVolts: 250, stages: [{ droppingOhms: 2200, farads: 47e-6, ratedVolts: 450 }],
+    secondary: { rmsVolts: 220, ratedAmps: 0.05 },
+    rectifier: { topology: 'bridge', diode: 'silicon' },
+    mainsHertz: 50,
+    reservoirFarads: 47e-6,
+    reservoirRatedVolts: 250,
+    stages: [{ droppingOhms: 2200, farads: 47e-6, ratedVolts: 450 }],
     // EF86 0.2 A + 12AX7 0.3 A (data sheets, check-values.md) on a 0.3 A winding: over budget
     heaterWinding: { volts: 6.3, amps: 0.3 },
   },
@@ -112,7 +122,10 @@ describe('a design with a power-supply section', () => {
   it('gets the same B+ from op, ac, render and supply', async () => {
     const s = await run('supply', '--design', path, '--json');
     const sj = JSON.parse(s.out) as { loadedVolts: number; unloadedVolts: number; modelSupply: { node: string; volts: number } };
-    const op = JSON.parse((await run('op', '--design', path, '--json')).out) as { nodes: Record<string, number>; supply: { nodeVolts: number; fromPowerSupply: boolean } };
+    const op = JSON.parse((await run('op', '--design', path, '--json')).out) as {
+      nodes: Record<string, number>;
+      supply: { nodeVolts: number; fromPowerSupply: boolean };
+    };
     const ac = JSON.parse((await run('ac', '--design', path, '--json', '--points', '2')).out) as { supply: { volts: number } };
     const outPath = join(dir, 'supplied.wav');
     const rr = await run('render', '--design', path, '--input', diPath, '--output', outPath, '--oversample', '1', '--json');
@@ -129,7 +142,10 @@ describe('a design with a power-supply section', () => {
   it('check reports the heater over budget and the reservoir rated under the unloaded B+, and exits 1', async () => {
     const r = await run('check', '--design', path, '--json', '--max-input-volts', '0.5');
     expect(r.code).toBe(1);
-    const j = JSON.parse(r.out) as { findings: { severity: string; code: string; message: string }[]; supply: { unloadedVolts: number; slowBlowFuseAmps: number; primaryAmps: number } };
+    const j = JSON.parse(r.out) as {
+      findings: { severity: string; code: string; message: string }[];
+      supply: { unloadedVolts: number; slowBlowFuseAmps: number; primaryAmps: number };
+    };
     const heater = j.findings.find((f) => f.code === 'heater-budget')!;
     expect(heater.severity).toBe('error');
     expect(heater.message).toMatch(/0\.5 A/); // 0.2 A + 0.3 A (EF86 and 12AX7 sheets, check-values.md)
@@ -146,21 +162,51 @@ describe('a design with a power-supply section', () => {
     const r = await run('supply', '--design', path);
     expect(r.out).toMatch(/FAIL/);
     expect(r.code).toBe(1);
-    const ok = await run('supply', '--design', writeJson('supplied-ok.json', { ...supplied, powerSupply: { ...supplied.powerSupply!, reservoirRatedVolts: 450, heaterWinding: { volts: 6.3, amps: 1 } } }));
+    const ok = await run(
+      'supply',
+      '--design',
+      writeJson('supplied-ok.json', {
+        ...supplied,
+        powerSupply: { ...supplied.powerSupply!, reservoirRatedVolts: 450, heaterWinding: { volts: 6.3, amps: 1 } },
+      }),
+    );
     expect(ok.code, ok.out).toBe(0);
   });
 });
 
 describe('netlists are circuits too: check --netlist reports designed-in wiring faults as for the design', () => {
-  const k = 1e3, M = 1e6;
+  const k = 1e3,
+    M = 1e6;
   const faults: Record<string, { design: Design; code: string }> = {
     'missing grid return': { design: edit(cleanStage(), { remove: ['R2'] }), code: 'grid-no-dc-path' },
-    'floating node': { design: edit(cleanStage(), { add: [{ id: 'C9', kind: 'capacitor', nodes: ['out', 'x1'], farads: 1e-8 }, { id: 'C10', kind: 'capacitor', nodes: ['x1', '0'], farads: 1e-8 }] }), code: 'node-floats' },
+    'floating node': {
+      design: edit(cleanStage(), {
+        add: [
+          { id: 'C9', kind: 'capacitor', nodes: ['out', 'x1'], farads: 1e-8 },
+          { id: 'C10', kind: 'capacitor', nodes: ['x1', '0'], farads: 1e-8 },
+        ],
+      }),
+      code: 'node-floats',
+    },
     'shorted supply': { design: edit(cleanStage(), { add: [{ id: 'R9', kind: 'resistor', nodes: ['bp', '0'], ohms: 10 }] }), code: 'supply-shorted' },
-    'plate with no load': { design: edit(cleanStage(), { replace: [{ id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'bp', grid: 'g1', cathode: '0' } }, { id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9 }], remove: ['R4', 'C3'], add: [{ id: 'R5', kind: 'resistor', nodes: ['out', '0'], ohms: 1 * M }] }), code: 'plate-no-load' },
-    'plate not fed': { design: edit(cleanStage(), { remove: ['R3'], add: [{ id: 'R3', kind: 'resistor', nodes: ['p1', '0'], ohms: 100 * k }] }), code: 'plate-not-fed' },
+    'plate with no load': {
+      design: edit(cleanStage(), {
+        replace: [
+          { id: 'V1', kind: 'tube', type: '12AX7', sample: 1, nodes: { plate: 'bp', grid: 'g1', cathode: '0' } },
+          { id: 'C4', kind: 'capacitor', nodes: ['p1', 'out'], farads: 22e-9 },
+        ],
+        remove: ['R4', 'C3'],
+        add: [{ id: 'R5', kind: 'resistor', nodes: ['out', '0'], ohms: 1 * M }],
+      }),
+      code: 'plate-no-load',
+    },
+    'plate not fed': {
+      design: edit(cleanStage(), { remove: ['R3'], add: [{ id: 'R3', kind: 'resistor', nodes: ['p1', '0'], ohms: 100 * k }] }),
+      code: 'plate-not-fed',
+    },
   };
-  const codesOf = (out: string) => new Set((JSON.parse(out) as { findings: { code: string; severity: string }[] }).findings.filter((f) => f.severity === 'error').map((f) => f.code));
+  const codesOf = (out: string) =>
+    new Set((JSON.parse(out) as { findings: { code: string; severity: string }[] }).findings.filter((f) => f.severity === 'error').map((f) => f.code));
   for (const [what, { design, code }] of Object.entries(faults)) {
     it(what, async () => {
       const dPath = writeJson(`fault-${code}.design.json`, design);
@@ -177,7 +223,10 @@ describe('netlists are circuits too: check --netlist reports designed-in wiring 
   it('a hand-written netlist (no pots, no labels, no load) is checked and says what it lacks', async () => {
     const ax7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 }; // Koren 12AX7 (check-values.md, confirmed)
     const net = {
-      schema: 'valvewright.netlist.v1', ground: '0', input: { node: 'in', ohms: 1000 }, output: { node: 'o' },
+      schema: 'valvewright.netlist.v1',
+      ground: '0',
+      input: { node: 'in', ohms: 1000 },
+      output: { node: 'o' },
       elements: [
         { id: 'VB', kind: 'dc-source', nodes: ['hv', '0'], volts: 250, ohms: 100 },
         { id: 'RP', kind: 'resistor', nodes: ['hv', 'a'], ohms: 100e3 },
@@ -217,14 +266,35 @@ describe('command line', () => {
     // the limiter; a sine at fs/4 with a 45 degree phase has its samples at 0.707 of its peak, so
     // the sample-peak limiter alone would leave the true peak 3 dB over (sampling theory).
     const net = {
-      schema: 'valvewright.netlist.v1', ground: '0', input: { node: 'in', ohms: 0 }, output: { node: 'o' },
-      elements: [{ id: 'C1', kind: 'capacitor', nodes: ['in', 'o'], farads: 1.5e-9 }, { id: 'R1', kind: 'resistor', nodes: ['o', '0'], ohms: 10e3 }],
+      schema: 'valvewright.netlist.v1',
+      ground: '0',
+      input: { node: 'in', ohms: 0 },
+      output: { node: 'o' },
+      elements: [
+        { id: 'C1', kind: 'capacitor', nodes: ['in', 'o'], farads: 1.5e-9 },
+        { id: 'R1', kind: 'resistor', nodes: ['o', '0'], ohms: 10e3 },
+      ],
     };
-    const fs = 48000, x = new Float32Array(fs / 2);
+    const fs = 48000,
+      x = new Float32Array(fs / 2);
     for (let k = 0; k < x.length; k++) x[k] = 0.9 * Math.sin((2 * Math.PI * 12000 * k) / fs + Math.PI / 4);
-    const inPath = join(dir, 'hot.wav'), outPath = join(dir, 'hot-out.wav');
+    const inPath = join(dir, 'hot.wav'),
+      outPath = join(dir, 'hot-out.wav');
     writeFileSync(inPath, encodeWav([x], fs, { bitDepth: 24 }));
-    const r = await run('render', '--netlist', writeJson('highpass.netlist.json', net), '--input', inPath, '--output', outPath, '--oversample', '2', '--input-volts', '2', '--json');
+    const r = await run(
+      'render',
+      '--netlist',
+      writeJson('highpass.netlist.json', net),
+      '--input',
+      inPath,
+      '--output',
+      outPath,
+      '--oversample',
+      '2',
+      '--input-volts',
+      '2',
+      '--json',
+    );
     expect(r.code, r.err).toBe(0);
     expect(r.err).toMatch(/input calibration: full scale = 2 V peak/);
     const j = JSON.parse(r.out) as { truePeakTrimDb: number };

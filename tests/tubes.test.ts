@@ -31,13 +31,22 @@ describe('Koren triode (Koren 1996, netlist-v1 form)', () => {
     expect(1 / o.dVpk / 1e3).toBeCloseTo(53.7, 0);
   });
   it('analytic derivatives match central differences', () => {
-    const o = newSlopes(), lo = newSlopes(), hi = newSlopes();
-    for (const [vg, vp] of [[-3, 100], [-0.5, 200], [0.4, 50], [-1.2, 300]] as const) {
+    const o = newSlopes(),
+      lo = newSlopes(),
+      hi = newSlopes();
+    for (const [vg, vp] of [
+      [-3, 100],
+      [-0.5, 200],
+      [0.4, 50],
+      [-1.2, 300],
+    ] as const) {
       korenTriode(ax7, vg, vp, 1, o);
       const h = 1e-5;
-      korenTriode(ax7, vg + h, vp, 1, hi); korenTriode(ax7, vg - h, vp, 1, lo);
+      korenTriode(ax7, vg + h, vp, 1, hi);
+      korenTriode(ax7, vg - h, vp, 1, lo);
       expect(o.dVgk).toBeCloseTo((hi.amps - lo.amps) / (2 * h), 9);
-      korenTriode(ax7, vg, vp + h, 1, hi); korenTriode(ax7, vg, vp - h, 1, lo);
+      korenTriode(ax7, vg, vp + h, 1, hi);
+      korenTriode(ax7, vg, vp - h, 1, lo);
       expect(o.dVpk).toBeCloseTo((hi.amps - lo.amps) / (2 * h), 9);
     }
   });
@@ -52,22 +61,32 @@ describe('Koren triode (Koren 1996, netlist-v1 form)', () => {
 
 describe('Koren-form pentode (EF86 fit)', () => {
   it('Va 250 / Vg2 140 / Vg1 -2 V gives Ia 3.06 mA and Ig2 0.56 mA (model values; sheet 3.0 / 0.6 mA)', () => {
-    const p = newSlopes(), s = newSlopes();
+    const p = newSlopes(),
+      s = newSlopes();
     korenPentodePlate(ef86, -2, 250, 140, 1, p);
     korenPentodeScreen(ef86, -2, 140, 1, s);
     expect(p.amps * 1e3).toBeCloseTo(3.06, 2);
     expect(s.amps * 1e3).toBeCloseTo(0.56, 2);
   });
   it('analytic derivatives match central differences', () => {
-    const o = newSlopes(), lo = newSlopes(), hi = newSlopes();
+    const o = newSlopes(),
+      lo = newSlopes(),
+      hi = newSlopes();
     const h = 1e-5;
-    for (const [vg, vp, vs] of [[-2, 250, 140], [-0.5, 40, 60], [-1, 5, 100]] as const) {
+    for (const [vg, vp, vs] of [
+      [-2, 250, 140],
+      [-0.5, 40, 60],
+      [-1, 5, 100],
+    ] as const) {
       korenPentodePlate(ef86, vg, vp, vs, 1, o);
-      korenPentodePlate(ef86, vg + h, vp, vs, 1, hi); korenPentodePlate(ef86, vg - h, vp, vs, 1, lo);
+      korenPentodePlate(ef86, vg + h, vp, vs, 1, hi);
+      korenPentodePlate(ef86, vg - h, vp, vs, 1, lo);
       expect(o.dVgk).toBeCloseTo((hi.amps - lo.amps) / (2 * h), 9);
-      korenPentodePlate(ef86, vg, vp + h, vs, 1, hi); korenPentodePlate(ef86, vg, vp - h, vs, 1, lo);
+      korenPentodePlate(ef86, vg, vp + h, vs, 1, hi);
+      korenPentodePlate(ef86, vg, vp - h, vs, 1, lo);
       expect(o.dVpk).toBeCloseTo((hi.amps - lo.amps) / (2 * h), 9);
-      korenPentodePlate(ef86, vg, vp, vs + h, 1, hi); korenPentodePlate(ef86, vg, vp, vs - h, 1, lo);
+      korenPentodePlate(ef86, vg, vp, vs + h, 1, hi);
+      korenPentodePlate(ef86, vg, vp, vs - h, 1, lo);
       expect(o.dVsk).toBeCloseTo((hi.amps - lo.amps) / (2 * h), 9);
     }
   });
@@ -86,9 +105,14 @@ describe('Dempwolf-Zolzer grid current (DAFx-11)', () => {
   });
 });
 
-const stage = (elements: unknown[], input = 'g') => parseNetlist({
-  schema: 'valvewright.netlist.v1', ground: '0', input: { node: input, ohms: 1000 }, output: { node: 'p' }, elements,
-});
+const stage = (elements: unknown[], input = 'g') =>
+  parseNetlist({
+    schema: 'valvewright.netlist.v1',
+    ground: '0',
+    input: { node: input, ohms: 1000 },
+    output: { node: 'p' },
+    elements,
+  });
 const koren12ax7 = { name: 'koren-triode', ...ax7 };
 
 describe('operating points of whole stages', () => {
@@ -110,19 +134,29 @@ describe('operating points of whole stages', () => {
   it.each([1e6, 4.7e6, 10e6, 22e6])(
     'grid-leak bias with %d ohms (Dempwolf-Zolzer 12AX7 law): the engine agrees with the independent reference solver',
     (rg) => {
-      const n = stage([
-        { id: 'Cin', kind: 'capacitor', nodes: ['in', 'g'], farads: 22e-9 },
-        { id: 'Rg', kind: 'resistor', nodes: ['g', '0'], ohms: rg },
-        { id: 'Rp', kind: 'resistor', nodes: ['b', 'p'], ohms: 100e3 },
-        { id: 'B1', kind: 'dc-source', nodes: ['b', '0'], volts: 250, ohms: 0 },
-        { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: koren12ax7, gridCurrent: { name: 'dempwolf-zolzer', ...DZ_12AX7_GRID } },
-      ], 'in');
+      const n = stage(
+        [
+          { id: 'Cin', kind: 'capacitor', nodes: ['in', 'g'], farads: 22e-9 },
+          { id: 'Rg', kind: 'resistor', nodes: ['g', '0'], ohms: rg },
+          { id: 'Rp', kind: 'resistor', nodes: ['b', 'p'], ohms: 100e3 },
+          { id: 'B1', kind: 'dc-source', nodes: ['b', '0'], volts: 250, ohms: 0 },
+          {
+            id: 'V1',
+            kind: 'triode',
+            nodes: { plate: 'p', grid: 'g', cathode: '0' },
+            model: koren12ax7,
+            gridCurrent: { name: 'dempwolf-zolzer', ...DZ_12AX7_GRID },
+          },
+        ],
+        'in',
+      );
       const op = new CircuitEngine(n, 48000).operatingPoint();
       expect(op.tubes.V1!.vgk).toBeCloseTo(solveOperatingPoint(n).nodes.g!, 4);
     },
   );
   it('a sample factor scales the plate current like a strong or weak tube', () => {
-    const o1 = newSlopes(), o2 = newSlopes();
+    const o1 = newSlopes(),
+      o2 = newSlopes();
     korenTriode(ax7, -2, 250, 1, o1);
     korenTriode(ax7, -2, 250, 1.33, o2);
     expect(o2.amps / o1.amps).toBeCloseTo(1.33, 10);
@@ -134,14 +168,17 @@ describe('operating points of whole stages', () => {
 // equation and numbers (MU 45, EX 1.391, KG1 621.41, KP 126.12, KVB 7.2, VCT 0.2134, KNEE 17.21).
 const published6an8Plate = (vgk: number, vpk: number, vsk: number) => {
   const e1 = (vsk / 126.12) * Math.log1p(Math.exp(126.12 * (1 / 45 + (0.2134 + vgk) / Math.sqrt(7.2 + vsk * vsk))));
-  return (2 * Math.pow(e1, 1.391) / 621.41) * Math.atan(vpk / 17.21);
+  return ((2 * Math.pow(e1, 1.391)) / 621.41) * Math.atan(vpk / 17.21);
 };
 
 describe('6AN8 triode-pentode: the pentode section from published model parameters', () => {
-  const pent = TUBE_LIBRARY['6AN8 pentode']!, tri = TUBE_LIBRARY['6AN8 triode']!;
+  const pent = TUBE_LIBRARY['6AN8 pentode']!,
+    tri = TUBE_LIBRARY['6AN8 triode']!;
   it('is one envelope of a triode and a pentode section', () => {
-    expect(pent.envelope).toBe('6AN8'); expect(tri.envelope).toBe('6AN8');
-    expect(pent.kind).toBe('pentode'); expect(tri.kind).toBe('triode');
+    expect(pent.envelope).toBe('6AN8');
+    expect(tri.envelope).toBe('6AN8');
+    expect(pent.kind).toBe('pentode');
+    expect(tri.kind).toBe('triode');
     expect(pent.ratings.heaterAmps).toBe(tri.ratings.heaterAmps);
   });
   it('the library set stays within 15 % of the full published model at the typical point (the reduction drops VCT and the slope terms)', () => {
@@ -160,8 +197,14 @@ describe('6AN8 triode-pentode: the pentode section from published model paramete
   });
   it('triode section: mu about 21 and ra about 4.5 k at 150 V, 15 mA (a 6AN8 amplifier article; Ia from the sheet, from memory)', () => {
     const o = newSlopes();
-    let lo = -10, hi = 0; // the grid voltage that gives 15 mA at 150 V
-    for (let i = 0; i < 60; i++) { const m = (lo + hi) / 2; korenTriode(tri.model as typeof ax7, m, 150, 1, o); if (o.amps > 15e-3) hi = m; else lo = m; }
+    let lo = -10,
+      hi = 0; // the grid voltage that gives 15 mA at 150 V
+    for (let i = 0; i < 60; i++) {
+      const m = (lo + hi) / 2;
+      korenTriode(tri.model as typeof ax7, m, 150, 1, o);
+      if (o.amps > 15e-3) hi = m;
+      else lo = m;
+    }
     korenTriode(tri.model as typeof ax7, lo, 150, 1, o);
     expect(Math.abs(o.dVgk / o.dVpk / 21 - 1)).toBeLessThan(0.05);
     expect(Math.abs(1 / o.dVpk / 4500 - 1)).toBeLessThan(0.1);

@@ -10,12 +10,34 @@ import { gainAt } from '../src/dsp/analysis/ac.ts';
 import { tubeSmallSignal } from '../src/dsp/analysis/linear.ts';
 import type { NetTube } from '../src/dsp/circuit/netlist.ts';
 import {
-  addPart, appendStage, designNodes, emptySheet, replacePart, replaceTubes, insertAcross, insertInSeries, makePart, moveLead, moveTerminalNode, nextPartId, nudgePart, removePart, renameNode, terminalsOf, type EditResult,
+  addPart,
+  appendStage,
+  designNodes,
+  emptySheet,
+  replacePart,
+  replaceTubes,
+  insertAcross,
+  insertInSeries,
+  makePart,
+  moveLead,
+  moveTerminalNode,
+  nextPartId,
+  nudgePart,
+  removePart,
+  renameNode,
+  terminalsOf,
+  type EditResult,
 } from '../src/dsp/circuit/edit.ts';
 import { playableProblem } from '../src/ui/store/workspace-store.ts';
 
-const ok = (r: EditResult): Design => { if (!r.ok) throw new Error(r.reason); return r.design; };
-const part = (p: Part | string): Part => { if (typeof p === 'string') throw new Error(p); return p; };
+const ok = (r: EditResult): Design => {
+  if (!r.ok) throw new Error(r.reason);
+  return r.design;
+};
+const part = (p: Part | string): Part => {
+  if (typeof p === 'string') throw new Error(p);
+  return p;
+};
 const resistor = (d: Design, nodes: [string, string], ohms: number): Part => ({ ...(part(makePart(d, { kind: 'resistor', nodes })) as ResistorPart), ohms });
 const capacitor = (d: Design, farads: number): Part => ({ ...(part(makePart(d, { kind: 'capacitor', nodes: ['x', 'y'] })) as CapacitorPart), farads });
 const op = (d: Design) => new CircuitEngine(designCircuit(d), 48000).operatingPoint();
@@ -66,7 +88,7 @@ describe('circuit edits', () => {
     expect(g / (divider * handbookGain(b.ss.mu, b.ss.plateOhms, rl, 0))).toBeLessThan(1.01);
   });
 
-  it('a grid stopper inserted in series with the grid carries no DC current, so the operating point stays (Ohm\'s law)', () => {
+  it("a grid stopper inserted in series with the grid carries no DC current, so the operating point stays (Ohm's law)", () => {
     const d = stageByEdits();
     const s = ok(insertInSeries(d, 'V1', 'grid', resistor(d, ['x', 'y'], 10e3)));
     const v1 = s.parts.find((p) => p.id === 'V1')!;
@@ -102,7 +124,15 @@ describe('circuit edits', () => {
       ['no such terminal', moveLead(d, 'V1', 'screen', 'x')],
       ['a duplicate id', addPart(d, { ...rp })],
       ['a name with a space', moveLead(d, rp.id, '1', 'my node')],
-      ['the output left unconnected', removePart(moveTerminalNode(ok(addPart(d, { id: 'R9', kind: 'resistor', nodes: ['p1', 'o2'], ohms: 1e3 })), 'output', 'o2').ok ? ok(moveTerminalNode(ok(addPart(d, { id: 'R9', kind: 'resistor', nodes: ['p1', 'o2'], ohms: 1e3 })), 'output', 'o2')) : d, 'R9')],
+      [
+        'the output left unconnected',
+        removePart(
+          moveTerminalNode(ok(addPart(d, { id: 'R9', kind: 'resistor', nodes: ['p1', 'o2'], ohms: 1e3 })), 'output', 'o2').ok
+            ? ok(moveTerminalNode(ok(addPart(d, { id: 'R9', kind: 'resistor', nodes: ['p1', 'o2'], ohms: 1e3 })), 'output', 'o2'))
+            : d,
+          'R9',
+        ),
+      ],
       ['a pentode without a screen', addPart(d, { id: 'V9', kind: 'tube', type: 'EF86', sample: 1, nodes: { plate: 'p1', grid: 'in', cathode: 'k1' } })],
     ];
     for (const [what, r] of refused) {
@@ -117,7 +147,12 @@ describe('circuit edits', () => {
     // library's grid law, as a tube file named MY-12AX7 (valvewright.tube.v1): the same equations as
     // the library's 12AX7, so the same operating point
     const file = {
-      schema: 'valvewright.tube.v1' as const, type: 'MY-12AX7', kind: 'triode' as const, like: '12AX7', points: [], source: 'test',
+      schema: 'valvewright.tube.v1' as const,
+      type: 'MY-12AX7',
+      kind: 'triode' as const,
+      like: '12AX7',
+      points: [],
+      source: 'test',
       model: { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
       gridCurrent: TUBE_LIBRARY['12AX7']!.gridCurrent,
     };
@@ -171,8 +206,11 @@ describe('circuit edits', () => {
 
   it('random edit sequences never throw, and every accepted result is structurally valid', () => {
     let seed = 12345;
-    const rnd = () => { seed = (seed * 1103515245 + 12345) % 2147483648; return seed / 2147483648; };
-    const pick = <T,>(xs: readonly T[]): T => xs[Math.floor(rnd() * xs.length)]!;
+    const rnd = () => {
+      seed = (seed * 1103515245 + 12345) % 2147483648;
+      return seed / 2147483648;
+    };
+    const pick = <T>(xs: readonly T[]): T => xs[Math.floor(rnd() * xs.length)]!;
     for (const start of [...Object.values(TEMPLATES), emptySheet()]) {
       let d = start;
       let accepted = 0;
@@ -184,13 +222,18 @@ describe('circuit edits', () => {
         const target = pick(d.parts);
         const term = pick(terminalsOf(target)).terminal;
         const r = pick([
-          () => addPart(d, spec), () => removePart(d, target.id), () => moveLead(d, target.id, term, pick(nodes)),
+          () => addPart(d, spec),
+          () => removePart(d, target.id),
+          () => moveLead(d, target.id, term, pick(nodes)),
           () => insertAcross(d, target.id, { ...spec, kind: 'resistor', nodes: ['a', 'b'], ohms: 1e4 } as Part),
           () => insertInSeries(d, target.id, term, { id: nextPartId(d, 'capacitor'), kind: 'capacitor', nodes: ['a', 'b'], farads: 1e-8 }),
           () => renameNode(d, pick(nodes), pick(nodes)),
         ])();
-        if (r.ok) { expect(() => validateDesign(r.design, { wiring: false })).not.toThrow(); d = r.design; accepted++; }
-        else expect(r.reason).toMatch(/\w/);
+        if (r.ok) {
+          expect(() => validateDesign(r.design, { wiring: false })).not.toThrow();
+          d = r.design;
+          accepted++;
+        } else expect(r.reason).toMatch(/\w/);
       }
       expect(accepted).toBeGreaterThan(20);
     }

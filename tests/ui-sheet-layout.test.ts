@@ -20,39 +20,54 @@ function segments(l: SheetLayout): Seg[] {
 /** Text box from its baseline start: 12 px text rises about 10 px and descends about 3 px. */
 const textBox = (t: { x: number; y: number; width: number }) => ({ x0: t.x, x1: t.x + t.width, y0: t.y - 10, y1: t.y + 3 });
 function crosses(b: { x0: number; x1: number; y0: number; y1: number }, [a, c]: Seg): boolean {
-  const [x1, y1] = a, [x2, y2] = c;
+  const [x1, y1] = a,
+    [x2, y2] = c;
   if (Math.abs(y1 - y2) < 1e-6) return y1 > b.y0 && y1 < b.y1 && Math.max(x1, x2) > b.x0 && Math.min(x1, x2) < b.x1;
   if (Math.abs(x1 - x2) < 1e-6) return x1 > b.x0 && x1 < b.x1 && Math.max(y1, y2) > b.y0 && Math.min(y1, y2) < b.y1;
   return true; // wiring is orthogonal: a slanted segment is itself a fault
 }
-const onSeg = ([x, y]: Point, [a, c]: Seg) => Math.abs((c[0] - a[0]) * (y - a[1]) - (c[1] - a[1]) * (x - a[0])) < 1e-6
-  && x >= Math.min(a[0], c[0]) - 1e-6 && x <= Math.max(a[0], c[0]) + 1e-6 && y >= Math.min(a[1], c[1]) - 1e-6 && y <= Math.max(a[1], c[1]) + 1e-6;
+const onSeg = ([x, y]: Point, [a, c]: Seg) =>
+  Math.abs((c[0] - a[0]) * (y - a[1]) - (c[1] - a[1]) * (x - a[0])) < 1e-6 &&
+  x >= Math.min(a[0], c[0]) - 1e-6 &&
+  x <= Math.max(a[0], c[0]) + 1e-6 &&
+  y >= Math.min(a[1], c[1]) - 1e-6 &&
+  y <= Math.max(a[1], c[1]) + 1e-6;
 
 function check(d: Design, l: SheetLayout): void {
   expect(l.parts.map((p) => p.id).sort()).toEqual(d.parts.map((p) => p.id).sort());
-  for (let i = 0; i < l.parts.length; i++) for (let j = i + 1; j < l.parts.length; j++) {
-    const a = l.parts[i]!, b = l.parts[j]!;
-    const overlap = a.x < b.x + b.width && b.x < a.x + a.width && a.y < b.y + b.height && b.y < a.y + a.height;
-    expect(overlap, `${a.id} overlaps ${b.id}`).toBe(false);
-  }
+  for (let i = 0; i < l.parts.length; i++)
+    for (let j = i + 1; j < l.parts.length; j++) {
+      const a = l.parts[i]!,
+        b = l.parts[j]!;
+      const overlap = a.x < b.x + b.width && b.x < a.x + a.width && a.y < b.y + b.height && b.y < a.y + a.height;
+      expect(overlap, `${a.id} overlaps ${b.id}`).toBe(false);
+    }
   const segs = segments(l);
   const texts = [...l.parts.flatMap((p) => p.texts), ...l.ports.map((p) => p.text)];
   for (const t of texts) for (const s of segs) expect(crosses(textBox(t), s), `"${t.text}" on ${s[2]}`).toBe(false);
   // no two texts on one another (the + of an electrolytic included)
-  for (let i = 0; i < texts.length; i++) for (let j = i + 1; j < texts.length; j++) {
-    const a = textBox(texts[i]!), b = textBox(texts[j]!);
-    expect(a.x0 < b.x1 && b.x0 < a.x1 && a.y0 < b.y1 && b.y0 < a.y1, `"${texts[i]!.text}" on "${texts[j]!.text}"`).toBe(false);
-  }
+  for (let i = 0; i < texts.length; i++)
+    for (let j = i + 1; j < texts.length; j++) {
+      const a = textBox(texts[i]!),
+        b = textBox(texts[j]!);
+      expect(a.x0 < b.x1 && b.x0 < a.x1 && a.y0 < b.y1 && b.y0 < a.y1, `"${texts[i]!.text}" on "${texts[j]!.text}"`).toBe(false);
+    }
   const wires = segs.filter((s) => s[2].startsWith('net '));
-  for (const p of l.parts) for (const t of p.terminals) {
-    if (t.flagged) continue;
-    expect(wires.some((s) => onSeg(t.at, s)), `${p.id} ${t.name} (node ${t.node}) has no wire`).toBe(true);
-  }
+  for (const p of l.parts)
+    for (const t of p.terminals) {
+      if (t.flagged) continue;
+      expect(
+        wires.some((s) => onSeg(t.at, s)),
+        `${p.id} ${t.name} (node ${t.node}) has no wire`,
+      ).toBe(true);
+    }
   const rails = railNodes(d);
-  for (const p of l.parts) for (const f of p.flags) {
-    if (f.kind === 'ground') expect(['S', 'E', 'W'], `${p.id}: a ground flag points ${f.side}`).toContain(f.side);
-    if (f.kind === 'rail' && p.symbol !== 'triode' && p.symbol !== 'pentode' && p.terminals.filter((t) => rails.has(t.node)).length === 1) expect(f.side, `${p.id}: its rail flag`).toBe('N');
-  }
+  for (const p of l.parts)
+    for (const f of p.flags) {
+      if (f.kind === 'ground') expect(['S', 'E', 'W'], `${p.id}: a ground flag points ${f.side}`).toContain(f.side);
+      if (f.kind === 'rail' && p.symbol !== 'triode' && p.symbol !== 'pentode' && p.terminals.filter((t) => rails.has(t.node)).length === 1)
+        expect(f.side, `${p.id}: its rail flag`).toBe('N');
+    }
   expect(l.width).toBeGreaterThan(0);
 }
 
@@ -68,7 +83,8 @@ describe('schematic layout', () => {
       const at = (id: string) => l.parts.find((p) => p.id === id)!.centre!;
       let rows = 1;
       for (let k = 2; k <= n; k++) {
-        const [x0, y0] = at(`V${k - 1}`), [x1, y1] = at(`V${k}`);
+        const [x0, y0] = at(`V${k - 1}`),
+          [x1, y1] = at(`V${k}`);
         const nextRow = y1 > y0 + 150; // a new row starts well below the last stage
         if (nextRow) rows++;
         expect(x1 > x0 || nextRow, `V${k} right of V${k - 1}, or on the next row`).toBe(true);
@@ -78,7 +94,10 @@ describe('schematic layout', () => {
   }
   it('signal flows left to right in the pentode-triode template', async () => {
     const l = await layoutSheet(TEMPLATES['pentode-triode']!);
-    const x = (id: string) => { const p = l.parts.find((q) => q.id === id)!; return p.x + p.width / 2; };
+    const x = (id: string) => {
+      const p = l.parts.find((q) => q.id === id)!;
+      return p.x + p.width / 2;
+    };
     expect(x('C2')).toBeLessThan(x('V1'));
     expect(x('V1')).toBeLessThan(x('V2'));
     expect(x('V2')).toBeLessThan(x('C5'));
@@ -86,12 +105,16 @@ describe('schematic layout', () => {
   });
   it('circuits grown by random edits still lay out with every part once and every terminal reached', async () => {
     let seed = 99;
-    const rnd = () => { seed = (seed * 1103515245 + 12345) % 2147483648; return seed / 2147483648; };
+    const rnd = () => {
+      seed = (seed * 1103515245 + 12345) % 2147483648;
+      return seed / 2147483648;
+    };
     let d: Design = TEMPLATES['triode-triode']!;
     for (let k = 0; k < 12; k++) {
       const nodes = designNodes(d);
       const kind = (['resistor', 'capacitor', 'switch'] as const)[Math.floor(rnd() * 3)]!;
-      const a = nodes[Math.floor(rnd() * nodes.length)]!, b = nodes[Math.floor(rnd() * nodes.length)]!;
+      const a = nodes[Math.floor(rnd() * nodes.length)]!,
+        b = nodes[Math.floor(rnd() * nodes.length)]!;
       const p = makePart(d, { kind, nodes: [a, b] });
       if (typeof p === 'string') continue;
       const r = addPart(d, p);
@@ -101,14 +124,22 @@ describe('schematic layout', () => {
     const l = await layoutSheet(d);
     expect(l.parts.map((p) => p.id).sort()).toEqual(d.parts.map((p) => p.id).sort());
     const wires = segments(l).filter((s) => s[2].startsWith('net '));
-    for (const p of l.parts) for (const t of p.terminals) if (!t.flagged) expect(wires.some((s) => onSeg(t.at, s)), `${p.id} ${t.name}`).toBe(true);
+    for (const p of l.parts)
+      for (const t of p.terminals)
+        if (!t.flagged)
+          expect(
+            wires.some((s) => onSeg(t.at, s)),
+            `${p.id} ${t.name}`,
+          ).toBe(true);
   });
   it('a nudged part moves by its offset and its wires follow it', async () => {
     const d = TEMPLATES['pentode-triode']!;
     const before = await layoutSheet(d);
     const moved = await layoutSheet((nudgePart(d, 'R3', 40, 30) as { ok: true; design: Design }).design);
-    const p0 = before.parts.find((p) => p.id === 'R3')!, p1 = moved.parts.find((p) => p.id === 'R3')!;
-    const s0 = before.parts.find((p) => p.id === 'V1')!, s1 = moved.parts.find((p) => p.id === 'V1')!;
+    const p0 = before.parts.find((p) => p.id === 'R3')!,
+      p1 = moved.parts.find((p) => p.id === 'R3')!;
+    const s0 = before.parts.find((p) => p.id === 'V1')!,
+      s1 = moved.parts.find((p) => p.id === 'V1')!;
     // relative to an unmoved part (the sheet may shift as a whole)
     expect(p1.x - s1.x - (p0.x - s0.x)).toBeCloseTo(40, 9);
     expect(p1.y - s1.y - (p0.y - s0.y)).toBeCloseTo(30, 9);

@@ -23,16 +23,25 @@ const koren = (vg: number, vp: number) => {
 async function fittedFile(type: string): Promise<{ path: string; text: string }> {
   const dir = mkdtempSync(join(tmpdir(), 'vw-tubefile-'));
   const rows = ['Vpk,Vgk,Ip(mA)'];
-  for (const vp of [60, 120, 200, 300]) for (const vg of [0, -1, -2, -3]) { const a = koren(vg, vp); if (a > 5e-6) rows.push(`${vp},${vg},${a * 1e3}`); }
+  for (const vp of [60, 120, 200, 300])
+    for (const vg of [0, -1, -2, -3]) {
+      const a = koren(vg, vp);
+      if (a > 5e-6) rows.push(`${vp},${vg},${a * 1e3}`);
+    }
   writeFileSync(join(dir, 'pts.csv'), rows.join('\n'));
-  const path = join(dir, `${type}.json`), out: string[] = [], err: string[] = [];
-  const code = await main(['tube', 'fit', '--triode', join(dir, 'pts.csv'), '--out', path, '--type', type], { out: (l) => out.push(l), err: (l) => err.push(l) });
+  const path = join(dir, `${type}.json`),
+    out: string[] = [],
+    err: string[] = [];
+  const code = await main(['tube', 'fit', '--triode', join(dir, 'pts.csv'), '--out', path, '--type', type], {
+    out: (l) => out.push(l),
+    err: (l) => err.push(l),
+  });
   expect(code, err.join('\n')).toBe(0);
   return { path, text: readFileSync(path, 'utf8') };
 }
 
 describe('tube file import and plot', () => {
-  it('the plotted fitted curves pass through the hidden tube\'s currents within 2 %, one curve per grid voltage', async () => {
+  it("the plotted fitted curves pass through the hidden tube's currents within 2 %, one curve per grid voltage", async () => {
     const f = await fittedFile('HID63');
     const t = readTubeFile(f.text, 'HID63.json');
     expect(t.type.name).toBe('HID63');
@@ -43,8 +52,10 @@ describe('tube file import and plot', () => {
       // read the curve as drawn (linear between samples) at a few plate voltages
       for (const vp of [100, 180, 260]) {
         const i = s.curve.findIndex(([v]) => v >= vp);
-        const [v0, a0] = s.curve[i - 1]!, [v1, a1] = s.curve[i]!;
-        const drawn = a0 + ((a1 - a0) * (vp - v0)) / (v1 - v0), truth = koren(s.vgk, vp);
+        const [v0, a0] = s.curve[i - 1]!,
+          [v1, a1] = s.curve[i]!;
+        const drawn = a0 + ((a1 - a0) * (vp - v0)) / (v1 - v0),
+          truth = koren(s.vgk, vp);
         if (truth > 50e-6) expect(Math.abs(drawn / truth - 1), `Vgk ${s.vgk}, Vpk ${vp}`).toBeLessThan(0.02);
       }
       for (const q of s.points) expect(Math.abs(q.fittedIp / q.ip - 1)).toBeLessThan(0.02);
@@ -54,7 +65,9 @@ describe('tube file import and plot', () => {
   it('bad files give one clear line', () => {
     expect(() => readTubeFile('{', 'x.json')).toThrow(/x.json: not JSON/);
     expect(() => readTubeFile('{"schema":"other"}', 'x.json')).toThrow(/schema/);
-    expect(() => readTubeFile(JSON.stringify({ schema: 'valvewright.tube.v1', type: 'Q', kind: 'triode', like: 'EF86', model: {}, gridCurrent: {} }), 'x.json')).toThrow(/"like" must name a library triode/);
+    expect(() =>
+      readTubeFile(JSON.stringify({ schema: 'valvewright.tube.v1', type: 'Q', kind: 'triode', like: 'EF86', model: {}, gridCurrent: {} }), 'x.json'),
+    ).toThrow(/"like" must name a library triode/);
   });
   it('a design that uses the type carries the file; validating it elsewhere registers the type, and it compiles and solves', async () => {
     const f = await fittedFile('HID63B');

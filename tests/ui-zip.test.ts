@@ -5,7 +5,15 @@ import { buildZip, crc32, dosDateTime } from '../src/ui/model/zip.ts';
 
 const enc = new TextEncoder();
 
-interface Parsed { name: string; method: number; crc: number; size: number; data: Uint8Array; time: number; date: number }
+interface Parsed {
+  name: string;
+  method: number;
+  crc: number;
+  size: number;
+  data: Uint8Array;
+  time: number;
+  date: number;
+}
 
 /** Minimal reader following PKWARE APPNOTE.TXT (from memory): end record -> central directory -> local headers. */
 function readZip(bytes: Uint8Array): Parsed[] {
@@ -15,17 +23,24 @@ function readZip(bytes: Uint8Array): Parsed[] {
   expect(v.getUint16(end + 20, true)).toBe(0); // comment length
   const count = v.getUint16(end + 10, true);
   expect(v.getUint16(end + 8, true)).toBe(count);
-  const cdSize = v.getUint32(end + 12, true), cdOffset = v.getUint32(end + 16, true);
+  const cdSize = v.getUint32(end + 12, true),
+    cdOffset = v.getUint32(end + 16, true);
   expect(cdOffset + cdSize).toBe(end);
   const dec = new TextDecoder('utf-8', { fatal: true });
   const out: Parsed[] = [];
   let p = cdOffset;
   for (let i = 0; i < count; i++) {
     expect(v.getUint32(p, true)).toBe(0x02014b50);
-    const flags = v.getUint16(p + 8, true), method = v.getUint16(p + 10, true);
-    const time = v.getUint16(p + 12, true), date = v.getUint16(p + 14, true);
-    const crc = v.getUint32(p + 16, true), csize = v.getUint32(p + 20, true), size = v.getUint32(p + 24, true);
-    const nlen = v.getUint16(p + 28, true), xlen = v.getUint16(p + 30, true), clen = v.getUint16(p + 32, true);
+    const flags = v.getUint16(p + 8, true),
+      method = v.getUint16(p + 10, true);
+    const time = v.getUint16(p + 12, true),
+      date = v.getUint16(p + 14, true);
+    const crc = v.getUint32(p + 16, true),
+      csize = v.getUint32(p + 20, true),
+      size = v.getUint32(p + 24, true);
+    const nlen = v.getUint16(p + 28, true),
+      xlen = v.getUint16(p + 30, true),
+      clen = v.getUint16(p + 32, true);
     const local = v.getUint32(p + 42, true);
     const name = dec.decode(bytes.subarray(p + 46, p + 46 + nlen));
     expect(csize).toBe(size); // stored
@@ -36,7 +51,8 @@ function readZip(bytes: Uint8Array): Parsed[] {
     expect(v.getUint32(local + 14, true)).toBe(crc);
     expect(v.getUint32(local + 18, true)).toBe(csize);
     expect(v.getUint32(local + 22, true)).toBe(size);
-    const lnlen = v.getUint16(local + 26, true), lxlen = v.getUint16(local + 28, true);
+    const lnlen = v.getUint16(local + 26, true),
+      lxlen = v.getUint16(local + 28, true);
     expect(dec.decode(bytes.subarray(local + 30, local + 30 + lnlen))).toBe(name);
     const start = local + 30 + lnlen + lxlen;
     out.push({ name, method, crc, size, data: bytes.subarray(start, start + csize), time, date });
@@ -55,7 +71,10 @@ describe('crc32', () => {
     expect(crc32(new Uint8Array(0))).toBe(0); // init and final xor cancel (common practice)
     const data = new Uint8Array(10007);
     let s = 12345;
-    for (let i = 0; i < data.length; i++) { s = (s * 1103515245 + 12345) >>> 0; data[i] = s >>> 24; }
+    for (let i = 0; i < data.length; i++) {
+      s = (s * 1103515245 + 12345) >>> 0;
+      data[i] = s >>> 24;
+    }
     // independent implementation: zlib bundled with Node 20 (node:zlib crc32)
     expect(crc32(data)).toBe(zlibCrc32(data));
   });
@@ -97,7 +116,12 @@ describe('buildZip', () => {
 
   it('refuses names a plain ZIP reader would mishandle, with a one-line reason', () => {
     const d = new Uint8Array(1);
-    expect(() => buildZip([{ name: 'x', data: d }, { name: 'x', data: d }])).toThrow(/duplicate entry name "x"/);
+    expect(() =>
+      buildZip([
+        { name: 'x', data: d },
+        { name: 'x', data: d },
+      ]),
+    ).toThrow(/duplicate entry name "x"/);
     expect(() => buildZip([{ name: '../up', data: d }])).toThrow(/bad entry name/);
     expect(() => buildZip([{ name: '/abs', data: d }])).toThrow(/bad entry name/);
   });

@@ -7,9 +7,16 @@ import { NETLIST_SCHEMA, type Netlist } from '../src/dsp/circuit/netlist.ts';
 const fc = (r: number, c: number) => 1 / (2 * Math.PI * r * c);
 
 function lowPass(ohms: number, farads: number): Netlist {
-  return { schema: NETLIST_SCHEMA, ground: '0', input: { node: 'a', ohms: 0 }, output: { node: 'b' }, elements: [
-    { id: 'R1', kind: 'resistor', nodes: ['a', 'b'], ohms }, { id: 'C1', kind: 'capacitor', nodes: ['b', '0'], farads },
-  ] };
+  return {
+    schema: NETLIST_SCHEMA,
+    ground: '0',
+    input: { node: 'a', ohms: 0 },
+    output: { node: 'b' },
+    elements: [
+      { id: 'R1', kind: 'resistor', nodes: ['a', 'b'], ohms },
+      { id: 'C1', kind: 'capacitor', nodes: ['b', '0'], farads },
+    ],
+  };
 }
 const net = { elementIds: ['R1', 'C1'], drivenFrom: 'a', outputNode: 'b' };
 
@@ -27,9 +34,16 @@ describe('corner-frequency fit', () => {
     expect(Math.abs(r.cornerHz! / fc(10e3, 16e-9) - 1)).toBeLessThan(1e-5);
   });
   it('high-pass: 100 nF and 50 Hz needs 31.8 k -> 33 k (E12)', () => {
-    const hp: Netlist = { schema: NETLIST_SCHEMA, ground: '0', input: { node: 'a', ohms: 0 }, output: { node: 'b' }, elements: [
-      { id: 'C1', kind: 'capacitor', nodes: ['a', 'b'], farads: 100e-9 }, { id: 'R1', kind: 'resistor', nodes: ['b', '0'], ohms: 10e3 },
-    ] };
+    const hp: Netlist = {
+      schema: NETLIST_SCHEMA,
+      ground: '0',
+      input: { node: 'a', ohms: 0 },
+      output: { node: 'b' },
+      elements: [
+        { id: 'C1', kind: 'capacitor', nodes: ['a', 'b'], farads: 100e-9 },
+        { id: 'R1', kind: 'resistor', nodes: ['b', '0'], ohms: 10e3 },
+      ],
+    };
     const r = fitToneNetwork(hp, net, ['R1'], { kind: 'corner', hertz: 50, response: 'high-pass' });
     expect(r.values.R1).toBe(33e3);
     expect(Math.abs(r.cornerHz! / fc(33e3, 100e-9) - 1)).toBeLessThan(1e-5);
@@ -37,10 +51,11 @@ describe('corner-frequency fit', () => {
 });
 
 describe('target-curve fit', () => {
-  const target = (offsetDb: number) => [50, 200, 1000, 3000, 10000].map((hz) => {
-    const w = 2 * Math.PI * hz * 10e3 * 22e-9;
-    return { hertz: hz, db: -10 * Math.log10(1 + w * w) + offsetDb };
-  });
+  const target = (offsetDb: number) =>
+    [50, 200, 1000, 3000, 10000].map((hz) => {
+      const w = 2 * Math.PI * hz * 10e3 * 22e-9;
+      return { hertz: hz, db: -10 * Math.log10(1 + w * w) + offsetDb };
+    });
   it('recovers the E12 capacitor that produced the curve, exactly', () => {
     const r = fitToneNetwork(lowPass(10e3, 4.7e-9), net, ['C1'], { kind: 'curve', points: target(0), matchLevel: false });
     expect(r.values.C1).toBeCloseTo(22e-9, 20);

@@ -14,7 +14,6 @@ import {
   WavStreamReader,
 } from '../src/dsp/io/wav.ts';
 
-
 /** Deterministic pseudo-random integers in the code range of a bit depth (LCG, common practice). */
 function randomInts(n: number, bits: number, seed: number): number[] {
   const full = 2 ** (bits - 1);

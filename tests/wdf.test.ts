@@ -6,7 +6,14 @@ import { describe, expect, it } from 'vitest';
 import { CircuitEngine } from '../src/dsp/circuit/engine.ts';
 import type { Netlist } from '../src/dsp/circuit/netlist.ts';
 import {
-  Capacitor, IdealVoltageSource, ParallelAdaptor, Resistor, ResistiveVoltageSource, RTypeRoot, SeriesAdaptor, WdfTree,
+  Capacitor,
+  IdealVoltageSource,
+  ParallelAdaptor,
+  Resistor,
+  ResistiveVoltageSource,
+  RTypeRoot,
+  SeriesAdaptor,
+  WdfTree,
 } from './reference/wdf-elements.ts';
 
 const fs = 48000;
@@ -14,13 +21,18 @@ const fs = 48000;
 /** First-order section from the bilinear transform: H(s) = (c1 s + c0)/(d1 s + d0), s = 2fs(1-z^-1)/(1+z^-1). */
 function bilinearFirstOrder(c1: number, c0: number, d1: number, d0: number): (x: Float64Array) => Float64Array {
   const K = 2 * fs;
-  const b0 = c1 * K + c0, b1 = -c1 * K + c0, a0 = d1 * K + d0, a1 = -d1 * K + d0;
+  const b0 = c1 * K + c0,
+    b1 = -c1 * K + c0,
+    a0 = d1 * K + d0,
+    a1 = -d1 * K + d0;
   return (x) => {
     const y = new Float64Array(x.length);
-    let x1 = 0, y1 = 0;
+    let x1 = 0,
+      y1 = 0;
     for (let n = 0; n < x.length; n++) {
       y[n] = (b0 * x[n]! + b1 * x1 - a1 * y1) / a0;
-      x1 = x[n]!; y1 = y[n]!;
+      x1 = x[n]!;
+      y1 = y[n]!;
     }
     return y;
   };
@@ -29,7 +41,10 @@ function bilinearFirstOrder(c1: number, c0: number, d1: number, d0: number): (x:
 function noise(n: number, seed = 1): Float64Array {
   let s = seed;
   const x = new Float64Array(n);
-  for (let k = 0; k < n; k++) { s = (s * 1103515245 + 12345) % 2147483648; x[k] = s / 2147483648 - 0.5; }
+  for (let k = 0; k < n; k++) {
+    s = (s * 1103515245 + 12345) % 2147483648;
+    x[k] = s / 2147483648 - 0.5;
+  }
   return x;
 }
 
@@ -42,7 +57,8 @@ function rcCircuit(R: number, C: number) {
 }
 
 describe('RC filters against the bilinear transform of the analog response', () => {
-  const R = 10e3, C = 22e-9; // corner 723 Hz
+  const R = 10e3,
+    C = 22e-9; // corner 723 Hz
   it('low-pass: capacitor voltage equals 1/(1 + sRC) under the bilinear transform', () => {
     const { c, src, tree } = rcCircuit(R, C);
     const x = noise(4000);
@@ -84,13 +100,16 @@ describe('RC filters against the bilinear transform of the analog response', () 
   });
 });
 
-describe('resistive divider (Ohm\'s law)', () => {
+describe("resistive divider (Ohm's law)", () => {
   it('series pair: V·R2/(R1+R2), parallel load reduces it as nodal analysis says', () => {
-    const r1 = new Resistor(10e3), r2 = new Resistor(4.7e3);
+    const r1 = new Resistor(10e3),
+      r2 = new Resistor(4.7e3);
     const src = new IdealVoltageSource(3);
     new WdfTree(src, new SeriesAdaptor(r1, r2)).step();
     expect(r2.volts).toBeCloseTo((3 * 4.7e3) / 14.7e3, 12);
-    const a = new Resistor(10e3), b = new Resistor(4.7e3), load = new Resistor(22e3);
+    const a = new Resistor(10e3),
+      b = new Resistor(4.7e3),
+      load = new Resistor(22e3);
     const s2 = new IdealVoltageSource(3);
     const tree = new WdfTree(s2, new SeriesAdaptor(a, new ParallelAdaptor(b, load)));
     tree.step();
@@ -106,7 +125,11 @@ describe('resistive divider (Ohm\'s law)', () => {
 
 describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
   // Bridged-T: C1 in-m, C2 m-out, R1 in-out (bridge), R2 m-ground; source Rs; load RL.
-  const Rs = 1, R1 = 10e3, R2 = 1e3, C = 10e-9, RL = 1e8;
+  const Rs = 1,
+    R1 = 10e3,
+    R2 = 1e3,
+    C = 10e-9,
+    RL = 1e8;
   /** Nodal analysis at complex frequency s (reference, solved by Cramer's rule for 3 nodes). */
   function nodal(s: { re: number; im: number }): { re: number; im: number } {
     type Cx = { re: number; im: number };
@@ -114,9 +137,15 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
     const add = (a: Cx, b: Cx): Cx => c(a.re + b.re, a.im + b.im);
     const sub = (a: Cx, b: Cx): Cx => c(a.re - b.re, a.im - b.im);
     const mul = (a: Cx, b: Cx): Cx => c(a.re * b.re - a.im * b.im, a.re * b.im + a.im * b.re);
-    const div = (a: Cx, b: Cx): Cx => { const d = b.re * b.re + b.im * b.im; return c((a.re * b.re + a.im * b.im) / d, (a.im * b.re - a.re * b.im) / d); };
+    const div = (a: Cx, b: Cx): Cx => {
+      const d = b.re * b.re + b.im * b.im;
+      return c((a.re * b.re + a.im * b.im) / d, (a.im * b.re - a.re * b.im) / d);
+    };
     const sC = mul(s, c(C));
-    const gs = c(1 / Rs), g1 = c(1 / R1), g2 = c(1 / R2), gl = c(1 / RL);
+    const gs = c(1 / Rs),
+      g1 = c(1 / R1),
+      g2 = c(1 / R2),
+      gl = c(1 / RL);
     // unknowns [vin, vm, vo]; source 1 V through Rs into vin
     const A = [
       [add(add(gs, g1), sC), c(-sC.re, -sC.im), c(-g1.re)],
@@ -126,8 +155,10 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
     const b = [gs, c(0), c(0)];
     const det3 = (M: Cx[][]) => {
       const m = (r: number, k: number) => M[r]![k]!;
-      return sub(add(mul(m(0, 0), sub(mul(m(1, 1), m(2, 2)), mul(m(1, 2), m(2, 1)))), mul(m(0, 2), sub(mul(m(1, 0), m(2, 1)), mul(m(1, 1), m(2, 0))))),
-        mul(m(0, 1), sub(mul(m(1, 0), m(2, 2)), mul(m(1, 2), m(2, 0)))));
+      return sub(
+        add(mul(m(0, 0), sub(mul(m(1, 1), m(2, 2)), mul(m(1, 2), m(2, 1)))), mul(m(0, 2), sub(mul(m(1, 0), m(2, 1)), mul(m(1, 1), m(2, 0))))),
+        mul(m(0, 1), sub(mul(m(1, 0), m(2, 2)), mul(m(1, 2), m(2, 0)))),
+      );
     };
     const A3 = A.map((row, r) => row.map((v, k) => (k === 2 ? b[r]! : v)));
     return div(det3(A3), det3(A));
@@ -135,12 +166,19 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
 
   it('its frequency response equals the nodal transfer function at bilinear-warped frequencies', () => {
     const src = new ResistiveVoltageSource(0, Rs);
-    const c1 = new Capacitor(C, fs), c2 = new Capacitor(C, fs);
-    const r1 = new Resistor(R1), r2 = new Resistor(R2), rl = new Resistor(RL);
+    const c1 = new Capacitor(C, fs),
+      c2 = new Capacitor(C, fs);
+    const r1 = new Resistor(R1),
+      r2 = new Resistor(R2),
+      rl = new Resistor(RL);
     // internal nodes: 0 = in, 1 = m, 2 = out; -1 ground
     const root = new RTypeRoot(3, [
-      { child: src, a: 0, b: -1 }, { child: c1, a: 0, b: 1 }, { child: c2, a: 1, b: 2 },
-      { child: r1, a: 0, b: 2 }, { child: r2, a: 1, b: -1 }, { child: rl, a: 2, b: -1 },
+      { child: src, a: 0, b: -1 },
+      { child: c1, a: 0, b: 1 },
+      { child: c2, a: 1, b: 2 },
+      { child: r1, a: 0, b: 2 },
+      { child: r2, a: 1, b: -1 },
+      { child: rl, a: 2, b: -1 },
     ]);
     const N = 16384;
     const h = new Float64Array(N);
@@ -151,8 +189,12 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
     }
     for (const f of [50, 300, 1000, 1600, 3000, 8000, 15000]) {
       const w = (2 * Math.PI * f) / fs;
-      let re = 0, im = 0;
-      for (let n = 0; n < N; n++) { re += h[n]! * Math.cos(w * n); im -= h[n]! * Math.sin(w * n); }
+      let re = 0,
+        im = 0;
+      for (let n = 0; n < N; n++) {
+        re += h[n]! * Math.cos(w * n);
+        im -= h[n]! * Math.sin(w * n);
+      }
       const ref = nodal({ re: 0, im: 2 * fs * Math.tan(w / 2) });
       const magDb = 10 * Math.log10(re * re + im * im);
       const refDb = 10 * Math.log10(ref.re * ref.re + ref.im * ref.im);
@@ -175,10 +217,15 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
 
   it('changing a child resistance recomputes the scattering matrix', () => {
     const src = new ResistiveVoltageSource(1, 100);
-    const ra = new Resistor(1000), rb = new Resistor(1000);
-    const root = new RTypeRoot(1, [{ child: src, a: 0, b: -1 }, { child: ra, a: 0, b: -1 }, { child: rb, a: 0, b: -1 }]);
+    const ra = new Resistor(1000),
+      rb = new Resistor(1000);
+    const root = new RTypeRoot(1, [
+      { child: src, a: 0, b: -1 },
+      { child: ra, a: 0, b: -1 },
+      { child: rb, a: 0, b: -1 },
+    ]);
     root.step();
-    expect(ra.volts).toBeCloseTo(1 * 500 / 600, 9);
+    expect(ra.volts).toBeCloseTo((1 * 500) / 600, 9);
     rb.setOhms(250);
     root.step();
     const rp = 1 / (1 / 1000 + 1 / 250);
@@ -189,9 +236,18 @@ describe('R-type adaptor: bridged-T network (not series-parallel)', () => {
 describe('the engine against an adaptor tree of the same series-parallel circuit', () => {
   // source (EMF behind 4.7 k) - C1 100 n in series - node a: R1 47 k || C2 4.7 n || (R2 10 k in
   // series with C3 22 n) || RL 100 k; output: the voltage across RL (invented values).
-  const Rs = 4.7e3, C1 = 100e-9, R1 = 47e3, C2 = 4.7e-9, R2 = 10e3, C3 = 22e-9, RL = 100e3;
+  const Rs = 4.7e3,
+    C1 = 100e-9,
+    R1 = 47e3,
+    C2 = 4.7e-9,
+    R2 = 10e3,
+    C3 = 22e-9,
+    RL = 100e3;
   const netlist: Netlist = {
-    schema: 'valvewright.netlist.v1', ground: '0', input: { node: 'in', ohms: Rs }, output: { node: 'a' },
+    schema: 'valvewright.netlist.v1',
+    ground: '0',
+    input: { node: 'in', ohms: Rs },
+    output: { node: 'a' },
     elements: [
       { id: 'C1', kind: 'capacitor', nodes: ['in', 'a'], farads: C1 },
       { id: 'R1', kind: 'resistor', nodes: ['a', '0'], ohms: R1 },
@@ -205,17 +261,30 @@ describe('the engine against an adaptor tree of the same series-parallel circuit
   // The engine adds 1e-12 S from every node to ground (so that a node without a DC path stays
   // defined): against node impedances under 100 k that is a relative difference under 1e-7.
   it('sample for sample on noise, and after a resistor and a capacitor change, within 1e-7 of the signal', () => {
-    const src = new IdealVoltageSource(0), rs = new Resistor(Rs);
-    const c1 = new Capacitor(C1, fs), r1 = new Resistor(R1), c2 = new Capacitor(C2, fs), r2 = new Resistor(R2), c3 = new Capacitor(C3, fs), rl = new Resistor(RL);
+    const src = new IdealVoltageSource(0),
+      rs = new Resistor(Rs);
+    const c1 = new Capacitor(C1, fs),
+      r1 = new Resistor(R1),
+      c2 = new Capacitor(C2, fs),
+      r2 = new Resistor(R2),
+      c3 = new Capacitor(C3, fs),
+      rl = new Resistor(RL);
     // the tree: the source at the root drives Rs - C1 - (the shunt network) in series
     const shunt = new ParallelAdaptor(new ParallelAdaptor(r1, c2), new ParallelAdaptor(new SeriesAdaptor(r2, c3), rl));
     const tree = new WdfTree(src, new SeriesAdaptor(rs, new SeriesAdaptor(c1, shunt)));
     const engine = new CircuitEngine(netlist, fs, { antialiasing: 'off' });
     const x = noise(6000, 3);
-    let worst = 0, peak = 0;
+    let worst = 0,
+      peak = 0;
     for (let n = 0; n < x.length; n++) {
-      if (n === 2000) { r1.setOhms(22e3); engine.setValues([{ id: 'R1', value: 22e3 }]); }
-      if (n === 4000) { c3.setFarads(47e-9); engine.setValues([{ id: 'C3', value: 47e-9 }]); }
+      if (n === 2000) {
+        r1.setOhms(22e3);
+        engine.setValues([{ id: 'R1', value: 22e3 }]);
+      }
+      if (n === 4000) {
+        c3.setFarads(47e-9);
+        engine.setValues([{ id: 'C3', value: 47e-9 }]);
+      }
       src.emfVolts = x[n]!;
       tree.step();
       const y = engine.processSample(x[n]!);

@@ -41,7 +41,8 @@ class CircuitProcessor extends AudioWorkletProcessor {
     let src: Float32Array | null = null;
     if (chans.length === 1) src = chans[0] ?? null;
     else if (chans.length > 1) {
-      const mono = this.mono, g = 1 / chans.length;
+      const mono = this.mono,
+        g = 1 / chans.length;
       mono.fill(0, 0, n);
       for (const c of chans) for (let k = 0; k < n; k++) mono[k]! += c[k]! * g;
       src = mono;

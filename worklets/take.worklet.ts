@@ -18,9 +18,12 @@ class TakeProcessor extends AudioWorkletProcessor {
     super();
     this.port.onmessage = (e: MessageEvent<TakeToProcessor>) => {
       const m = e.data;
-      if (m.type === 'buffers') { for (let k = 0; k < m.buffers.length; k++) this.pool.push(m.buffers[k]!); }
-      else if (m.type === 'start') { this.recording = true; this.dropped = 0; }
-      else if (m.type === 'stop') {
+      if (m.type === 'buffers') {
+        for (let k = 0; k < m.buffers.length; k++) this.pool.push(m.buffers[k]!);
+      } else if (m.type === 'start') {
+        this.recording = true;
+        this.dropped = 0;
+      } else if (m.type === 'stop') {
         this.recording = false;
         this.flush();
         const done: TakeFromProcessor = { type: 'stopped', droppedSamples: this.dropped };
@@ -44,12 +47,18 @@ class TakeProcessor extends AudioWorkletProcessor {
     if (!this.recording) return true;
     const chans = inputs[0];
     if (!chans || chans.length === 0) return true;
-    const first = chans[0]!, n = first.length, nc = chans.length, g = 1 / nc;
+    const first = chans[0]!,
+      n = first.length,
+      nc = chans.length,
+      g = 1 / nc;
     for (let k = 0; k < n; k++) {
       if (!this.chunk) {
         this.chunk = this.pool.pop() ?? null;
         this.fill = 0;
-        if (!this.chunk) { this.dropped += n - k; return true; }
+        if (!this.chunk) {
+          this.dropped += n - k;
+          return true;
+        }
       }
       let v = first[k]!;
       for (let c = 1; c < nc; c++) v += chans[c]![k]!;

@@ -8,10 +8,15 @@ export type CabinetSource = string | ArrayBuffer | { readonly samples: Float32Ar
 export class Cabinet {
   private response: AudioBuffer | null = null;
 
-  constructor(private readonly graph: Graph, private readonly ctx: BaseAudioContext) {}
+  constructor(
+    private readonly graph: Graph,
+    private readonly ctx: BaseAudioContext,
+  ) {}
 
   /** The response in use (offline renders convolve with it too). */
-  get buffer(): AudioBuffer | null { return this.response; }
+  get buffer(): AudioBuffer | null {
+    return this.response;
+  }
 
   async load(src: CabinetSource): Promise<void> {
     const rate = this.ctx.sampleRate;

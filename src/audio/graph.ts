@@ -39,16 +39,25 @@ export const SAFETY_INIT: ProcessorInit = {
   meterHz: 0,
   factor: 1,
   safetyMute: false,
-  initial: [{ type: 'monitor', target: 'dry' }, { type: 'set-live-input', live: true }],
+  initial: [
+    { type: 'monitor', target: 'dry' },
+    { type: 'set-live-input', live: true },
+  ],
 };
 
 export async function buildGraph(ctx: ToneContext, init: ProcessorInit, fftSize = 4096): Promise<Graph> {
   await loadWorklet(ctx);
   const circuit = ctx.createAudioWorkletNode(PROCESSOR_NAME, {
-    numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: init,
+    numberOfInputs: 1,
+    numberOfOutputs: 1,
+    outputChannelCount: [1],
+    processorOptions: init,
   });
   const safety = ctx.createAudioWorkletNode(PROCESSOR_NAME, {
-    numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: SAFETY_INIT,
+    numberOfInputs: 1,
+    numberOfOutputs: 1,
+    outputChannelCount: [1],
+    processorOptions: SAFETY_INIT,
   });
   const input = new Tone.Gain({ context: ctx, gain: 1 });
   const bypass = new Tone.Gain({ context: ctx, gain: 1 });
@@ -62,13 +71,23 @@ export async function buildGraph(ctx: ToneContext, init: ProcessorInit, fftSize 
   output.connect(ctx.destination);
   let cabinet: Tone.Convolver | null = null;
   return {
-    ctx, input, circuit, safety, output, analyser,
-    get hasCabinet() { return cabinet !== null; },
+    ctx,
+    input,
+    circuit,
+    safety,
+    output,
+    analyser,
+    get hasCabinet() {
+      return cabinet !== null;
+    },
     setCabinet(ir: AudioBuffer | null): void {
       // A fresh convolver per response: Tone.Convolver replaces its native node on a second
       // buffer and the new node comes back with normalize on; normalize must be off before
       // the buffer is set (Web Audio: normalization is applied when the buffer is assigned).
-      if (cabinet) { cabinet.dispose(); cabinet = null; }
+      if (cabinet) {
+        cabinet.dispose();
+        cabinet = null;
+      }
       if (ir) {
         cabinet = new Tone.Convolver({ context: ctx, normalize: false });
         cabinet.buffer = new Tone.ToneAudioBuffer(ir);
@@ -77,12 +96,19 @@ export async function buildGraph(ctx: ToneContext, init: ProcessorInit, fftSize 
         bypass.gain.value = 0;
       } else bypass.gain.value = 1;
     },
-    send(msg: ToProcessor, transfer: Transferable[] = []): void { circuit.port.postMessage(msg, transfer); },
+    send(msg: ToProcessor, transfer: Transferable[] = []): void {
+      circuit.port.postMessage(msg, transfer);
+    },
     dispose(): void {
       cabinet?.dispose();
-      input.dispose(); bypass.dispose(); output.dispose(); analyser.dispose();
-      circuit.disconnect(); safety.disconnect();
-      circuit.port.close(); safety.port.close();
+      input.dispose();
+      bypass.dispose();
+      output.dispose();
+      analyser.dispose();
+      circuit.disconnect();
+      safety.disconnect();
+      circuit.port.close();
+      safety.port.close();
     },
   };
 }

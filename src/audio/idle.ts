@@ -17,7 +17,12 @@ export class IdlePolicy {
    * @param manages false for a context given from outside (never suspended here)
    * @param busy whether something sounds (playing, live input): then the context stays running
    */
-  constructor(private readonly ctx: AudioContext | BaseAudioContext, private readonly manages: boolean, private readonly busy: () => boolean, private readonly seconds = IDLE_SUSPEND_SECONDS) {}
+  constructor(
+    private readonly ctx: AudioContext | BaseAudioContext,
+    private readonly manages: boolean,
+    private readonly busy: () => boolean,
+    private readonly seconds = IDLE_SUSPEND_SECONDS,
+  ) {}
 
   /** Something happened: resume if suspended (after a first gesture) and restart the countdown. */
   wake(): void {
@@ -39,7 +44,9 @@ export class IdlePolicy {
   }
 
   /** Suspended for want of anything to do. */
-  get idle(): boolean { return this.manages && this.ctx.state === 'suspended'; }
+  get idle(): boolean {
+    return this.manages && this.ctx.state === 'suspended';
+  }
 
   /** `listener(idle)` on every change (the context's own statechange event); returns the unsubscribe. */
   onChange(listener: (idle: boolean) => void): () => void {

@@ -69,7 +69,12 @@ export type { LoadedInfo } from './requests.ts';
 export type { SourceInfo, LoopRegion } from './player.ts';
 export type { CabinetSource } from './cabinet.ts';
 
-export interface LiveLatency { readonly inputSeconds: number; readonly processingSeconds: number; readonly outputSeconds: number; readonly totalSeconds: number }
+export interface LiveLatency {
+  readonly inputSeconds: number;
+  readonly processingSeconds: number;
+  readonly outputSeconds: number;
+  readonly totalSeconds: number;
+}
 
 export interface AudioEngineOptions {
   /** Oversampling factor to start with (overrides the settings' factor). */
@@ -168,7 +173,9 @@ export interface AudioEngine {
  * `init` is the processor state at frame 0 (applied before the first block, without fades).
  */
 export async function renderGraphOffline(
-  init: ProcessorInit, input: Float32Array | AudioBuffer, options: { sampleRateHz?: number; tailSeconds?: number; cabinet?: AudioBuffer | null } = {},
+  init: ProcessorInit,
+  input: Float32Array | AudioBuffer,
+  options: { sampleRateHz?: number; tailSeconds?: number; cabinet?: AudioBuffer | null } = {},
 ): Promise<AudioBuffer> {
   const rate = options.sampleRateHz ?? (input instanceof AudioBuffer ? input.sampleRate : 48000);
   const buf = input instanceof AudioBuffer ? input : await monoBuffer(input, rate, rate);
@@ -201,7 +208,11 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   if (options.inputVoltsAtFullScale !== undefined) state.inputVolts = options.inputVoltsAtFullScale;
   // the processor starts from the settings' factor, levels and monitor (designs come as plans)
   const initial = state.messages().filter((m) => m.type !== 'load-design');
-  const graph: Graph = await buildGraph(ctx, { factor: state.factor, initial: [...initial, { type: 'set-loudness-match', on: state.loudnessMatch }] }, options.fftSize ?? 4096);
+  const graph: Graph = await buildGraph(
+    ctx,
+    { factor: state.factor, initial: [...initial, { type: 'set-loudness-match', on: state.loudnessMatch }] },
+    options.fftSize ?? 4096,
+  );
   const meters = new Meters(graph, options.scopeCapacity ?? 300);
   const takes = await TakeDeck.attach(raw, takeWorkletUrl, TAKE_PROCESSOR_NAME);
   const cabinet = new Cabinet(graph, raw);
@@ -218,8 +229,18 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
   });
   const idle: IdlePolicy = new IdlePolicy(raw, !options.context, (): boolean => player.playing || live.on, options.idleSuspendSeconds ?? IDLE_SUSPEND_SECONDS);
   const player = new FilePlayer(ctx, graph.input, () => idle.wake());
-  const send = (m: ToProcessor | Promise<ToProcessor | null>) => { outbox.send(m); idle.wake(); };
-  const live: LiveInput = new LiveInput(ctx, raw, graph.input, takes, () => idle.start(), () => send({ type: 'set-live-input', live: false }));
+  const send = (m: ToProcessor | Promise<ToProcessor | null>) => {
+    outbox.send(m);
+    idle.wake();
+  };
+  const live: LiveInput = new LiveInput(
+    ctx,
+    raw,
+    graph.input,
+    takes,
+    () => idle.start(),
+    () => send({ type: 'set-live-input', live: false }),
+  );
 
   /** The processor muted its output for safety and waits for the user (see 'safety-muted'). */
   let safetyHeld = false;
@@ -249,22 +270,37 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
    * processor would have reported it.
    */
   const sendPlanned = (slot: Slot, design: Design, id: number, make: (plan: SlotPlan) => ToProcessor): void => {
-    send(planner.plan(design, fs, state.factor).then((plan) => make(withoutSentTables(plan, sentTables)), (e: unknown) => {
-      const message = `slot ${slot}: ${e instanceof Error ? e.message : String(e)}`;
-      replies.fail(id, new Error(message));
-      meters.receive({ type: 'error', message, requestId: id });
-      return null;
-    }));
+    send(
+      planner.plan(design, fs, state.factor).then(
+        (plan) => make(withoutSentTables(plan, sentTables)),
+        (e: unknown) => {
+          const message = `slot ${slot}: ${e instanceof Error ? e.message : String(e)}`;
+          replies.fail(id, new Error(message));
+          meters.receive({ type: 'error', message, requestId: id });
+          return null;
+        },
+      ),
+    );
   };
   /** Plans for both slots' present designs at the present factor (a slot whose plan fails goes without: the processor reports why). */
   const withPlans = async <M extends ToProcessor>(m: M): Promise<M> => {
     const plans: { A?: SlotPlan; B?: SlotPlan } = {};
-    await Promise.all((['A', 'B'] as const).map(async (slot) => {
-      const d = state.designs[slot];
-      if (d) try { plans[slot] = await planner.plan(d, fs, state.factor); } catch { /* reported by the processor */ }
-    }));
+    await Promise.all(
+      (['A', 'B'] as const).map(async (slot) => {
+        const d = state.designs[slot];
+        if (d)
+          try {
+            plans[slot] = await planner.plan(d, fs, state.factor);
+          } catch {
+            /* reported by the processor */
+          }
+      }),
+    );
     // tables stripped in slot order once both are here (the posting order)
-    for (const slot of ['A', 'B'] as const) { const p = plans[slot]; if (p) plans[slot] = withoutSentTables(p, sentTables); }
+    for (const slot of ['A', 'B'] as const) {
+      const p = plans[slot];
+      if (p) plans[slot] = withoutSentTables(p, sentTables);
+    }
     return { ...m, plans };
   };
 
@@ -282,7 +318,10 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       send({ type: 'set-output-scale', slot, voltsAtFullScale: scale });
       return reply;
     },
-    clearSlot(slot) { delete state.designs[slot]; send({ type: 'clear-slot', slot }); },
+    clearSlot(slot) {
+      delete state.designs[slot];
+      send({ type: 'clear-slot', slot });
+    },
     setPart(slot, part) {
       const d = state.designs[slot];
       const old = d?.parts.find((p) => p.id === part.id);
@@ -290,7 +329,8 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       if (next) state.designs[slot] = next;
       const id = replies.id();
       // a new tube type is a new circuit: compiled off the audio thread, swapped in by the processor
-      if (next && old?.kind === 'tube' && part.kind === 'tube' && old.type !== part.type) sendPlanned(slot, next, id, (plan) => ({ type: 'set-part', slot, part, plan, requestId: id }));
+      if (next && old?.kind === 'tube' && part.kind === 'tube' && old.type !== part.type)
+        sendPlanned(slot, next, id, (plan) => ({ type: 'set-part', slot, part, plan, requestId: id }));
       else send({ type: 'set-part', slot, part, requestId: id });
     },
     setTubeSample(slot, tubeId, sample) {
@@ -298,21 +338,46 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       if (d) state.designs[slot] = { ...d, parts: d.parts.map((p) => (p.id === tubeId && p.kind === 'tube' ? { ...p, sample } : p)) };
       send({ type: 'set-tube-sample', slot, tubeId, sample });
     },
-    setMonitor(target) { state.monitor = target; send({ type: 'monitor', target }); },
-    setQuality(factor) { state.factor = factor; send(withPlans({ type: 'set-quality', factor })); },
-    setInputCalibration(v) { state.inputVolts = v; send({ type: 'set-input-calibration', voltsAtFullScale: v }); },
-    setOutputScale(slot, v) { state.outputScale[slot] = v; send({ type: 'set-output-scale', slot, voltsAtFullScale: v }); },
-    setLoudnessMatch(on) { state.loudnessMatch = on; send({ type: 'set-loudness-match', on }); },
-    setOutputLevel(db) { state.levelDb = db; send({ type: 'set-output-level', db }); },
-    setLimiter(on) { state.limiter = on; send({ type: 'set-limiter', enabled: on }); },
+    setMonitor(target) {
+      state.monitor = target;
+      send({ type: 'monitor', target });
+    },
+    setQuality(factor) {
+      state.factor = factor;
+      send(withPlans({ type: 'set-quality', factor }));
+    },
+    setInputCalibration(v) {
+      state.inputVolts = v;
+      send({ type: 'set-input-calibration', voltsAtFullScale: v });
+    },
+    setOutputScale(slot, v) {
+      state.outputScale[slot] = v;
+      send({ type: 'set-output-scale', slot, voltsAtFullScale: v });
+    },
+    setLoudnessMatch(on) {
+      state.loudnessMatch = on;
+      send({ type: 'set-loudness-match', on });
+    },
+    setOutputLevel(db) {
+      state.levelDb = db;
+      send({ type: 'set-output-level', db });
+    },
+    setLimiter(on) {
+      state.limiter = on;
+      send({ type: 'set-limiter', enabled: on });
+    },
     setMuted(muted) {
       state.outputMuted = muted;
       send({ type: 'set-mute', muted });
       graph.output.gain.cancelScheduledValues(ctx.currentTime);
       graph.output.gain.rampTo(muted ? 0 : 1, 0.002);
     },
-    reset() { send(withPlans({ type: 'reset' })); },
-    get sending() { return outbox.pending; },
+    reset() {
+      send(withPlans({ type: 'reset' }));
+    },
+    get sending() {
+      return outbox.pending;
+    },
     loadFile: (bytes) => player.loadFile(bytes),
     setSource: (samples, rateHz) => player.setSource(samples, rateHz),
     async play() {
@@ -320,10 +385,17 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       await idle.start();
       player.play();
     },
-    stop() { player.stop(); idle.wake(); },
-    get idle() { return idle.idle; },
+    stop() {
+      player.stop();
+      idle.wake();
+    },
+    get idle() {
+      return idle.idle;
+    },
     onIdleChange: (listener) => idle.onChange(listener),
-    get playing() { return player.playing; },
+    get playing() {
+      return player.playing;
+    },
     positionSeconds: () => player.positionSeconds(),
     setLoop: (region) => player.setLoop(region),
     async startLive(opts = {}) {
@@ -335,17 +407,31 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
       if (!muted) releaseSafety();
       live.setMuted(muted);
     },
-    stopLive() { releaseSafety(); live.stop(); },
-    get live() { return live.state; },
-    get liveChannels() { return live.channels; },
-    startTake() { takes.start(live.on); },
+    stopLive() {
+      releaseSafety();
+      live.stop();
+    },
+    get live() {
+      return live.state;
+    },
+    get liveChannels() {
+      return live.channels;
+    },
+    startTake() {
+      takes.start(live.on);
+    },
     stopTake: () => takes.stop(),
-    get takeSeconds() { return takes.seconds; },
-    onTakeEnded(listener: (t: Take) => void) { takes.onEnded(listener); },
+    get takeSeconds() {
+      return takes.seconds;
+    },
+    onTakeEnded(listener: (t: Take) => void) {
+      takes.onEnded(listener);
+    },
     liveLatency() {
       if (!live.on) return null;
       const input = live.deviceLatencySeconds;
-      const heard = state.monitor === 'dry' ? Math.max(processingLatencySamples.A ?? 0, processingLatencySamples.B ?? 0) : processingLatencySamples[state.monitor] ?? 0;
+      const heard =
+        state.monitor === 'dry' ? Math.max(processingLatencySamples.A ?? 0, processingLatencySamples.B ?? 0) : (processingLatencySamples[state.monitor] ?? 0);
       const ac = raw as AudioContext & { outputLatency?: number };
       const output = (ac.baseLatency ?? 0) + (typeof ac.outputLatency === 'number' ? ac.outputLatency : 0);
       const processing = heard / fs;
@@ -354,12 +440,16 @@ export async function createAudioEngine(options: AudioEngineOptions = {}): Promi
     listInputs: (): Promise<LiveInputDevice[]> => LiveInput.list(),
     loadCabinet: (src) => cabinet.load(src),
     onReport: (l) => meters.onReport(l),
-    get latestMeter(): MeterReport | null { return meters.latestMeter; },
+    get latestMeter(): MeterReport | null {
+      return meters.latestMeter;
+    },
     // while live input is muted the input meter reads the device before its mute gain, so the
     // interface gain can be set before anything is heard
     levels: () => meters.levels(live.peakWhileMuted() * state.inputVolts),
     spectrum: (into) => meters.spectrum(into, fs),
-    get scope(): ScopeBuffer { return meters.scope; },
+    get scope(): ScopeBuffer {
+      return meters.scope;
+    },
     async renderOffline(o) {
       const init: ProcessorInit = { factor: state.factor, initial: [...state.messages(), ...(o.overrides ?? [])] };
       return renderGraphOffline(init, o.input, {

@@ -18,7 +18,10 @@ export interface LiveInputOptions {
   readonly channel?: LiveChannel;
 }
 export type LiveChannel = 1 | 2 | 'mix';
-export interface LiveInputDevice { readonly deviceId: string; readonly label: string }
+export interface LiveInputDevice {
+  readonly deviceId: string;
+  readonly label: string;
+}
 
 export class LiveInput {
   private readonly gain: Tone.Gain;
@@ -35,8 +38,14 @@ export class LiveInput {
    * @param started called once the device runs (still muted), before it is connected
    * @param stopped called after the device stopped
    */
-  constructor(private readonly ctx: Tone.Context, private readonly raw: AudioContext, input: Tone.InputNode, private readonly take: TakeDeck,
-    private readonly started: () => Promise<void>, private readonly stopped: () => void) {
+  constructor(
+    private readonly ctx: Tone.Context,
+    private readonly raw: AudioContext,
+    input: Tone.InputNode,
+    private readonly take: TakeDeck,
+    private readonly started: () => Promise<void>,
+    private readonly stopped: () => void,
+  ) {
     this.gain = new Tone.Gain({ context: ctx, gain: 0 });
     this.gain.connect(input);
     this.tap = raw.createAnalyser();
@@ -49,14 +58,23 @@ export class LiveInput {
     if (!this.stream || !this.muted) return 0;
     this.tap.getFloatTimeDomainData(this.tapBuf);
     let peak = 0;
-    for (let k = 0; k < this.tapBuf.length; k++) { const a = Math.abs(this.tapBuf[k]!); if (a > peak) peak = a; }
+    for (let k = 0; k < this.tapBuf.length; k++) {
+      const a = Math.abs(this.tapBuf[k]!);
+      if (a > peak) peak = a;
+    }
     return peak;
   }
 
-  get state(): 'off' | 'muted' | 'on' { return !this.stream ? 'off' : this.muted ? 'muted' : 'on'; }
-  get on(): boolean { return this.stream !== null; }
+  get state(): 'off' | 'muted' | 'on' {
+    return !this.stream ? 'off' : this.muted ? 'muted' : 'on';
+  }
+  get on(): boolean {
+    return this.stream !== null;
+  }
   /** Channels of the running device (0 when off). */
-  get channels(): number { return this.channelCount; }
+  get channels(): number {
+    return this.channelCount;
+  }
 
   /** The device's own input latency as the browser reports it (0 where it does not). */
   get deviceLatencySeconds(): number {
@@ -71,7 +89,10 @@ export class LiveInput {
     if (channel !== 'mix' && channel !== 1 && channel !== 2) throw new LiveInputError(`input channel must be 1, 2 or mix (got ${String(channel)})`);
     // two channels where the device has them (an interface's inputs 1 and 2), unprocessed
     const audio: MediaTrackConstraints = {
-      echoCancellation: false, noiseSuppression: false, autoGainControl: false, channelCount: { ideal: 2 },
+      echoCancellation: false,
+      noiseSuppression: false,
+      autoGainControl: false,
+      channelCount: { ideal: 2 },
       ...(deviceId ? { deviceId: { exact: deviceId } } : {}),
     };
     let stream: MediaStream;
@@ -79,7 +100,8 @@ export class LiveInput {
       stream = await navigator.mediaDevices.getUserMedia({ audio });
     } catch (e) {
       const name = e instanceof DOMException ? e.name : '';
-      if (name === 'NotAllowedError' || name === 'SecurityError') throw new LiveInputError('microphone access was denied: allow it in the browser to use live input');
+      if (name === 'NotAllowedError' || name === 'SecurityError')
+        throw new LiveInputError('microphone access was denied: allow it in the browser to use live input');
       if (name === 'NotFoundError' || name === 'OverconstrainedError') throw new LiveInputError('no audio input device found (or the chosen one is gone)');
       if (name === 'NotReadableError') throw new LiveInputError('the audio input device is busy or failed to start');
       throw new LiveInputError(`live input failed: ${e instanceof Error ? e.message : String(e)}`);
@@ -142,5 +164,8 @@ export class LiveInput {
     return all.filter((d) => d.kind === 'audioinput').map((d, k) => ({ deviceId: d.deviceId, label: d.label || `audio input ${k + 1}` }));
   }
 
-  dispose(): void { this.stop(); this.gain.dispose(); }
+  dispose(): void {
+    this.stop();
+    this.gain.dispose();
+  }
 }

@@ -11,7 +11,10 @@ export class Meters {
   private peakIn = 0;
   private peakOutDb = -200;
 
-  constructor(private readonly graph: Graph, scopeCapacity: number) {
+  constructor(
+    private readonly graph: Graph,
+    scopeCapacity: number,
+  ) {
     this.scope = new ScopeBuffer(scopeCapacity);
   }
 
@@ -31,7 +34,9 @@ export class Meters {
     return () => this.listeners.delete(l);
   }
 
-  get latestMeter(): MeterReport | null { return this.latest; }
+  get latestMeter(): MeterReport | null {
+    return this.latest;
+  }
 
   /** Peaks since the last call (`inputVolts` at least `otherInputVolts`: a meter of the live input's own). */
   levels(otherInputVolts = 0): { inputVolts: number; outputDbfs: number } {

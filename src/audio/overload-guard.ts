@@ -23,7 +23,6 @@ export interface OverloadGuardOptions {
 
 export const DEFAULT_OVERLOAD_GUARD: OverloadGuardOptions = { highFraction: 0.85, sustainMs: 1000, holdMs: 2000 };
 
-
 export interface OverloadStep {
   readonly from: OversamplingFactor;
   readonly to: OversamplingFactor;

@@ -6,7 +6,12 @@ import type { Design } from '../dsp/circuit/design.ts';
 import type { OversamplingFactor } from '../dsp/oversampling/oversampler.ts';
 import PlanWorker from './plan.worker.ts?worker';
 
-export interface PlanRequest { readonly id: number; readonly design: Design; readonly baseRateHz: number; readonly factor: OversamplingFactor }
+export interface PlanRequest {
+  readonly id: number;
+  readonly design: Design;
+  readonly baseRateHz: number;
+  readonly factor: OversamplingFactor;
+}
 export type PlanReply = { readonly id: number; readonly plan: SlotPlan } | { readonly id: number; readonly error: string };
 
 export class Planner {
@@ -34,9 +39,15 @@ export class Planner {
   /** Compile `design` for the processor's rate and factor. Rejects with the compile error (one line). */
   plan(design: Design, baseRateHz: number, factor: OversamplingFactor): Promise<SlotPlan> {
     if (!this.worker) {
-      return new Promise((resolve, reject) => setTimeout(() => {
-        try { resolve(buildSlotPlan(design, baseRateHz, factor)); } catch (e) { reject(e instanceof Error ? e : new Error(String(e))); }
-      }, 0));
+      return new Promise((resolve, reject) =>
+        setTimeout(() => {
+          try {
+            resolve(buildSlotPlan(design, baseRateHz, factor));
+          } catch (e) {
+            reject(e instanceof Error ? e : new Error(String(e)));
+          }
+        }, 0),
+      );
     }
     const id = this.nextId++;
     return new Promise((resolve, reject) => {

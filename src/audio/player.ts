@@ -2,8 +2,15 @@
 import * as Tone from 'tone';
 import { bufferFrom, decodeAudio } from './buffers.ts';
 
-export interface SourceInfo { readonly durationSeconds: number; readonly sampleRateHz: number; readonly channels: number }
-export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
+export interface SourceInfo {
+  readonly durationSeconds: number;
+  readonly sampleRateHz: number;
+  readonly channels: number;
+}
+export interface LoopRegion {
+  readonly startSeconds: number;
+  readonly endSeconds: number;
+}
 
 export class FilePlayer {
   private readonly player: Tone.Player;
@@ -12,20 +19,28 @@ export class FilePlayer {
   private startedAt = 0;
 
   /** Plays into `input`; `onStop` hears every stop (the idle policy's countdown). */
-  constructor(private readonly ctx: Tone.Context, input: Tone.InputNode, onStop: () => void) {
+  constructor(
+    private readonly ctx: Tone.Context,
+    input: Tone.InputNode,
+    onStop: () => void,
+  ) {
     this.player = new Tone.Player({ context: ctx, loop: false });
     this.player.connect(input);
     this.player.onstop = onStop;
   }
 
-  get playing(): boolean { return this.player.state === 'started'; }
+  get playing(): boolean {
+    return this.player.state === 'started';
+  }
 
   async loadFile(bytes: ArrayBuffer | Blob): Promise<SourceInfo> {
     const ab = bytes instanceof ArrayBuffer ? bytes : await bytes.arrayBuffer();
     return this.use(await decodeAudio(this.ctx.rawContext as BaseAudioContext, ab));
   }
 
-  setSource(samples: Float32Array, rateHz: number): SourceInfo { return this.use(bufferFrom(samples, rateHz)); }
+  setSource(samples: Float32Array, rateHz: number): SourceInfo {
+    return this.use(bufferFrom(samples, rateHz));
+  }
 
   private use(b: AudioBuffer): SourceInfo {
     if (this.playing) this.player.stop();
@@ -52,12 +67,17 @@ export class FilePlayer {
     this.startedAt = this.ctx.currentTime - offset;
   }
 
-  get hasSource(): boolean { return this.source !== null; }
+  get hasSource(): boolean {
+    return this.source !== null;
+  }
 
-  stop(): void { if (this.playing) this.player.stop(); }
+  stop(): void {
+    if (this.playing) this.player.stop();
+  }
 
   positionSeconds(): number {
-    const src = this.source, loop = this.loop;
+    const src = this.source,
+      loop = this.loop;
     if (!this.playing || !src) return 0;
     const t = this.ctx.currentTime - this.startedAt;
     if (!loop) return Math.min(t, src.duration);
@@ -76,5 +96,7 @@ export class FilePlayer {
     this.applyLoop();
   }
 
-  dispose(): void { this.player.dispose(); }
+  dispose(): void {
+    this.player.dispose();
+  }
 }

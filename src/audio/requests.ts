@@ -5,7 +5,12 @@
 import type { FromProcessor, Slot, ToProcessor } from '../dsp/realtime/messages.ts';
 
 /** What a design load resolves with (the processor's 'loaded' reply). */
-export interface LoadedInfo { readonly slot: Slot; readonly designName: string; readonly latencySamples: number; readonly tubeIds: readonly string[] }
+export interface LoadedInfo {
+  readonly slot: Slot;
+  readonly designName: string;
+  readonly latencySamples: number;
+  readonly tubeIds: readonly string[];
+}
 
 /**
  * Requests that wait for the processor's reply. Each gets a fresh id; a 'loaded' or 'error'
@@ -17,7 +22,9 @@ export class PendingReplies {
   private readonly waiting = new Map<number, { resolve: (i: LoadedInfo) => void; reject: (e: Error) => void }>();
 
   /** A fresh id for a message whose reply nobody waits for (its error still reaches the listeners). */
-  id(): number { return this.nextId++; }
+  id(): number {
+    return this.nextId++;
+  }
 
   /** A fresh id and the promise its reply settles. */
   open(): { id: number; reply: Promise<LoadedInfo> } {
@@ -44,7 +51,9 @@ export class PendingReplies {
     else w.reject(new Error(m.message));
   }
 
-  get size(): number { return this.waiting.size; }
+  get size(): number {
+    return this.waiting.size;
+  }
 
   rejectAll(e: Error): void {
     for (const [, w] of this.waiting) w.reject(e);
@@ -62,21 +71,38 @@ export class Outbox {
   private chain: Promise<void> = Promise.resolve();
   private held = 0;
 
-  constructor(private readonly post: (m: ToProcessor) => void, private readonly onDropped: (e: Error) => void = () => {}) {}
+  constructor(
+    private readonly post: (m: ToProcessor) => void,
+    private readonly onDropped: (e: Error) => void = () => {},
+  ) {}
 
   send(m: ToProcessor | Promise<ToProcessor | null>): void {
-    if (!(m instanceof Promise) && this.held === 0) { this.post(m); return; }
+    if (!(m instanceof Promise) && this.held === 0) {
+      this.post(m);
+      return;
+    }
     this.held++;
     const msg = m instanceof Promise ? m : Promise.resolve(m);
     this.chain = this.chain
       .then(() => msg)
-      .then((x) => { if (x) this.post(x); }, (e: unknown) => this.onDropped(e instanceof Error ? e : new Error(String(e))))
-      .finally(() => { this.held--; });
+      .then(
+        (x) => {
+          if (x) this.post(x);
+        },
+        (e: unknown) => this.onDropped(e instanceof Error ? e : new Error(String(e))),
+      )
+      .finally(() => {
+        this.held--;
+      });
   }
 
   /** Messages still waiting for a plan (or behind one). */
-  get pending(): number { return this.held; }
+  get pending(): number {
+    return this.held;
+  }
 
   /** Resolves once every message sent so far has been posted (or dropped). */
-  flushed(): Promise<void> { return this.chain; }
+  flushed(): Promise<void> {
+    return this.chain;
+  }
 }

@@ -30,21 +30,27 @@ export class ScopeBuffer {
     this.outputDbfs = new Float32Array(capacity);
   }
 
-  get length(): number { return this.count; }
+  get length(): number {
+    return this.count;
+  }
 
   push(r: MeterReport): void {
     const i = this.write;
     for (let k = 0; k < 2; k++) {
-      const t = r.slotTraces[k as 0 | 1], ring = this.rings[k as 0 | 1];
+      const t = r.slotTraces[k as 0 | 1],
+        ring = this.rings[k as 0 | 1];
       ring.grid[i] = t ? t.gridVolts : Number.NaN;
-      for (let p = 0; p < MAX_SCOPE_TUBES; p++) ring.plates[p]![i] = t ? t.plateVolts[p] ?? 0 : Number.NaN;
+      for (let p = 0; p < MAX_SCOPE_TUBES; p++) ring.plates[p]![i] = t ? (t.plateVolts[p] ?? 0) : Number.NaN;
     }
     this.outputDbfs[i] = r.outputPeakDbfs;
     this.write = (i + 1) % this.capacity;
     this.count = Math.min(this.capacity, this.count + 1);
   }
 
-  clear(): void { this.write = 0; this.count = 0; }
+  clear(): void {
+    this.write = 0;
+    this.count = 0;
+  }
 
   /**
    * Copy one ring oldest first into `into`: the output level ('output'), or a slot's grid trace

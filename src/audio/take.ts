@@ -22,16 +22,27 @@ export class TakeRecorder {
   private pending: { resolve: (t: Take) => void } | null = null;
   private readonly maxSamples: number;
 
-  constructor(private readonly port: MessagePort, private readonly sampleRateHz: number, maxSeconds = MAX_TAKE_SECONDS) {
+  constructor(
+    private readonly port: MessagePort,
+    private readonly sampleRateHz: number,
+    maxSeconds = MAX_TAKE_SECONDS,
+  ) {
     this.maxSamples = Math.round(maxSeconds * sampleRateHz);
     port.onmessage = (e: MessageEvent<TakeFromProcessor>) => this.receive(e.data);
     const buffers = Array.from({ length: TAKE_POOL_CHUNKS }, () => new Float32Array(TAKE_CHUNK_SAMPLES));
-    this.send({ type: 'buffers', buffers }, buffers.map((b) => b.buffer));
+    this.send(
+      { type: 'buffers', buffers },
+      buffers.map((b) => b.buffer),
+    );
   }
 
-  get isRecording(): boolean { return this.recording; }
+  get isRecording(): boolean {
+    return this.recording;
+  }
   /** Seconds recorded so far in this take (0 when not recording). */
-  get seconds(): number { return this.recording ? this.samplesSoFar / this.sampleRateHz : 0; }
+  get seconds(): number {
+    return this.recording ? this.samplesSoFar / this.sampleRateHz : 0;
+  }
 
   start(): void {
     if (this.recording) return;
@@ -44,7 +55,8 @@ export class TakeRecorder {
 
   /** Stop and get the take (after the processor's last chunk). */
   stop(): Promise<Take> {
-    if (!this.recording && !this.pending) return Promise.resolve({ samples: new Float32Array(0), sampleRateHz: this.sampleRateHz, droppedSamples: 0, truncated: false });
+    if (!this.recording && !this.pending)
+      return Promise.resolve({ samples: new Float32Array(0), sampleRateHz: this.sampleRateHz, droppedSamples: 0, truncated: false });
     return new Promise((resolve) => {
       this.pending = { resolve };
       this.send({ type: 'stop' });
@@ -70,7 +82,10 @@ export class TakeRecorder {
       this.recording = false;
       const samples = new Float32Array(this.samplesSoFar);
       let o = 0;
-      for (const c of this.chunks) { samples.set(c, o); o += c.length; }
+      for (const c of this.chunks) {
+        samples.set(c, o);
+        o += c.length;
+      }
       this.chunks = [];
       const take: Take = { samples, sampleRateHz: this.sampleRateHz, droppedSamples: m.droppedSamples, truncated: this.truncated };
       const p = this.pending;
@@ -92,7 +107,11 @@ export class TakeRecorder {
 export class TakeDeck {
   private ended: ((t: Take) => void) | null = null;
 
-  private constructor(readonly node: AudioWorkletNode | null, private readonly recorder: TakeRecorder | null, private readonly sampleRateHz: number) {
+  private constructor(
+    readonly node: AudioWorkletNode | null,
+    private readonly recorder: TakeRecorder | null,
+    private readonly sampleRateHz: number,
+  ) {
     if (recorder) recorder.onTruncated = (t) => this.ended?.(t);
   }
 
@@ -111,7 +130,9 @@ export class TakeDeck {
   }
 
   stop(): Promise<Take> {
-    return this.recorder ? this.recorder.stop() : Promise.resolve({ samples: new Float32Array(0), sampleRateHz: this.sampleRateHz, droppedSamples: 0, truncated: false });
+    return this.recorder
+      ? this.recorder.stop()
+      : Promise.resolve({ samples: new Float32Array(0), sampleRateHz: this.sampleRateHz, droppedSamples: 0, truncated: false });
   }
 
   /** The live input stopped: a take in progress ends with it, handed over rather than lost. */
@@ -119,6 +140,10 @@ export class TakeDeck {
     if (this.recorder?.isRecording) void this.recorder.stop().then((t) => this.ended?.(t));
   }
 
-  get seconds(): number | null { return this.recorder?.isRecording ? this.recorder.seconds : null; }
-  onEnded(listener: (t: Take) => void): void { this.ended = listener; }
+  get seconds(): number | null {
+    return this.recorder?.isRecording ? this.recorder.seconds : null;
+  }
+  onEnded(listener: (t: Take) => void): void {
+    this.ended = listener;
+  }
 }

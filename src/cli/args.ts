@@ -23,7 +23,10 @@ export function parseArgs(argv: readonly string[], flags: readonly string[], val
   };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i]!;
-    if (!a.startsWith('--')) { positional.push(a); continue; }
+    if (!a.startsWith('--')) {
+      positional.push(a);
+      continue;
+    }
     const eq = a.indexOf('=');
     const name = eq > 0 ? a.slice(2, eq) : a.slice(2);
     if (flags.includes(name)) {

@@ -18,8 +18,10 @@ async function run(job: PairRenderJob): Promise<void> {
     const r = new AlignedRender(designCircuit(job.design), h.sampleRate, job.factor, job.inputVolts);
     const out = new Float32Array(h.frameCount);
     const chans = Array.from({ length: h.channelCount }, () => new Float32Array(BLOCK));
-    const mono = new Float64Array(BLOCK), tmp = new Float64Array(BLOCK);
-    let w = 0, lastReport = 0;
+    const mono = new Float64Array(BLOCK),
+      tmp = new Float64Array(BLOCK);
+    let w = 0,
+      lastReport = 0;
     for (let f = 0; f < h.frameCount; f += BLOCK) {
       const n = Math.min(BLOCK, h.frameCount - f);
       await reader.read(f, n, chans);
@@ -30,7 +32,10 @@ async function run(job: PairRenderJob): Promise<void> {
       }
       const got = r.process(mono, n, tmp);
       for (let k = 0; k < got; k++) out[w++] = tmp[k]!;
-      if (f + n - lastReport >= PROGRESS_FRAMES) { lastReport = f + n; post({ type: 'progress', frames: f + n }); }
+      if (f + n - lastReport >= PROGRESS_FRAMES) {
+        lastReport = f + n;
+        post({ type: 'progress', frames: f + n });
+      }
     }
     const got = r.flush(tmp);
     for (let k = 0; k < got && w < out.length; k++) out[w++] = tmp[k]!;

@@ -10,11 +10,21 @@ export async function spreadRunsParallel(design: Design, runs: number, seed: num
   const chunks: number[][] = Array.from({ length: w }, () => []);
   for (let k = 0; k < runs; k++) chunks[k % w]!.push(k);
   const url = new URL('./spread-worker.mjs', import.meta.url);
-  const parts = await Promise.all(chunks.map((chunk) => new Promise<SpreadRun[]>((resolve, reject) => {
-    const worker = new Worker(url, { workerData: { design, seed, runs: chunk, options } });
-    worker.once('message', (m: SpreadRun[]) => { resolve(m); void worker.terminate(); });
-    worker.once('error', reject);
-    worker.once('exit', (code) => { if (code !== 0 && code !== 1) reject(new Error(`spread worker exited with code ${code}`)); });
-  })));
+  const parts = await Promise.all(
+    chunks.map(
+      (chunk) =>
+        new Promise<SpreadRun[]>((resolve, reject) => {
+          const worker = new Worker(url, { workerData: { design, seed, runs: chunk, options } });
+          worker.once('message', (m: SpreadRun[]) => {
+            resolve(m);
+            void worker.terminate();
+          });
+          worker.once('error', reject);
+          worker.once('exit', (code) => {
+            if (code !== 0 && code !== 1) reject(new Error(`spread worker exited with code ${code}`));
+          });
+        }),
+    ),
+  );
   return parts.flat().sort((a, b) => a.run - b.run);
 }

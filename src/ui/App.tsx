@@ -40,7 +40,9 @@ export function App(): ReactElement {
     synced.current = next;
   }, [port, state]);
   const { history, active } = state;
-  useEffect(() => { localStorage.setItem(STORAGE_KEY, serializeWorkspace({ slots: history.present, active })); }, [history.present, active]);
+  useEffect(() => {
+    localStorage.setItem(STORAGE_KEY, serializeWorkspace({ slots: history.present, active }));
+  }, [history.present, active]);
 
   // a shared link in the hash wins over the autosave (into slot A, undoable)
   useEffect(() => {
@@ -52,7 +54,9 @@ export function App(): ReactElement {
 
   // the processor muted live input for safety: say so where it cannot be missed
   const safetyNote = status?.safetyNote ?? null;
-  useEffect(() => { if (safetyNote) dispatch({ type: 'say', text: safetyNote, bad: true }); }, [safetyNote]);
+  useEffect(() => {
+    if (safetyNote) dispatch({ type: 'say', text: safetyNote, bad: true });
+  }, [safetyNote]);
   // the port lowered the quality itself (sustained overload): follow it and say why
   const qualityNote = status?.qualityNote ?? null;
   const loweredTo = status?.qualityFactor;
@@ -86,28 +90,78 @@ function Shell(): ReactElement {
   const onDropFiles = (files: FileList) => {
     const f = files[0];
     if (!f) return;
-    if (f.name.toLowerCase().endsWith('.json')) void openDesignFile(f); else void openAudioFile(f);
+    if (f.name.toLowerCase().endsWith('.json')) void openDesignFile(f);
+    else void openAudioFile(f);
   };
   const { message, caution, tab } = state;
   return (
-    <div className={`app${dragging ? ' dragging' : ''}`} onDragOver={(e) => { e.preventDefault(); setDragging(true); }} onDragLeave={(e) => { if (e.currentTarget === e.target) setDragging(false); }} onDrop={(e) => { e.preventDefault(); setDragging(false); onDropFiles(e.dataTransfer.files); }}>
+    <div
+      className={`app${dragging ? ' dragging' : ''}`}
+      onDragOver={(e) => {
+        e.preventDefault();
+        setDragging(true);
+      }}
+      onDragLeave={(e) => {
+        if (e.currentTarget === e.target) setDragging(false);
+      }}
+      onDrop={(e) => {
+        e.preventDefault();
+        setDragging(false);
+        onDropFiles(e.dataTransfer.files);
+      }}
+    >
       <TopBar />
-      {message && <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">{message.text} {message.action && <button type="button" onClick={message.action.run} data-testid="message-action">{message.action.label}</button>} <button type="button" className="link" onClick={() => dispatch({ type: 'dismiss' })} aria-label="Dismiss message">×</button></p>}
+      {message && (
+        <p className={`banner${message.bad ? ' bad' : ''}`} role={message.bad ? 'alert' : 'status'} data-testid="message">
+          {message.text}{' '}
+          {message.action && (
+            <button type="button" onClick={message.action.run} data-testid="message-action">
+              {message.action.label}
+            </button>
+          )}{' '}
+          <button type="button" className="link" onClick={() => dispatch({ type: 'dismiss' })} aria-label="Dismiss message">
+            ×
+          </button>
+        </p>
+      )}
       <main className="grid">
         <CircuitPanel findings={bench.findings} />
         <BenchSide bench={bench} />
         <div className="lower">
           <div className="tabs" role="tablist" aria-label="Panels">
-            {(['listen', 'analyses', 'see'] as const).map((t) => <button key={t} type="button" role="tab" aria-selected={tab === t} aria-controls={`tab-${t}`} onClick={() => dispatch({ type: 'tab', tab: t })}>{TAB_NAMES[t]}</button>)}
+            {(['listen', 'analyses', 'see'] as const).map((t) => (
+              <button key={t} type="button" role="tab" aria-selected={tab === t} aria-controls={`tab-${t}`} onClick={() => dispatch({ type: 'tab', tab: t })}>
+                {TAB_NAMES[t]}
+              </button>
+            ))}
           </div>
-          <div id="tab-listen" role="tabpanel" hidden={tab !== 'listen'}><ListenPanel /></div>
-          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}><AnalysesPanel /></div>
-          <div id="tab-see" role="tabpanel" hidden={tab !== 'see'}><SeePanel /></div>
+          <div id="tab-listen" role="tabpanel" hidden={tab !== 'listen'}>
+            <ListenPanel />
+          </div>
+          <div id="tab-analyses" role="tabpanel" hidden={tab !== 'analyses'}>
+            <AnalysesPanel />
+          </div>
+          <div id="tab-see" role="tabpanel" hidden={tab !== 'see'}>
+            <SeePanel />
+          </div>
         </div>
       </main>
       <TransportBar />
-      <footer className="keys fine">Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo · Delete removes the selected part · Alt+arrows nudge it</footer>
-      {caution && <CautionDialog kind={caution} onAccept={() => { if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1'); else void startLive(); dispatch({ type: 'caution', kind: null }); }} onCancel={caution === 'live' ? () => dispatch({ type: 'caution', kind: null }) : undefined} />}
+      <footer className="keys fine">
+        Keys: A / B / D switch what you hear · Space play or stop · M mute live input · Ctrl+Z undo · Ctrl+Shift+Z redo · Delete removes the selected part ·
+        Alt+arrows nudge it
+      </footer>
+      {caution && (
+        <CautionDialog
+          kind={caution}
+          onAccept={() => {
+            if (caution === 'first-run') localStorage.setItem(CAUTION_KEY, '1');
+            else void startLive();
+            dispatch({ type: 'caution', kind: null });
+          }}
+          onCancel={caution === 'live' ? () => dispatch({ type: 'caution', kind: null }) : undefined}
+        />
+      )}
     </div>
   );
 }

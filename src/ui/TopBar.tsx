@@ -21,7 +21,11 @@ export function TopBar(): ReactElement {
   const templateKey = Object.entries(TEMPLATES).find(([, t]) => t.name === design.name)?.[0] ?? '';
   const choose = (key: string) => {
     if (key === EMPTY) {
-      dispatch({ type: 'commit', slots: withSlot(slots, active, emptySheet()), say: `Slot ${active} is an empty sheet: add parts from the circuit tools (Add part).` });
+      dispatch({
+        type: 'commit',
+        slots: withSlot(slots, active, emptySheet()),
+        say: `Slot ${active} is an empty sheet: add parts from the circuit tools (Add part).`,
+      });
       dispatch({ type: 'select', id: null });
       return;
     }
@@ -29,7 +33,11 @@ export function TopBar(): ReactElement {
     if (!t) return;
     if (keepValues) {
       const r = applyTemplate(design, t);
-      dispatch({ type: 'commit', slots: withSlot(slots, active, r.design), say: `Slot ${active} is now "${t.name}" with your values of ${r.kept.length} shared parts kept.` });
+      dispatch({
+        type: 'commit',
+        slots: withSlot(slots, active, r.design),
+        say: `Slot ${active} is now "${t.name}" with your values of ${r.kept.length} shared parts kept.`,
+      });
     } else dispatch({ type: 'commit', slots: withSlot(slots, active, t), say: `Slot ${active} is now "${t.name}", exactly as the command line has it.` });
     dispatch({ type: 'select', id: null });
   };
@@ -38,26 +46,63 @@ export function TopBar(): ReactElement {
   const share = async () => {
     const h = await encodeDesignHash(design);
     const url = `${location.origin}${location.pathname}${location.search}#${h}`;
-    try { await navigator.clipboard.writeText(url); dispatch({ type: 'say', text: 'Link to this design copied to the clipboard.' }); } catch { dispatch({ type: 'say', text: `Copy this link to share the design: ${url}` }); }
+    try {
+      await navigator.clipboard.writeText(url);
+      dispatch({ type: 'say', text: 'Link to this design copied to the clipboard.' });
+    } catch {
+      dispatch({ type: 'say', text: `Copy this link to share the design: ${url}` });
+    }
   };
   return (
     <header className="top">
-      <h1>Valvewright <span className="sub">audition bench</span></h1>
-      <label className="inline-label"><span className="label-text">Starting circuit</span>
+      <h1>
+        Valvewright <span className="sub">audition bench</span>
+      </h1>
+      <label className="inline-label">
+        <span className="label-text">Starting circuit</span>
         <select value={templateKey} data-testid="template-select" onChange={(e) => choose(e.target.value)}>
           {templateKey === '' && <option value="">{design.name}</option>}
-          {Object.entries(TEMPLATES).map(([k, t]) => <option key={k} value={k}>{t.name}</option>)}
+          {Object.entries(TEMPLATES).map(([k, t]) => (
+            <option key={k} value={k}>
+              {t.name}
+            </option>
+          ))}
           <option value={EMPTY}>empty sheet</option>
         </select>
       </label>
-      <label className="inline-label keep" title="When choosing a starting circuit, keep your values of the parts it shares with the present one"><input type="checkbox" checked={keepValues} onChange={(e) => setKeepValues(e.target.checked)} /> keep my values</label>
+      <label className="inline-label keep" title="When choosing a starting circuit, keep your values of the parts it shares with the present one">
+        <input type="checkbox" checked={keepValues} onChange={(e) => setKeepValues(e.target.checked)} /> keep my values
+      </label>
       <div className="toolbar" role="toolbar" aria-label="Design file">
-        <button type="button" onClick={() => dispatch({ type: 'undo' })} disabled={!canUndo(history)} title="Ctrl+Z">Undo</button>
-        <button type="button" onClick={() => dispatch({ type: 'redo' })} disabled={!canRedo(history)} title="Ctrl+Shift+Z">Redo</button>
-        <button type="button" onClick={() => download(exportDesignText(design), 'application/json', designFileName(design))}>Export JSON</button>
-        <label className="button" title="A design file, or a netlist-v1 file">Import JSON<input type="file" accept=".json,application/json" data-testid="import-design" className="visually-hidden" onChange={(e) => { const f = e.target.files?.[0]; if (f) void openDesignFile(f); e.target.value = ''; }} /></label>
-        <button type="button" onClick={() => void share()}>Copy link</button>
-        <button type="button" onClick={() => dispatch({ type: 'caution', kind: 'first-run' })}>Safety</button>
+        <button type="button" onClick={() => dispatch({ type: 'undo' })} disabled={!canUndo(history)} title="Ctrl+Z">
+          Undo
+        </button>
+        <button type="button" onClick={() => dispatch({ type: 'redo' })} disabled={!canRedo(history)} title="Ctrl+Shift+Z">
+          Redo
+        </button>
+        <button type="button" onClick={() => download(exportDesignText(design), 'application/json', designFileName(design))}>
+          Export JSON
+        </button>
+        <label className="button" title="A design file, or a netlist-v1 file">
+          Import JSON
+          <input
+            type="file"
+            accept=".json,application/json"
+            data-testid="import-design"
+            className="visually-hidden"
+            onChange={(e) => {
+              const f = e.target.files?.[0];
+              if (f) void openDesignFile(f);
+              e.target.value = '';
+            }}
+          />
+        </label>
+        <button type="button" onClick={() => void share()}>
+          Copy link
+        </button>
+        <button type="button" onClick={() => dispatch({ type: 'caution', kind: 'first-run' })}>
+          Safety
+        </button>
       </div>
     </header>
   );

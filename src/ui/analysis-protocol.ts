@@ -5,7 +5,11 @@ import type { SpreadSummary } from '../dsp/analysis/spread.ts';
 import type { VoicingTarget } from '../dsp/analysis/voicing.ts';
 
 /** A clip for listening renders: mono, full scale = voltsAtFullScale at the circuit input. */
-export interface ListenClip { readonly samples: Float32Array; readonly sampleRateHz: number; readonly voltsAtFullScale: number }
+export interface ListenClip {
+  readonly samples: Float32Array;
+  readonly sampleRateHz: number;
+  readonly voltsAtFullScale: number;
+}
 
 export type AnalysisRequest =
   | { readonly type: 'supply'; readonly id: number; readonly design: Design; readonly section: PowerSupplySection }
@@ -14,7 +18,14 @@ export type AnalysisRequest =
   | { readonly type: 'spread-listen'; readonly id: number; readonly design: Design; readonly which: 'low' | 'nominal' | 'high'; readonly clip: ListenClip }
   | { readonly type: 'parts'; readonly id: number; readonly design: Design }
   | { readonly type: 'spice'; readonly id: number; readonly design: Design }
-  | { readonly type: 'voicing'; readonly id: number; readonly design: Design; readonly vary: readonly string[]; readonly target: VoicingTarget; readonly series: 'E12' | 'E24' };
+  | {
+      readonly type: 'voicing';
+      readonly id: number;
+      readonly design: Design;
+      readonly vary: readonly string[];
+      readonly target: VoicingTarget;
+      readonly series: 'E12' | 'E24';
+    };
 
 export interface SupplyReport {
   readonly unloadedVolts: number;

@@ -41,7 +41,8 @@ function listen(design: Design, levelFrom: Design, clip: ListenClip | null, hum:
   const out = new Float32Array(n);
   // a 10 Hz DC blocker: an output taken at a plate carries its DC, which is not sound
   const r = 1 - (2 * Math.PI * 10) / fs;
-  let x1 = NaN, y1 = 0;
+  let x1 = NaN,
+    y1 = 0;
   for (let k = 0; k < n; k++) {
     if (hum) model.engine.setSourceVolts(hum.sourceId, hum.next());
     const v = model.processSample(clip ? clip.samples[k]! * volts : 0);
@@ -59,18 +60,29 @@ function listen(design: Design, levelFrom: Design, clip: ListenClip | null, hum:
   return { wav: encodeWav([out], fs, { bitDepth: 32, float: true }), rmsDbfs: rms > 0 ? 20 * Math.log10(rms) : -Infinity };
 }
 
-function supplyReport(design: Design, req: Extract<AnalysisRequest, { type: 'supply' | 'supply-hum' }>): { report: SupplyReport; hum: BPlusHum; modelDesign: Design; fs: number } {
+function supplyReport(
+  design: Design,
+  req: Extract<AnalysisRequest, { type: 'supply' | 'supply-hum' }>,
+): { report: SupplyReport; hum: BPlusHum; modelDesign: Design; fs: number } {
   const s = designSupply(design, req.section);
   const e = s.estimate;
   const fs = req.type === 'supply-hum' && req.clip ? req.clip.sampleRateHz : HUM_ONLY_RATE;
   return {
     report: {
-      unloadedVolts: s.unloadedVolts, loadedVolts: s.loadedVolts, loadAmps: s.loadAmps, ripplePeakToPeakVolts: s.ripplePeakToPeakVolts, rippleHertz: s.rippleHertz,
-      formulaRippleVolts: e.formulaRippleVolts, modelSupply: s.design.supply,
+      unloadedVolts: s.unloadedVolts,
+      loadedVolts: s.loadedVolts,
+      loadAmps: s.loadAmps,
+      ripplePeakToPeakVolts: s.ripplePeakToPeakVolts,
+      rippleHertz: s.rippleHertz,
+      formulaRippleVolts: e.formulaRippleVolts,
+      modelSupply: s.design.supply,
       heater: e.heater ? { totalAmps: e.heater.totalAmps, windingAmps: e.heater.windingAmps, windingVolts: e.heater.windingVolts, pass: e.heater.pass } : null,
-      nodes: e.nodes.map((x) => ({ label: x.label, dcVolts: x.dcVolts, ripplePeakToPeakVolts: x.ripplePeakToPeakVolts })), warnings: e.warnings,
+      nodes: e.nodes.map((x) => ({ label: x.label, dcVolts: x.dcVolts, ripplePeakToPeakVolts: x.ripplePeakToPeakVolts })),
+      warnings: e.warnings,
     },
-    hum: new BPlusHum(s, fs), modelDesign: s.design, fs,
+    hum: new BPlusHum(s, fs),
+    modelDesign: s.design,
+    fs,
   };
 }
 
@@ -78,22 +90,30 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
   // validation registers the design's fitted tubes in this worker too
   validateDesign(req.design, { wiring: false });
   switch (req.type) {
-    case 'supply': return { result: { type: 'supply', report: supplyReport(req.design, req).report }, transfer: [] };
+    case 'supply':
+      return { result: { type: 'supply', report: supplyReport(req.design, req).report }, transfer: [] };
     case 'supply-hum': {
       const s = supplyReport(req.design, req);
       const { wav, rmsDbfs } = listen(s.modelDesign, req.design, req.clip, s.hum);
       const level = Number.isFinite(rmsDbfs) ? `${rmsDbfs.toFixed(1)} dBFS rms` : 'silent';
-      return { result: { type: 'audio', wav, label: `${req.clip ? 'the clip' : 'no input'} with the supply's ripple on B+ (${level} at the output)` }, transfer: [wav.buffer as ArrayBuffer] };
+      return {
+        result: { type: 'audio', wav, label: `${req.clip ? 'the clip' : 'no input'} with the supply's ripple on B+ (${level} at the output)` },
+        transfer: [wav.buffer as ArrayBuffer],
+      };
     }
     case 'spread': {
       if (!(Number.isInteger(req.runs) && req.runs >= 1 && req.runs <= 2000)) throw new Error(`runs must be a whole number from 1 to 2000 (got ${req.runs})`);
-      if (!(Number.isInteger(req.seed) && req.seed >= 0 && req.seed <= 0xffffffff)) throw new Error(`seed must be a whole number from 0 to 4294967295 (got ${req.seed})`);
+      if (!(Number.isInteger(req.seed) && req.seed >= 0 && req.seed <= 0xffffffff))
+        throw new Error(`seed must be a whole number from 0 to 4294967295 (got ${req.seed})`);
       const results: SpreadRun[] = [];
       let last = 0;
       for (let k = 0; k < req.runs; k++) {
         results.push(spreadRun(req.design, req.seed, k));
         const f = (k + 1) / req.runs;
-        if (f - last >= 0.02) { last = f; post({ type: 'progress', id: req.id, fraction: f }); }
+        if (f - last >= 0.02) {
+          last = f;
+          post({ type: 'progress', id: req.id, fraction: f });
+        }
       }
       return { result: { type: 'spread', summary: summariseSpread(req.design, req.seed, results) }, transfer: [] };
     }
@@ -104,12 +124,32 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
     case 'parts': {
       let design = req.design;
       let unloaded: number | undefined;
-      if (design.powerSupply) { const s = designSupply(design); design = s.design; unloaded = s.unloadedVolts; }
+      if (design.powerSupply) {
+        const s = designSupply(design);
+        design = s.design;
+        unloaded = s.unloadedVolts;
+      }
       const r = checkDesign(design, unloaded !== undefined ? { unloadedSupplyVolts: unloaded } : {});
-      return { result: { type: 'text', text: partsCsv(partsRows(design, r.ratings, r.findings)), fileName: designFileName(req.design).replace(/\.json$/, '.parts.csv'), mime: 'text/csv' }, transfer: [] };
+      return {
+        result: {
+          type: 'text',
+          text: partsCsv(partsRows(design, r.ratings, r.findings)),
+          fileName: designFileName(req.design).replace(/\.json$/, '.parts.csv'),
+          mime: 'text/csv',
+        },
+        transfer: [],
+      };
     }
     case 'spice':
-      return { result: { type: 'text', text: toSpice(designToNetlist(req.design), { title: req.design.name }), fileName: designFileName(req.design).replace(/\.json$/, '.cir'), mime: 'text/plain' }, transfer: [] };
+      return {
+        result: {
+          type: 'text',
+          text: toSpice(designToNetlist(req.design), { title: req.design.name }),
+          fileName: designFileName(req.design).replace(/\.json$/, '.cir'),
+          mime: 'text/plain',
+        },
+        transfer: [],
+      };
     case 'voicing': {
       const circuit = designCircuit(req.design);
       const net = identifyToneNetwork(circuit);
@@ -120,7 +160,21 @@ function run(req: AnalysisRequest): { result: AnalysisResult; transfer: Transfer
       const sourceOhms = toneNetworkInCircuit(mc, new CircuitEngine(mc, 48000).operatingPoint(), net).sourceOhms;
       // two decades either side of the present values: a target far from the present voicing is reachable
       const r = fitToneNetwork(circuit, net, req.vary, req.target, { series: req.series, sourceOhms, decades: 2 });
-      return { result: { type: 'voicing', report: { values: r.values, cornerHz: r.cornerHz, fitError: r.fitError, fitErrorUnit: r.fitErrorUnit, hertz: r.response.frequenciesHz, db: r.response.magnitudeDb, sourceOhms } }, transfer: [] };
+      return {
+        result: {
+          type: 'voicing',
+          report: {
+            values: r.values,
+            cornerHz: r.cornerHz,
+            fitError: r.fitError,
+            fitErrorUnit: r.fitErrorUnit,
+            hertz: r.response.frequenciesHz,
+            db: r.response.magnitudeDb,
+            sourceOhms,
+          },
+        },
+        transfer: [],
+      };
     }
   }
 }

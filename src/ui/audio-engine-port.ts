@@ -14,7 +14,13 @@ const SLOTS: readonly Slot[] = ['A', 'B'];
 
 /** True when only part values / tube samples differ (same parts, nodes, types and supply). */
 export function sameStructure(a: Design, b: Design): boolean {
-  if (a.parts.length !== b.parts.length || JSON.stringify(a.supply) !== JSON.stringify(b.supply) || JSON.stringify(a.input) !== JSON.stringify(b.input) || JSON.stringify(a.output) !== JSON.stringify(b.output)) return false;
+  if (
+    a.parts.length !== b.parts.length ||
+    JSON.stringify(a.supply) !== JSON.stringify(b.supply) ||
+    JSON.stringify(a.input) !== JSON.stringify(b.input) ||
+    JSON.stringify(a.output) !== JSON.stringify(b.output)
+  )
+    return false;
   return a.parts.every((p, i) => {
     const q = b.parts[i]!;
     if (p.id !== q.id || p.kind !== q.kind || JSON.stringify(p.nodes) !== JSON.stringify(q.nodes)) return false;
@@ -41,7 +47,23 @@ export class EnginePort implements AudioPort {
   private loop: LoopRegion | null = null;
   private cabinet: { samples: Float32Array; sampleRateHz: number } | null = null;
   private listeners = new Set<(s: AudioStatus) => void>();
-  private status: AudioStatus = { engine: this.engineName, playing: false, rendering: false, durationSeconds: 0, loadFraction: null, offsetDb: null, matchGainDb: 0, outputLufs: null, live: 'off', message: null, qualityFactor: this.settings.factor, qualityNote: null, liveChannels: 0, idle: false, safetyNote: null };
+  private status: AudioStatus = {
+    engine: this.engineName,
+    playing: false,
+    rendering: false,
+    durationSeconds: 0,
+    loadFraction: null,
+    offsetDb: null,
+    matchGainDb: 0,
+    outputLufs: null,
+    live: 'off',
+    message: null,
+    qualityFactor: this.settings.factor,
+    qualityNote: null,
+    liveChannels: 0,
+    idle: false,
+    safetyNote: null,
+  };
   private readonly guard = new OverloadGuard(this.settings.factor);
   private levelTimer: ReturnType<typeof setTimeout> | null = null;
   private sendsInFlight = 0;
@@ -65,39 +87,54 @@ export class EnginePort implements AudioPort {
     if (this.engine) return Promise.resolve(this.engine);
     if (!this.creating) {
       // the engine starts from the settings (factor, calibration, monitor) and keeps them
-      this.creating = createAudioEngine({ settings: this.settings }).then(async (e) => {
-        this.engine = e;
-        // the engine suspends its context when idle: show it (and the load as unknown)
-        e.onIdleChange((idle) => { if (idle !== this.status.idle) this.emit(idle ? { idle: true, loadFraction: null } : { idle: false }); });
-        e.onReport((m) => {
-          if (m.type === 'error') this.emit({ message: m.message });
-          else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
-          else if (m.type === 'safety-muted') this.emit({ live: e.live, safetyNote: `Live input muted for safety: ${m.reason}. Use headphones or turn the speakers away, lower the output level, then unmute.` });
-          else if (m.type === 'meter') {
-            const now = performance.now();
-            this.observeLoad(m.loadFraction, now);
-            if (now - this.lastStatusMs > 500) {
-              this.lastStatusMs = now;
-              this.emit({ loadFraction: m.loadFraction, playing: e.playing, offsetDb: m.matchOffsetDb ?? null, matchGainDb: m.matchGainDb ?? 0, outputLufs: m.outputLufs ?? null });
+      this.creating = createAudioEngine({ settings: this.settings })
+        .then(async (e) => {
+          this.engine = e;
+          // the engine suspends its context when idle: show it (and the load as unknown)
+          e.onIdleChange((idle) => {
+            if (idle !== this.status.idle) this.emit(idle ? { idle: true, loadFraction: null } : { idle: false });
+          });
+          e.onReport((m) => {
+            if (m.type === 'error') this.emit({ message: m.message });
+            else if (m.type === 'recovered') this.emit({ message: `slot ${m.slot} recovered: ${m.reason}` });
+            else if (m.type === 'safety-muted')
+              this.emit({
+                live: e.live,
+                safetyNote: `Live input muted for safety: ${m.reason}. Use headphones or turn the speakers away, lower the output level, then unmute.`,
+              });
+            else if (m.type === 'meter') {
+              const now = performance.now();
+              this.observeLoad(m.loadFraction, now);
+              if (now - this.lastStatusMs > 500) {
+                this.lastStatusMs = now;
+                this.emit({
+                  loadFraction: m.loadFraction,
+                  playing: e.playing,
+                  offsetDb: m.matchOffsetDb ?? null,
+                  matchGainDb: m.matchGainDb ?? 0,
+                  outputLufs: m.outputLufs ?? null,
+                });
+              }
             }
-          }
+          });
+          for (const s of SLOTS) await this.sendDesign(s);
+          if (this.clip) e.setSource(this.clip.samples, this.clip.sampleRateHz);
+          e.setLoop(this.loop);
+          if (this.cabinet) await e.loadCabinet(this.cabinet);
+          return e;
+        })
+        .catch((err: unknown) => {
+          this.creating = null;
+          this.emit({ message: `audio engine could not start: ${(err as Error).message}` });
+          throw err;
         });
-        for (const s of SLOTS) await this.sendDesign(s);
-        if (this.clip) e.setSource(this.clip.samples, this.clip.sampleRateHz);
-        e.setLoop(this.loop);
-        if (this.cabinet) await e.loadCabinet(this.cabinet);
-        return e;
-      }).catch((err: unknown) => {
-        this.creating = null;
-        this.emit({ message: `audio engine could not start: ${(err as Error).message}` });
-        throw err;
-      });
     }
     return this.creating;
   }
 
   private async sendDesign(slot: Slot): Promise<void> {
-    const e = this.engine, d = this.designs[slot];
+    const e = this.engine,
+      d = this.designs[slot];
     if (!e || !d) return;
     const prev = this.settings.designs[slot];
     if (prev && prev !== d && sameStructure(prev, d)) {
@@ -113,7 +150,10 @@ export class EnginePort implements AudioPort {
   }
 
   private outputScale(slot: Slot): number {
-    return this.scales[slot] ?? (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.settings.inputVolts));
+    return (
+      this.scales[slot] ??
+      (this.scales[slot] = estimateOutputVoltsAtFullScale(designCircuit(withVolumeFull(this.designs[slot]!)), 48000, this.settings.inputVolts))
+    );
   }
 
   /** Re-estimate both slots' output scales a little after edits (the live match follows the sound itself). */
@@ -132,13 +172,26 @@ export class EnginePort implements AudioPort {
     this.sendsInFlight++;
     void this.sendDesign(slot)
       .catch((err: unknown) => this.emit({ message: `slot ${slot}: ${(err as Error).message}` }))
-      .finally(() => { this.sendsInFlight--; });
+      .finally(() => {
+        this.sendsInFlight--;
+      });
     this.releveling();
   }
 
-  setMonitor(target: Monitor): void { this.settings.monitor = target; this.engine?.setMonitor(target); }
-  setLoudnessMatch(on: boolean): void { this.settings.loudnessMatch = on; this.engine?.setLoudnessMatch(on); }
-  setInputCalibration(v: number): void { if (this.settings.inputVolts === v) return; this.settings.inputVolts = v; this.engine?.setInputCalibration(v); this.releveling(); }
+  setMonitor(target: Monitor): void {
+    this.settings.monitor = target;
+    this.engine?.setMonitor(target);
+  }
+  setLoudnessMatch(on: boolean): void {
+    this.settings.loudnessMatch = on;
+    this.engine?.setLoudnessMatch(on);
+  }
+  setInputCalibration(v: number): void {
+    if (this.settings.inputVolts === v) return;
+    this.settings.inputVolts = v;
+    this.engine?.setInputCalibration(v);
+    this.releveling();
+  }
   setQuality(f: OversamplingFactor): void {
     this.settings.factor = f;
     this.guard.setFactor(f);
@@ -156,14 +209,25 @@ export class EnginePort implements AudioPort {
     this.engine?.setQuality(step.to);
     this.emit({ qualityFactor: step.to, qualityNote: overloadMessage(step) });
   }
-  setOverloadGuard(on: boolean): void { this.guard.enabled = on; this.guard.setFactor(this.settings.factor); }
-  overloadGuardOn(): boolean { return this.guard.enabled; }
+  setOverloadGuard(on: boolean): void {
+    this.guard.enabled = on;
+    this.guard.setFactor(this.settings.factor);
+  }
+  overloadGuardOn(): boolean {
+    return this.guard.enabled;
+  }
   /** The live quality the port holds now (the workspace's selector follows it). */
-  qualityFactor(): OversamplingFactor { return this.settings.factor; }
+  qualityFactor(): OversamplingFactor {
+    return this.settings.factor;
+  }
   /** The design the port holds for a slot (what the engine plays once settled). */
-  design(slot: Slot): Design | undefined { return this.designs[slot]; }
+  design(slot: Slot): Design | undefined {
+    return this.designs[slot];
+  }
   /** No design send in flight and no re-levelling pending: what plays is what the workspace shows. */
-  settled(): boolean { return this.sendsInFlight === 0 && this.levelTimer === null && (this.engine?.sending ?? 0) === 0; }
+  settled(): boolean {
+    return this.sendsInFlight === 0 && this.levelTimer === null && (this.engine?.sending ?? 0) === 0;
+  }
 
   setSource(clip: SourceClip): void {
     this.clip = clip;
@@ -171,7 +235,10 @@ export class EnginePort implements AudioPort {
     this.engine?.setSource(clip.samples, clip.sampleRateHz);
   }
 
-  setLoop(region: LoopRegion | null): void { this.loop = region; this.engine?.setLoop(region); }
+  setLoop(region: LoopRegion | null): void {
+    this.loop = region;
+    this.engine?.setLoop(region);
+  }
 
   setCabinet(ir: Float32Array | null, sampleRateHz: number): void {
     this.cabinet = ir ? { samples: ir, sampleRateHz } : null;
@@ -195,12 +262,20 @@ export class EnginePort implements AudioPort {
     if (e.context.state !== 'running') await e.context.resume();
     await e.play();
     this.emit({ playing: true });
-    const poll = () => { if (this.engine?.playing) setTimeout(poll, 250); else this.emit({ playing: false }); };
+    const poll = () => {
+      if (this.engine?.playing) setTimeout(poll, 250);
+      else this.emit({ playing: false });
+    };
     setTimeout(poll, 250);
   }
 
-  stop(): void { this.engine?.stop(); this.emit({ playing: false }); }
-  positionSeconds(): number { return this.engine?.playing ? this.engine.positionSeconds() : 0; }
+  stop(): void {
+    this.engine?.stop();
+    this.emit({ playing: false });
+  }
+  positionSeconds(): number {
+    return this.engine?.playing ? this.engine.positionSeconds() : 0;
+  }
 
   async startLive(options?: LiveInputOptions): Promise<void> {
     const e = await this.ensure();
@@ -213,7 +288,9 @@ export class EnginePort implements AudioPort {
       this.emit({ live: e.live, liveChannels: e.liveChannels });
     }
   }
-  liveLatency(): LiveLatency | null { return this.engine?.liveLatency() ?? null; }
+  liveLatency(): LiveLatency | null {
+    return this.engine?.liveLatency() ?? null;
+  }
   private takeCount = 0;
   private takeListener: ((clip: SourceClip | null) => void) | null = null;
   /** A take as a clip, named by its order and time of day. */
@@ -230,18 +307,39 @@ export class EnginePort implements AudioPort {
     e.onTakeEnded((t) => this.takeListener?.(this.takeClip(t)));
     e.startTake();
   }
-  async stopTake(): Promise<SourceClip | null> { return this.engine ? this.takeClip(await this.engine.stopTake()) : null; }
-  takeSeconds(): number | null { return this.engine?.takeSeconds ?? null; }
-  onTakeEnded(listener: (clip: SourceClip | null) => void): void { this.takeListener = listener; }
-  listInputs(): Promise<LiveInputDevice[]> { return this.engine ? this.engine.listInputs() : Promise.resolve([]); }
-  stopLive(): void { this.engine?.stopLive(); this.emit({ live: 'off', liveChannels: 0 }); }
-  setMuted(muted: boolean): void { const e = this.engine; if (!e || e.live === 'off') return; e.setLiveMuted(muted); this.emit({ live: e.live, ...(muted ? {} : { safetyNote: null }) }); }
+  async stopTake(): Promise<SourceClip | null> {
+    return this.engine ? this.takeClip(await this.engine.stopTake()) : null;
+  }
+  takeSeconds(): number | null {
+    return this.engine?.takeSeconds ?? null;
+  }
+  onTakeEnded(listener: (clip: SourceClip | null) => void): void {
+    this.takeListener = listener;
+  }
+  listInputs(): Promise<LiveInputDevice[]> {
+    return this.engine ? this.engine.listInputs() : Promise.resolve([]);
+  }
+  stopLive(): void {
+    this.engine?.stopLive();
+    this.emit({ live: 'off', liveChannels: 0 });
+  }
+  setMuted(muted: boolean): void {
+    const e = this.engine;
+    if (!e || e.live === 'off') return;
+    e.setLiveMuted(muted);
+    this.emit({ live: e.live, ...(muted ? {} : { safetyNote: null }) });
+  }
 
-  levels(): { inputVolts: number; outputDbfs: number } { return this.engine?.levels() ?? { inputVolts: 0, outputDbfs: -120 }; }
-  spectrum(into: Float32Array): { ok: boolean; binHertz: number } { return this.engine && this.engine.playing ? this.engine.spectrum(into) : { ok: false, binHertz: 0 }; }
+  levels(): { inputVolts: number; outputDbfs: number } {
+    return this.engine?.levels() ?? { inputVolts: 0, outputDbfs: -120 };
+  }
+  spectrum(into: Float32Array): { ok: boolean; binHertz: number } {
+    return this.engine && this.engine.playing ? this.engine.spectrum(into) : { ok: false, binHertz: 0 };
+  }
 
   scope(slot: Slot): ScopeTrace | null {
-    const e = this.engine, d = this.designs[slot];
+    const e = this.engine,
+      d = this.designs[slot];
     if (!e || !d || e.scope.length < 2) return null;
     const tubes = d.parts.filter((p) => p.kind === 'tube');
     const firstGrid = tubes[0]?.kind === 'tube' ? tubes[0].nodes.grid : 'grid';
@@ -251,7 +349,11 @@ export class EnginePort implements AudioPort {
     const traces: Float32Array[] = [];
     const n = e.scope.read('grid', this.grid, slot);
     traces.push(this.grid.slice(0, n));
-    tubes.forEach((_, i) => { const b = new Float32Array(cap); const m = e.scope.read(i, b, slot); traces.push(b.slice(0, m)); });
+    tubes.forEach((_, i) => {
+      const b = new Float32Array(cap);
+      const m = e.scope.read(i, b, slot);
+      traces.push(b.slice(0, m));
+    });
     return { names, traces, rateHz: 30, rolling: true };
   }
 

@@ -14,7 +14,10 @@ export interface SourceClip {
   readonly voltsAtFullScale?: number;
 }
 
-export interface LoopRegion { readonly startSeconds: number; readonly endSeconds: number }
+export interface LoopRegion {
+  readonly startSeconds: number;
+  readonly endSeconds: number;
+}
 
 export interface AudioStatus {
   readonly engine: string;

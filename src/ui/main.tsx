@@ -5,4 +5,8 @@ import './styles.css';
 
 const root = document.getElementById('root');
 if (!root) throw new Error('page has no #root element');
-createRoot(root).render(<StrictMode><App /></StrictMode>);
+createRoot(root).render(
+  <StrictMode>
+    <App />
+  </StrictMode>,
+);

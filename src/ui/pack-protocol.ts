@@ -17,7 +17,21 @@ export interface PackRequest {
   readonly regionLabel: string;
 }
 
-export interface PackProgress { readonly type: 'progress'; readonly id: number; readonly fraction: number; readonly stage: string }
-export interface PackDone { readonly type: 'done'; readonly id: number; readonly zip: Uint8Array; readonly fileName: string }
-export interface PackFailed { readonly type: 'failed'; readonly id: number; readonly reason: string }
+export interface PackProgress {
+  readonly type: 'progress';
+  readonly id: number;
+  readonly fraction: number;
+  readonly stage: string;
+}
+export interface PackDone {
+  readonly type: 'done';
+  readonly id: number;
+  readonly zip: Uint8Array;
+  readonly fileName: string;
+}
+export interface PackFailed {
+  readonly type: 'failed';
+  readonly id: number;
+  readonly reason: string;
+}
 export type PackReply = PackProgress | PackDone | PackFailed;

@@ -14,14 +14,18 @@ function build(req: PackRequest): PackReply {
   const { input, sampleRateHz: fs, factor, inputVoltsAtFullScale: volts } = req;
   if (input.length === 0) throw new Error('the region to render is empty');
   // validation registers the designs' fitted tubes in this worker too
-  validateDesign(req.designA); validateDesign(req.designB);
+  validateDesign(req.designA);
+  validateDesign(req.designB);
   const progress = (fraction: number, stage: string) => post({ type: 'progress', id: req.id, fraction, stage });
   const renderOne = (d: Design, slot: string, from: number, to: number) => {
     progress(from, `rendering ${slot}`);
     let last = from;
     const r = renderAligned(designCircuit(d), input, fs, factor, volts, (f) => {
       const x = from + (to - from) * f;
-      if (x - last >= 0.01) { last = x; progress(x, `rendering ${slot}`); }
+      if (x - last >= 0.01) {
+        last = x;
+        progress(x, `rendering ${slot}`);
+      }
     });
     const op = r.render.model.engine.operatingPoint();
     return { samples: r.samples, render: r.render, design: { design: d, ref: `workspace slot ${slot}`, operatingPoint: op } satisfies PackDesign };
@@ -31,10 +35,17 @@ function build(req: PackRequest): PackReply {
   const bad = a.render.nonFiniteSamples + b.render.nonFiniteSamples;
   if (bad > 0) throw new Error(`${bad} samples of the renders were not finite; the design does not simulate cleanly`);
   let di: LoudnessReport | null;
-  try { di = measureLoudness([input], fs); } catch { di = null; }
+  try {
+    di = measureLoudness([input], fs);
+  } catch {
+    di = null;
+  }
   const latency = `processed renders advanced by ${a.render.advanceSamples} samples (oversampler latency ${a.render.latencySamples.toFixed(3)} samples, rounded); the dry file is the DI unshifted; every file has the region's ${input.length} frames`;
   const common = {
-    sampleRateHz: fs, oversample: factor, inputVoltsAtFullScale: volts, latencyCompensation: latency,
+    sampleRateHz: fs,
+    oversample: factor,
+    inputVoltsAtFullScale: volts,
+    latencyCompensation: latency,
     input: { file: `${req.clipName} (${req.regionLabel})`, channelCount: 1, loudness: di },
   };
   const sideA: PackSide = { variant: 'a', name: req.designA.name, samples: a.samples };
@@ -47,8 +58,12 @@ function build(req: PackRequest): PackReply {
   progress(0.97, 'writing the archive');
   const enc = new TextEncoder();
   const entries: ZipEntry[] = [];
-  for (const [dir, pack] of [['a-vs-b', ab], ['dry-vs-b', db]] as const) {
-    for (const f of pack.files) entries.push({ name: `${dir}/${f.name}`, data: encodeWav([f.samples], fs, { bitDepth: f.format.bitDepth, float: f.format.float }) });
+  for (const [dir, pack] of [
+    ['a-vs-b', ab],
+    ['dry-vs-b', db],
+  ] as const) {
+    for (const f of pack.files)
+      entries.push({ name: `${dir}/${f.name}`, data: encodeWav([f.samples], fs, { bitDepth: f.format.bitDepth, float: f.format.float }) });
     entries.push({ name: `${dir}/${PAIR_SHEET_JSON}`, data: enc.encode(`${pack.sheetJson}\n`) });
     entries.push({ name: `${dir}/${PAIR_SHEET_MD}`, data: enc.encode(pack.sheetMarkdown) });
   }

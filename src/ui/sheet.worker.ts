@@ -8,6 +8,11 @@ self.onmessage = (e: MessageEvent<SheetRequest>) => {
   const { id, design } = e.data;
   let reply: SheetReply;
   // validation registers the design's fitted tubes in this worker too
-  try { validateDesign(design, { wiring: false }); reply = { id, ok: true, view: worstCase(design) }; } catch (err) { reply = { id, ok: false, reason: err instanceof Error ? err.message : String(err) }; }
+  try {
+    validateDesign(design, { wiring: false });
+    reply = { id, ok: true, view: worstCase(design) };
+  } catch (err) {
+    reply = { id, ok: false, reason: err instanceof Error ? err.message : String(err) };
+  }
   (self as unknown as { postMessage(m: unknown): void }).postMessage(reply);
 };

@@ -53,16 +53,45 @@ async function renderGraph(init: ProcessorInit, input: number[], rateHz: number,
 }
 
 /** Live input through the real-time graph until `seconds` of meter reports (30 per second) came; returns them and the spectrum peak. */
-async function liveRun(design: Design, seconds: number, options: LiveInputOptions = {}): Promise<{ reports: FromProcessor[]; peakHz: number; peakDb: number; sampleRateHz: number; liveBefore: string; liveAfter: string; channels: number; inputs: number; error: string; latency: LiveLatency | null }> {
+async function liveRun(
+  design: Design,
+  seconds: number,
+  options: LiveInputOptions = {},
+): Promise<{
+  reports: FromProcessor[];
+  peakHz: number;
+  peakDb: number;
+  sampleRateHz: number;
+  liveBefore: string;
+  liveAfter: string;
+  channels: number;
+  inputs: number;
+  error: string;
+  latency: LiveLatency | null;
+}> {
   const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
   const reports: FromProcessor[] = [];
   audio.onReport((m) => reports.push(structuredClone(m)));
   await audio.loadDesign('A', design);
-  try { await audio.startLive(options); } catch (e) {
+  try {
+    await audio.startLive(options);
+  } catch (e) {
     await audio.dispose();
-    return { reports, peakHz: 0, peakDb: -Infinity, sampleRateHz: 0, liveBefore: 'off', liveAfter: 'off', channels: 0, inputs: 0, error: (e as Error).message, latency: null };
+    return {
+      reports,
+      peakHz: 0,
+      peakDb: -Infinity,
+      sampleRateHz: 0,
+      liveBefore: 'off',
+      liveAfter: 'off',
+      channels: 0,
+      inputs: 0,
+      error: (e as Error).message,
+      latency: null,
+    };
   }
-  const channels = audio.liveChannels, inputs = (await audio.listInputs()).length;
+  const channels = audio.liveChannels,
+    inputs = (await audio.listInputs()).length;
   const latency = audio.liveLatency();
   const liveBefore = audio.live;
   audio.setLiveMuted(false);
@@ -102,7 +131,10 @@ async function liveSafety(design: Design): Promise<{ safetyMuted: number; liveAf
 }
 
 /** Record a take of the live input (the fake capture), then return it with its statistics. */
-async function takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ length: number; sampleRateHz: number; dropped: number; rms: number; peak: number; during: number | null; afterStop: number | null }> {
+async function takeRun(
+  seconds: number,
+  channel: 1 | 2 | 'mix',
+): Promise<{ length: number; sampleRateHz: number; dropped: number; rms: number; peak: number; during: number | null; afterStop: number | null }> {
   const audio = await createAudioEngine({ inputVoltsAtFullScale: 0.5 });
   await audio.startLive({ channel });
   audio.startTake();
@@ -110,22 +142,45 @@ async function takeRun(seconds: number, channel: 1 | 2 | 'mix'): Promise<{ lengt
   const during = audio.takeSeconds;
   const t = await audio.stopTake();
   const afterStop = audio.takeSeconds;
-  let ss = 0, peak = 0;
+  let ss = 0,
+    peak = 0;
   // skip the first 0.1 s (the capture device starting)
   const from = Math.round(0.1 * t.sampleRateHz);
-  for (let k = from; k < t.samples.length; k++) { ss += t.samples[k]! ** 2; peak = Math.max(peak, Math.abs(t.samples[k]!)); }
+  for (let k = from; k < t.samples.length; k++) {
+    ss += t.samples[k]! ** 2;
+    peak = Math.max(peak, Math.abs(t.samples[k]!));
+  }
   await audio.dispose();
-  return { length: t.samples.length, sampleRateHz: t.sampleRateHz, dropped: t.droppedSamples, rms: Math.sqrt(ss / Math.max(1, t.samples.length - from)), peak, during, afterStop };
+  return {
+    length: t.samples.length,
+    sampleRateHz: t.sampleRateHz,
+    dropped: t.droppedSamples,
+    rms: Math.sqrt(ss / Math.max(1, t.samples.length - from)),
+    peak,
+    during,
+    afterStop,
+  };
 }
 
 /** Denied microphone: the error and whether the graph still works afterwards. */
 async function liveDenied(): Promise<{ error: string; name: string; stillPlays: boolean }> {
   const audio = await createAudioEngine();
-  let error = '', name = '';
-  try { await audio.startLive(); } catch (e) { error = (e as Error).message; name = (e as Error).name; }
+  let error = '',
+    name = '';
+  try {
+    await audio.startLive();
+  } catch (e) {
+    error = (e as Error).message;
+    name = (e as Error).name;
+  }
   audio.setSource(new Float32Array(4800).fill(0.1), 48000);
   let stillPlays = true;
-  try { await audio.play(); audio.stop(); } catch { stillPlays = false; }
+  try {
+    await audio.play();
+    audio.stop();
+  } catch {
+    stillPlays = false;
+  }
   await audio.dispose();
   return { error, name, stillPlays };
 }
@@ -134,20 +189,32 @@ async function liveDenied(): Promise<{ error: string; name: string; stillPlays: 
  * Idle suspension: play a short clip, wait past the idle time, then load a design and edit a part
  * while suspended; every step's context state, and whether meter reports came after the wake.
  */
-async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[]; changes: boolean[] }> {
+async function idleRun(
+  design: Design,
+): Promise<{ states: string[]; loadedWhileIdle: boolean; reportsAfterWake: number; idleFlags: boolean[]; changes: boolean[] }> {
   const audio = await createAudioEngine({ idleSuspendSeconds: 0.4 });
-  const states: string[] = [], idleFlags: boolean[] = [], changes: boolean[] = [];
+  const states: string[] = [],
+    idleFlags: boolean[] = [],
+    changes: boolean[] = [];
   audio.onIdleChange((idle) => changes.push(idle));
-  const note = () => { states.push(audio.context.state); idleFlags.push(audio.idle); };
+  const note = () => {
+    states.push(audio.context.state);
+    idleFlags.push(audio.idle);
+  };
   const wait = (ms: number) => new Promise((r) => setTimeout(r, ms));
   await audio.loadDesign('A', design);
-  audio.setSource(new Float32Array(4800).map((_, k) => 0.2 * Math.sin(k / 10)), 48000);
+  audio.setSource(
+    new Float32Array(4800).map((_, k) => 0.2 * Math.sin(k / 10)),
+    48000,
+  );
   await audio.play();
   note(); // running while it plays
   await until(() => audio.context.state === 'suspended', 'the idle suspension');
   note(); // 0.1 s clip ended, idle time passed: suspended
   let reports = 0;
-  const off = audio.onReport((m) => { if (m.type === 'meter') reports++; });
+  const off = audio.onReport((m) => {
+    if (m.type === 'meter') reports++;
+  });
   // resolves only if the processor runs again (it answers 'loaded' from a block boundary)
   const loadedWhileIdle = await Promise.race([audio.loadDesign('B', design).then(() => true), wait(20_000).then(() => false)]);
   note();
@@ -166,8 +233,16 @@ async function idleRun(design: Design): Promise<{ states: string[]; loadedWhileI
  * change on A and a quality change, both compiled by the plan worker. Returns what the load
  * resolved with (or its error), every error report and the 'loaded' reports after the load.
  */
-async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][number], retypedA: Design['parts'][number]):
-  Promise<{ loadA: string; errors: { message: string; requestId: number | null }[]; loadedAfter: { slot: string; factor: number; requestId: number | null }[] }> {
+async function requestIdRun(
+  a: Design,
+  b: Design,
+  badPartB: Design['parts'][number],
+  retypedA: Design['parts'][number],
+): Promise<{
+  loadA: string;
+  errors: { message: string; requestId: number | null }[];
+  loadedAfter: { slot: string; factor: number; requestId: number | null }[];
+}> {
   const audio = await createAudioEngine({ idleSuspendSeconds: 60 });
   const reports: FromProcessor[] = [];
   audio.onReport((m) => reports.push(structuredClone(m)));
@@ -175,7 +250,11 @@ async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][numb
   const pendingA = audio.loadDesign('A', a);
   audio.setPart('B', badPartB);
   let loadA: string;
-  try { loadA = `resolved ${(await pendingA).slot} ${(await pendingA).designName}`; } catch (e) { loadA = `rejected: ${(e as Error).message}`; }
+  try {
+    loadA = `resolved ${(await pendingA).slot} ${(await pendingA).designName}`;
+  } catch (e) {
+    loadA = `rejected: ${(e as Error).message}`;
+  }
   const from = reports.length;
   audio.setPart('A', retypedA);
   audio.setQuality(2);
@@ -198,14 +277,22 @@ async function requestIdRun(a: Design, b: Design, badPartB: Design['parts'][numb
  * timed from resume to the next suspension: one quantum of processing plus the suspend/resume
  * hand-over between threads.
  */
-async function editSession(init: ProcessorInit, input: number[], rateHz: number, events: { quantum: number; messages: ToProcessor[] }[], quiet: number[], window = 8):
-  Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
+async function editSession(
+  init: ProcessorInit,
+  input: number[],
+  rateHz: number,
+  events: { quantum: number; messages: ToProcessor[] }[],
+  quiet: number[],
+  window = 8,
+): Promise<{ editMs: number[]; quietMs: number[]; renderMs: number; errors: string[] }> {
   const Q = 128;
   const ctx = new OfflineAudioContext(1, input.length, rateHz);
   await ctx.audioWorklet.addModule(workletUrl);
   const node = new AudioWorkletNode(ctx, PROCESSOR_NAME, { numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [1], processorOptions: init });
   const errors: string[] = [];
-  node.port.onmessage = (e: MessageEvent<FromProcessor>) => { if (e.data.type === 'error') errors.push(e.data.message); };
+  node.port.onmessage = (e: MessageEvent<FromProcessor>) => {
+    if (e.data.type === 'error') errors.push(e.data.message);
+  };
   const buf = new AudioBuffer({ length: input.length, sampleRate: rateHz, numberOfChannels: 1 });
   buf.copyToChannel(Float32Array.from(input), 0);
   const src = new AudioBufferSourceNode(ctx, { buffer: buf });
@@ -222,7 +309,10 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
     return [...new Set(plans.flatMap((p) => (p ? planTransferables(p) : [])))];
   };
   const withPlan = (m: ToProcessor): ToProcessor => {
-    if (m.type === 'load-design') { designs[m.slot] = m.design; return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) }; }
+    if (m.type === 'load-design') {
+      designs[m.slot] = m.design;
+      return { ...m, plan: buildSlotPlan(m.design, rateHz, factor) };
+    }
     if (m.type === 'set-part') {
       const d = designs[m.slot];
       if (!d) return m;
@@ -231,17 +321,27 @@ async function editSession(init: ProcessorInit, input: number[], rateHz: number,
       const old = d.parts.find((p) => p.id === m.part.id);
       return old && old.kind === 'tube' && m.part.kind === 'tube' && old.type !== m.part.type ? { ...m, plan: buildSlotPlan(next, rateHz, factor) } : m;
     }
-    const plans = () => ({ ...(designs.A ? { A: buildSlotPlan(designs.A, rateHz, factor) } : {}), ...(designs.B ? { B: buildSlotPlan(designs.B, rateHz, factor) } : {}) });
-    if (m.type === 'set-quality') { factor = m.factor; return { ...m, plans: plans() }; }
+    const plans = () => ({
+      ...(designs.A ? { A: buildSlotPlan(designs.A, rateHz, factor) } : {}),
+      ...(designs.B ? { B: buildSlotPlan(designs.B, rateHz, factor) } : {}),
+    });
+    if (m.type === 'set-quality') {
+      factor = m.factor;
+      return { ...m, plans: plans() };
+    }
     if (m.type === 'reset') return { ...m, plans: plans() };
     return m;
   };
-  const editMs: number[] = [], quietMs: number[] = [];
+  const editMs: number[] = [],
+    quietMs: number[] = [];
   const WINDOW = window; // quanta timed after each event (warm-up, fades, swaps and glide steps land there)
   const timed = (quantum: number, into: number[], messages: ToProcessor[]) => {
     let t0 = 0;
     void ctx.suspend((quantum * Q) / rateHz).then(() => {
-      for (const m of messages) { const p = withPlan(m); node.port.postMessage(p, transfers(p)); }
+      for (const m of messages) {
+        const p = withPlan(m);
+        node.port.postMessage(p, transfers(p));
+      }
       // the messages reach the processor before the next quantum (one port, in order)
       t0 = performance.now();
       void ctx.resume();

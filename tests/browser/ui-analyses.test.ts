@@ -11,7 +11,12 @@ import { potResistors } from '../../src/dsp/circuit/design.ts';
 let harness: UiHarness;
 let w: Workspace | null = null;
 
-type Win = { __valvewright: { port: { settled(): boolean; design(s: 'A' | 'B'): { supply: { volts: number } } | undefined }; slots(): { A: { supply: { volts: number }; parts: { id: string; farads?: number }[] } } } };
+type Win = {
+  __valvewright: {
+    port: { settled(): boolean; design(s: 'A' | 'B'): { supply: { volts: number } } | undefined };
+    slots(): { A: { supply: { volts: number }; parts: { id: string; farads?: number }[] } };
+  };
+};
 
 async function fresh(): Promise<Workspace> {
   await w?.close();
@@ -26,13 +31,26 @@ const volts = (text: string | null) => Number(/([\d.]+) V/.exec(text ?? '')?.[1]
 type C = [number, number];
 const add = (a: C, b: C): C => [a[0] + b[0], a[1] + b[1]];
 const mul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
-const inv = (a: C): C => { const d = a[0] * a[0] + a[1] * a[1]; return [a[0] / d, -a[1] / d]; };
+const inv = (a: C): C => {
+  const d = a[0] * a[0] + a[1] * a[1];
+  return [a[0] / d, -a[1] / d];
+};
 const par = (a: C, b: C): C => inv(add(inv(a), inv(b)));
 const tpl = TEMPLATES['pentode-triode']!;
 const tplPart = (id: string) => tpl.parts.find((q) => q.id === id)!;
-const ohmsOf = (id: string) => { const q = tplPart(id); return q.kind === 'resistor' ? q.ohms : NaN; };
-const faradsOf = (id: string) => { const q = tplPart(id); return q.kind === 'capacitor' ? q.farads : NaN; };
-const potOf = (id: string) => { const q = tplPart(id); if (q.kind !== 'pot') throw new Error(`${id} is not a pot`); return potResistors(q); };
+const ohmsOf = (id: string) => {
+  const q = tplPart(id);
+  return q.kind === 'resistor' ? q.ohms : NaN;
+};
+const faradsOf = (id: string) => {
+  const q = tplPart(id);
+  return q.kind === 'capacitor' ? q.farads : NaN;
+};
+const potOf = (id: string) => {
+  const q = tplPart(id);
+  if (q.kind !== 'pot') throw new Error(`${id} is not a pot`);
+  return potResistors(q);
+};
 /**
  * |V(out) / V(p2)| of the pentode-triode template's output network with C5 = c farads: C5, then R8
  * into node tn, which carries the TONE pot's track (tn to tc) with C6 to ground, and the volume
@@ -41,7 +59,8 @@ const potOf = (id: string) => { const q = tplPart(id); if (q.kind !== 'pot') thr
 function gain(hz: number, c: number, sourceOhms: number): number {
   const w = 2 * Math.PI * hz;
   const zc = (f: number): C => [0, -1 / (w * f)];
-  const tone = potOf('TONE'), vol = potOf('VOL');
+  const tone = potOf('TONE'),
+    vol = potOf('VOL');
   const lower: C = par([vol.upperOhms, 0], [tpl.output.loadOhms, 0]); // ground end to wiper, with the load
   const volBranch: C = add([vol.lowerOhms, 0], lower); // wiper to tn, then that
   const shunt = par(volBranch, add([tone.upperOhms, 0], zc(faradsOf('C6'))));
@@ -53,13 +72,23 @@ function gain(hz: number, c: number, sourceOhms: number): number {
 function handCorner(c: number, sourceOhms: number): number {
   const f = Array.from({ length: 601 }, (_, i) => 20 * 1000 ** (i / 600));
   const peak = Math.max(...f.map((h) => gain(h, c, sourceOhms)));
-  let lo = 20, hi = 20000;
-  for (let k = 0; k < 60; k++) { const m = Math.sqrt(lo * hi); if (gain(m, c, sourceOhms) < peak / Math.SQRT2) lo = m; else hi = m; }
+  let lo = 20,
+    hi = 20000;
+  for (let k = 0; k < 60; k++) {
+    const m = Math.sqrt(lo * hi);
+    if (gain(m, c, sourceOhms) < peak / Math.SQRT2) lo = m;
+    else hi = m;
+  }
   return Math.sqrt(lo * hi);
 }
 
-beforeAll(async () => { harness = await startUiHarness(); }, 120_000);
-afterAll(async () => { await w?.close(); await harness?.close(); });
+beforeAll(async () => {
+  harness = await startUiHarness();
+}, 120_000);
+afterAll(async () => {
+  await w?.close();
+  await harness?.close();
+});
 
 describe('analysis panels', () => {
   it('a supply edit changes the estimated B+ and the B+ the model runs on; the hum is at twice the mains frequency', async () => {
@@ -96,7 +125,15 @@ describe('analysis panels', () => {
       while (tag(at) !== 'data') at += 8 + bytes.getUint32(at + 4, true) + (bytes.getUint32(at + 4, true) & 1);
       const n = bytes.getUint32(at + 4, true) / 4;
       const x = Array.from({ length: n }, (_, k) => bytes.getFloat32(at + 8 + 4 * k, true)).slice(Math.floor(n / 2));
-      const power = (hz: number) => { let re = 0, im = 0; x.forEach((v, k) => { re += v * Math.cos((2 * Math.PI * hz * k) / rate); im -= v * Math.sin((2 * Math.PI * hz * k) / rate); }); return (re * re + im * im) / (x.length * x.length); };
+      const power = (hz: number) => {
+        let re = 0,
+          im = 0;
+        x.forEach((v, k) => {
+          re += v * Math.cos((2 * Math.PI * hz * k) / rate);
+          im -= v * Math.sin((2 * Math.PI * hz * k) / rate);
+        });
+        return (re * re + im * im) / (x.length * x.length);
+      };
       return { at100: power(100), at50: power(50), rms: Math.sqrt(x.reduce((a, v) => a + v * v, 0) / x.length) };
     });
     expect(bins.rms).toBeGreaterThan(1e-7);
@@ -140,8 +177,13 @@ describe('analysis panels', () => {
       const tag = (o: number) => String.fromCharCode(bytes.getUint8(o), bytes.getUint8(o + 1), bytes.getUint8(o + 2), bytes.getUint8(o + 3));
       while (tag(at) !== 'data') at += 8 + bytes.getUint32(at + 4, true);
       const n = bytes.getUint32(at + 4, true) / 4;
-      let sum = 0, finite = true;
-      for (let k = 0; k < n; k++) { const x = bytes.getFloat32(at + 8 + 4 * k, true); finite &&= Number.isFinite(x); sum += x * x; }
+      let sum = 0,
+        finite = true;
+      for (let k = 0; k < n; k++) {
+        const x = bytes.getFloat32(at + 8 + 4 * k, true);
+        finite &&= Number.isFinite(x);
+        sum += x * x;
+      }
       return { rms: Math.sqrt(sum / n), finite, seconds: n / bytes.getUint32(24, true) };
     });
     expect(level.finite).toBe(true);
@@ -159,7 +201,11 @@ describe('analysis panels', () => {
     const csv = readFileSync(await (await download).path(), 'utf8');
     const rows = csv.trim().split(/\r?\n/);
     expect(rows[0]).toMatch(/^ref,kind,value/);
-    for (const id of ['R3', 'C4', 'V1', 'VOL']) expect(rows.some((r) => r.startsWith(`${id},`)), id).toBe(true);
+    for (const id of ['R3', 'C4', 'V1', 'VOL'])
+      expect(
+        rows.some((r) => r.startsWith(`${id},`)),
+        id,
+      ).toBe(true);
     download = page.waitForEvent('download');
     await page.getByTestId('spice-export').click();
     const cir = readFileSync(await (await download).path(), 'utf8');
@@ -196,7 +242,12 @@ describe('analysis panels', () => {
     expect(corner / reported).toBeGreaterThan(0.97);
     expect(corner / reported).toBeLessThan(1.03);
     // and no neighbouring E12 value comes closer to 100 Hz (in octaves)
-    const step = (k: number) => { const e12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2]; const dec = 10 ** Math.floor(Math.log10(x) + 1e-9); const i = e12.findIndex((m) => Math.abs(m - x / dec) < 1e-6) + k; return i < 0 ? e12[i + 12]! * dec / 10 : i >= 12 ? e12[i - 12]! * dec * 10 : e12[i]! * dec; };
+    const step = (k: number) => {
+      const e12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
+      const dec = 10 ** Math.floor(Math.log10(x) + 1e-9);
+      const i = e12.findIndex((m) => Math.abs(m - x / dec) < 1e-6) + k;
+      return i < 0 ? (e12[i + 12]! * dec) / 10 : i >= 12 ? e12[i - 12]! * dec * 10 : e12[i]! * dec;
+    };
     const miss = (c: number) => Math.abs(Math.log(handCorner(c, source) / 100));
     expect(miss(x)).toBeLessThanOrEqual(miss(step(-1)) + 1e-9);
     expect(miss(x)).toBeLessThanOrEqual(miss(step(1)) + 1e-9);

@@ -12,7 +12,10 @@ import { stageChain } from '../helpers/stages.ts';
 let harness: UiHarness;
 let w: Workspace | null = null;
 
-interface Slots { A: { parts: { id: string; nodes: unknown }[]; output: { node: string }; sheet?: { positions?: Record<string, [number, number]> } }; B: unknown }
+interface Slots {
+  A: { parts: { id: string; nodes: unknown }[]; output: { node: string }; sheet?: { positions?: Record<string, [number, number]> } };
+  B: unknown;
+}
 type Win = { __valvewright: { port: { settled(): boolean; design(s: 'A' | 'B'): unknown }; slots(): Slots } };
 
 async function fresh(viewport?: { width: number; height: number }): Promise<Workspace> {
@@ -23,10 +26,11 @@ async function fresh(viewport?: { width: number; height: number }): Promise<Work
 }
 const slotA = (p: Page) => p.evaluate(() => (window as unknown as Win).__valvewright.slots().A);
 /** What plays is what the sheet holds (the port has slot A's design and nothing is pending). */
-const playsSheet = (p: Page) => p.evaluate(() => {
-  const v = (window as unknown as Win).__valvewright;
-  return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A);
-});
+const playsSheet = (p: Page) =>
+  p.evaluate(() => {
+    const v = (window as unknown as Win).__valvewright;
+    return v.port.settled() && JSON.stringify(v.port.design('A')) === JSON.stringify(v.slots().A);
+  });
 
 async function importDesign(p: Page, design: unknown, name: string): Promise<void> {
   await p.getByTestId('import-design').setInputFiles({ name, mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(design)) });
@@ -42,21 +46,29 @@ function sheetGeometry(p: Page) {
   return p.evaluate(() => {
     const svg = document.querySelector('svg.schematic') as SVGSVGElement;
     const m = svg.getScreenCTM()!;
-    const toScreen = (x: number, y: number) => { const q = new DOMPoint(x, y).matrixTransform(m); return [q.x, q.y] as const; };
+    const toScreen = (x: number, y: number) => {
+      const q = new DOMPoint(x, y).matrixTransform(m);
+      return [q.x, q.y] as const;
+    };
     const segs: [number, number, number, number, string][] = [];
     for (const pl of Array.from(svg.querySelectorAll('g.wires polyline, g.part > polyline'))) {
       const pts = (pl as SVGPolylineElement).points;
       const owner = pl.closest('g.part')?.getAttribute('data-part') ?? `net ${pl.getAttribute('data-net')}`;
       for (let i = 1; i < pts.numberOfItems; i++) {
-        const a = pts.getItem(i - 1), b = pts.getItem(i);
-        const [x1, y1] = toScreen(a.x, a.y), [x2, y2] = toScreen(b.x, b.y);
+        const a = pts.getItem(i - 1),
+          b = pts.getItem(i);
+        const [x1, y1] = toScreen(a.x, a.y),
+          [x2, y2] = toScreen(b.x, b.y);
         segs.push([x1, y1, x2, y2, owner]);
       }
     }
     const crosses = (r: DOMRect, s: [number, number, number, number, string]) => {
       // axis-aligned segments (orthogonal wiring): a segment inside the text box, shrunk by 1 px
       const [x1, y1, x2, y2] = s;
-      const L = r.left + 1, R = r.right - 1, T = r.top + 1, B = r.bottom - 1;
+      const L = r.left + 1,
+        R = r.right - 1,
+        T = r.top + 1,
+        B = r.bottom - 1;
       if (Math.abs(y1 - y2) < 0.01) return y1 > T && y1 < B && Math.max(x1, x2) > L && Math.min(x1, x2) < R;
       if (Math.abs(x1 - x2) < 0.01) return x1 > L && x1 < R && Math.max(y1, y2) > T && Math.min(y1, y2) < B;
       return false;
@@ -71,11 +83,15 @@ function sheetGeometry(p: Page) {
     }
     const unconnected: string[] = [];
     const on = (x: number, y: number, s: [number, number, number, number, string]) =>
-      Math.abs((s[2] - s[0]) * (y - s[1]) - (s[3] - s[1]) * (x - s[0])) < 0.5 * Math.hypot(s[2] - s[0], s[3] - s[1]) + 1e-6
-      && x >= Math.min(s[0], s[2]) - 0.5 && x <= Math.max(s[0], s[2]) + 0.5 && y >= Math.min(s[1], s[3]) - 0.5 && y <= Math.max(s[1], s[3]) + 0.5;
+      Math.abs((s[2] - s[0]) * (y - s[1]) - (s[3] - s[1]) * (x - s[0])) < 0.5 * Math.hypot(s[2] - s[0], s[3] - s[1]) + 1e-6 &&
+      x >= Math.min(s[0], s[2]) - 0.5 &&
+      x <= Math.max(s[0], s[2]) + 0.5 &&
+      y >= Math.min(s[1], s[3]) - 0.5 &&
+      y <= Math.max(s[1], s[3]) + 0.5;
     const wireSegs = segs.filter((s) => s[4].startsWith('net '));
     for (const c of Array.from(svg.querySelectorAll('circle.term:not(.flagged)'))) {
-      const cx = Number(c.getAttribute('cx')), cy = Number(c.getAttribute('cy'));
+      const cx = Number(c.getAttribute('cx')),
+        cy = Number(c.getAttribute('cy'));
       const [x, y] = toScreen(cx, cy);
       if (!wireSegs.some((s) => on(x, y, s))) unconnected.push(`${c.closest('g.part')?.getAttribute('data-part')} at node ${c.getAttribute('data-node')}`);
     }
@@ -83,8 +99,13 @@ function sheetGeometry(p: Page) {
   });
 }
 
-beforeAll(async () => { harness = await startUiHarness(); }, 120_000);
-afterAll(async () => { await w?.close(); await harness?.close(); });
+beforeAll(async () => {
+  harness = await startUiHarness();
+}, 120_000);
+afterAll(async () => {
+  await w?.close();
+  await harness?.close();
+});
 
 describe('editing the circuit', () => {
   it('adds a part, rewires it, deletes it and undoes each step; every step plays at once', async () => {
@@ -144,11 +165,18 @@ describe('editing the circuit', () => {
     // a fitted tube file (valvewright.tube.v1) with Koren's published 12AX7 parameters (from memory)
     await page.getByTestId('add-kind').selectOption('tube');
     const file = {
-      schema: 'valvewright.tube.v1', type: 'MY-12AX7', kind: 'triode', like: '12AX7', points: [], source: 'test',
+      schema: 'valvewright.tube.v1',
+      type: 'MY-12AX7',
+      kind: 'triode',
+      like: '12AX7',
+      points: [],
+      source: 'test',
       model: { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 },
       gridCurrent: { name: 'initial-velocity', gg: 0.00031, xi: 1.5, cathodeKelvin: 1050, onsetVolts: -0.49 },
     };
-    await page.getByTestId('add-fitted-tube').setInputFiles({ name: 'my-12ax7.tube.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(file)) });
+    await page
+      .getByTestId('add-fitted-tube')
+      .setInputFiles({ name: 'my-12ax7.tube.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(file)) });
     await expect.poll(() => page.getByTestId('add-tube-type').inputValue()).toBe('MY-12AX7');
     await place('tube', ['p1', 'in', 'k1'], 'MY-12AX7');
     await place('resistor', ['bp', 'p1']);
@@ -165,10 +193,13 @@ describe('editing the circuit', () => {
     await page.getByTestId('demo-select').selectOption('boiler-fifths');
     await page.getByText(/Boiler Fifths · 5\.0 s/).waitFor();
     await expect.poll(() => playsSheet(page)).toBe(true);
-    const render = (slot: 'A' | 'B') => page.evaluate(async (s) => {
-      const r = await (window as unknown as { __valvewright: { port: { renderOffline(s: string, sec: number): Promise<Float32Array | null> } } }).__valvewright.port.renderOffline(s, 0.6);
-      return r ? Array.from(r.subarray(4800, 28800)) : [];
-    }, slot);
+    const render = (slot: 'A' | 'B') =>
+      page.evaluate(async (s) => {
+        const r = await (
+          window as unknown as { __valvewright: { port: { renderOffline(s: string, sec: number): Promise<Float32Array | null> } } }
+        ).__valvewright.port.renderOffline(s, 0.6);
+        return r ? Array.from(r.subarray(4800, 28800)) : [];
+      }, slot);
     const out = await render('A');
     expect(out.length).toBeGreaterThan(1000);
     expect(out.every((x) => Number.isFinite(x))).toBe(true);

@@ -41,17 +41,33 @@ export async function startUiHarness(): Promise<UiHarness> {
     async newWorkspace(viewport = { width: 1280, height: 800 }) {
       const context = await browser.newContext({ viewport, acceptDownloads: true });
       const page = await context.newPage();
-      const consoleErrors: string[] = [], failedUrls: string[] = [];
-      page.on('console', (m) => { if (m.type() === 'error') consoleErrors.push(m.text()); });
+      const consoleErrors: string[] = [],
+        failedUrls: string[] = [];
+      page.on('console', (m) => {
+        if (m.type() === 'error') consoleErrors.push(m.text());
+      });
       page.on('pageerror', (e) => consoleErrors.push(String(e)));
-      page.on('response', (r) => { if (r.status() >= 400) failedUrls.push(r.url()); });
+      page.on('response', (r) => {
+        if (r.status() >= 400) failedUrls.push(r.url());
+      });
       return {
-        url, context, page, consoleErrors, failedUrls,
-        async screenshot(name, fullPage = false) { await page.screenshot({ path: join(SCREENSHOT_DIR, `${name}.png`), fullPage }); },
-        async close() { await context.close(); },
+        url,
+        context,
+        page,
+        consoleErrors,
+        failedUrls,
+        async screenshot(name, fullPage = false) {
+          await page.screenshot({ path: join(SCREENSHOT_DIR, `${name}.png`), fullPage });
+        },
+        async close() {
+          await context.close();
+        },
       };
     },
-    async close() { await browser.close(); await server.close(); },
+    async close() {
+      await browser.close();
+      await server.close();
+    },
   };
 }
 
@@ -70,7 +86,9 @@ export async function openWorkspace(w: Workspace, options: { hash?: string; keep
   if (!options.keepOverloadGuard) {
     const guard = w.page.getByLabel('lower quality on overload');
     await guard.uncheck();
-    await w.page.waitForFunction(() => (window as unknown as { __valvewright?: { port: { overloadGuardOn(): boolean } } }).__valvewright?.port.overloadGuardOn() === false);
+    await w.page.waitForFunction(
+      () => (window as unknown as { __valvewright?: { port: { overloadGuardOn(): boolean } } }).__valvewright?.port.overloadGuardOn() === false,
+    );
   }
   return ready;
 }

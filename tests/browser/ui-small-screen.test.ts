@@ -8,13 +8,19 @@ import { openWorkspace, startUiHarness, type UiHarness, type Workspace } from '.
 let harness: UiHarness;
 let w: Workspace | null = null;
 
-beforeAll(async () => { harness = await startUiHarness(); }, 120_000);
-afterAll(async () => { await w?.close(); await harness?.close(); });
+beforeAll(async () => {
+  harness = await startUiHarness();
+}, 120_000);
+afterAll(async () => {
+  await w?.close();
+  await harness?.close();
+});
 
 /** Smallest rendered text size among visible elements that hold text, with the offender. */
 function smallestText(p: Page) {
   return p.evaluate(() => {
-    let min = Infinity, where = '';
+    let min = Infinity,
+      where = '';
     const all = Array.from(document.querySelectorAll('body *'));
     for (const el of all) {
       const own = Array.from(el.childNodes).some((n) => n.nodeType === Node.TEXT_NODE && (n.textContent ?? '').trim() !== '');
@@ -26,16 +32,23 @@ function smallestText(p: Page) {
         const m = (el as SVGGraphicsElement).getScreenCTM?.();
         if (m) px *= Math.hypot(m.a, m.b);
       }
-      if (px < min) { min = px; where = `${el.tagName.toLowerCase()}.${el.getAttribute('class') ?? ''} "${(el.textContent ?? '').trim().slice(0, 30)}"`; }
+      if (px < min) {
+        min = px;
+        where = `${el.tagName.toLowerCase()}.${el.getAttribute('class') ?? ''} "${(el.textContent ?? '').trim().slice(0, 30)}"`;
+      }
     }
     return { min, where };
   });
 }
 
-const inView = (p: Page, selector: string) => p.locator(selector).first().evaluate((el) => {
-  const r = el.getBoundingClientRect();
-  return r.height > 0 && r.top >= 0 && r.bottom <= innerHeight + 0.5 && r.left >= 0 && r.right <= innerWidth + 0.5;
-});
+const inView = (p: Page, selector: string) =>
+  p
+    .locator(selector)
+    .first()
+    .evaluate((el) => {
+      const r = el.getBoundingClientRect();
+      return r.height > 0 && r.top >= 0 && r.bottom <= innerHeight + 0.5 && r.left >= 0 && r.right <= innerWidth + 0.5;
+    });
 
 describe('1024x640', () => {
   it('schematic, part editor, transport and A/B are on screen together; the header is one row', async () => {

@@ -11,18 +11,33 @@ import { openWorkspace, startUiHarness, type UiHarness, type Workspace } from '.
 
 let ui: UiHarness;
 let h: Workspace;
-beforeAll(async () => { ui = await startUiHarness(); }, 120_000);
-afterAll(async () => { await ui?.close(); });
-beforeEach(async () => { h = await ui.newWorkspace(); }, 60_000);
-afterEach(async () => { await h?.close(); });
+beforeAll(async () => {
+  ui = await startUiHarness();
+}, 120_000);
+afterAll(async () => {
+  await ui?.close();
+});
+beforeEach(async () => {
+  h = await ui.newWorkspace();
+}, 60_000);
+afterEach(async () => {
+  await h?.close();
+});
 
 type Status = { offsetDb: number | null; matchGainDb: number; outputLufs: number | null; playing: boolean };
-type Win = { __valvewright: { port: { subscribe(l: (s: Status) => void): () => void; setLoop(r: { startSeconds: number; endSeconds: number } | null): void; play(): Promise<void> }; slots(): { A: Design; B: Design } } };
+type Win = {
+  __valvewright: {
+    port: { subscribe(l: (s: Status) => void): () => void; setLoop(r: { startSeconds: number; endSeconds: number } | null): void; play(): Promise<void> };
+    slots(): { A: Design; B: Design };
+  };
+};
 
 async function importInto(slot: 'A' | 'B', d: Design): Promise<void> {
   await h.page.getByRole('radio', { name: slot, exact: true }).click();
   await h.page.getByTestId('import-design').setInputFiles({ name: 'd.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(d)) });
-  await expect.poll(() => h.page.evaluate((s: 'A' | 'B') => JSON.stringify((window as unknown as Win).__valvewright.slots()[s]), slot), { timeout: 20_000 }).toBe(JSON.stringify(d));
+  await expect
+    .poll(() => h.page.evaluate((s: 'A' | 'B') => JSON.stringify((window as unknown as Win).__valvewright.slots()[s]), slot), { timeout: 20_000 })
+    .toBe(JSON.stringify(d));
 }
 
 describe('part editor: the worst case of the one sheet', () => {
@@ -30,7 +45,9 @@ describe('part editor: the worst case of the one sheet', () => {
     it(`${key}: every part shows the figure \`valvewright parts\` prints`, async () => {
       await openWorkspace(h);
       await h.page.getByTestId('template-select').selectOption(key);
-      await expect.poll(() => h.page.evaluate(() => (window as unknown as Win).__valvewright.slots().A), { timeout: 20_000 }).toEqual(JSON.parse(JSON.stringify(t)));
+      await expect
+        .poll(() => h.page.evaluate(() => (window as unknown as Win).__valvewright.slots().A), { timeout: 20_000 })
+        .toEqual(JSON.parse(JSON.stringify(t)));
       const r = checkCircuit(t);
       const rows = partsRows(r.model, r.ratings, r.findings);
       for (const p of t.parts) {
@@ -47,8 +64,16 @@ describe('part editor: the worst case of the one sheet', () => {
 describe('a design with a power-supply section', () => {
   it('runs on the estimated B+: the operating panel shows the node voltage `op` and `supply` give', async () => {
     const d: Design = {
-      ...TEMPLATES['triode-triode']!, name: 'supplied',
-      powerSupply: { secondary: { rmsVolts: 220, ratedAmps: 0.05 }, rectifier: { topology: 'bridge', diode: 'silicon' }, mainsHertz: 50, reservoirFarads: 47e-6, stages: [{ droppingOhms: 2200, farads: 47e-6 }], heaterWinding: { volts: 6.3, amps: 1 } },
+      ...TEMPLATES['triode-triode']!,
+      name: 'supplied',
+      powerSupply: {
+        secondary: { rmsVolts: 220, ratedAmps: 0.05 },
+        rectifier: { topology: 'bridge', diode: 'silicon' },
+        mainsHertz: 50,
+        reservoirFarads: 47e-6,
+        stages: [{ droppingOhms: 2200, farads: 47e-6 }],
+        heaterWinding: { volts: 6.3, amps: 1 },
+      },
     };
     const s = designSupply(d);
     await openWorkspace(h);
@@ -63,27 +88,36 @@ describe('a design with a power-supply section', () => {
 describe('live A/B: the offset shown is what the output meter reads', () => {
   it('a pair about 15 dB apart: unmatched, output(B) - output(A) equals the offset within 1 LU; matched, they agree within 1 LU', async () => {
     await openWorkspace(h);
-    const a = setVol(TEMPLATES['pentode-triode']!, 0.95), b = setVol(TEMPLATES['pentode-triode']!, 0.56);
+    const a = setVol(TEMPLATES['pentode-triode']!, 0.95),
+      b = setVol(TEMPLATES['pentode-triode']!, 0.56);
     await importInto('B', b);
     await importInto('A', a);
     await h.page.getByTestId('demo-select').selectOption({ index: 1 });
     await expect.poll(() => h.page.getByTestId('play').isEnabled(), { timeout: 20_000 }).toBe(true);
     await h.page.evaluate(async () => {
       const w = (window as unknown as Win & { __st?: Status }).__valvewright;
-      w.port.subscribe((st) => { (window as unknown as { __st?: Status }).__st = st; });
+      w.port.subscribe((st) => {
+        (window as unknown as { __st?: Status }).__st = st;
+      });
       w.port.setLoop({ startSeconds: 0, endSeconds: 4 });
       await w.port.play();
     });
     const st = () => h.page.evaluate(() => (window as unknown as { __st?: Status }).__st ?? null);
     /** Output loudness once it has settled on what is monitored (3 s window refilled). */
     const settledOutput = async (): Promise<number> => {
-      let last = NaN, same = 0;
-      await expect.poll(async () => {
-        const v = (await st())?.outputLufs ?? NaN;
-        same = Math.abs(v - last) < 0.15 ? same + 1 : 0;
-        last = v;
-        return same >= 8;
-      }, { timeout: 40_000, interval: 500 }).toBe(true);
+      let last = NaN,
+        same = 0;
+      await expect
+        .poll(
+          async () => {
+            const v = (await st())?.outputLufs ?? NaN;
+            same = Math.abs(v - last) < 0.15 ? same + 1 : 0;
+            last = v;
+            return same >= 8;
+          },
+          { timeout: 40_000, interval: 500 },
+        )
+        .toBe(true);
       return last;
     };
     // unmatched
@@ -116,12 +150,17 @@ describe('live input while muted', () => {
     await h.page.getByRole('button', { name: /enable input \(muted\)/ }).click();
     await expect.poll(() => h.page.getByTestId('mute').textContent(), { timeout: 20_000 }).toBe('Unmute');
     // Chromium's fake capture device plays a periodic tone: a muted input still shows it
-    await expect.poll(async () => {
-      const t = (await h.page.getByTestId('input-level').textContent()) ?? '';
-      const m = /([\d.]+) (µV|mV|V) peak/.exec(t);
-      if (!m) return 0;
-      return Number(m[1]) * (m[2] === 'V' ? 1 : m[2] === 'mV' ? 1e-3 : 1e-6);
-    }, { timeout: 20_000 }).toBeGreaterThan(1e-3);
+    await expect
+      .poll(
+        async () => {
+          const t = (await h.page.getByTestId('input-level').textContent()) ?? '';
+          const m = /([\d.]+) (µV|mV|V) peak/.exec(t);
+          if (!m) return 0;
+          return Number(m[1]) * (m[2] === 'V' ? 1 : m[2] === 'mV' ? 1e-3 : 1e-6);
+        },
+        { timeout: 20_000 },
+      )
+      .toBeGreaterThan(1e-3);
     expect(await h.page.getByTestId('mute').textContent()).toBe('Unmute');
   }, 60_000);
 });

@@ -32,10 +32,14 @@ const slotJson = (p: Workspace, slot: 'A' | 'B') => p.page.evaluate((s) => JSON.
 
 /** Wait until what plays is what the workspace holds: the port has the slot's design, with no send or re-levelling pending. */
 async function untilSettled(p: Workspace, slot: 'A' | 'B' = 'A'): Promise<void> {
-  await expect.poll(() => p.page.evaluate((s) => {
-    const v = (window as unknown as Win).__valvewright;
-    return v.port.settled() && JSON.stringify(v.port.design(s)) === JSON.stringify(v.slots()[s]);
-  }, slot)).toBe(true);
+  await expect
+    .poll(() =>
+      p.page.evaluate((s) => {
+        const v = (window as unknown as Win).__valvewright;
+        return v.port.settled() && JSON.stringify(v.port.design(s)) === JSON.stringify(v.slots()[s]);
+      }, slot),
+    )
+    .toBe(true);
 }
 
 async function renderSlot(p: Workspace, slot: 'A' | 'B'): Promise<number[]> {
@@ -45,7 +49,10 @@ async function renderSlot(p: Workspace, slot: 'A' | 'B'): Promise<number[]> {
   }, slot);
   // a render that came back empty or not finite is a failure of its own, not a NaN comparison
   expect(out.length, `render of ${slot}: ${out.length} samples`).toBeGreaterThan(1000);
-  expect(out.every((x) => Number.isFinite(x)), `render of ${slot} is finite`).toBe(true);
+  expect(
+    out.every((x) => Number.isFinite(x)),
+    `render of ${slot} is finite`,
+  ).toBe(true);
   return out;
 }
 /** RMS of the difference of two renders of the same clip (zero when identical). */
@@ -59,8 +66,13 @@ async function editValue(p: Workspace, partId: string, text: string): Promise<vo
   await input.press('Enter');
 }
 
-beforeAll(async () => { harness = await startUiHarness(); }, 120_000);
-afterAll(async () => { await w?.close(); await harness?.close(); });
+beforeAll(async () => {
+  harness = await startUiHarness();
+}, 120_000);
+afterAll(async () => {
+  await w?.close();
+  await harness?.close();
+});
 
 describe('audition workspace', () => {
   it('loads with no console errors and shows the first-run caution', async () => {
@@ -119,7 +131,7 @@ describe('audition workspace', () => {
     await expect.poll(() => p.page.getByRole('radio', { name: 'A' }).getAttribute('aria-checked')).toBe('true');
   });
 
-  it('the calibration can be set from an interface\'s maximum input level in dBu; a bad level or calibration is refused', async () => {
+  it("the calibration can be set from an interface's maximum input level in dBu; a bad level or calibration is refused", async () => {
     const p = await fresh();
     const cal = p.page.getByTestId('calibration');
     const before = await cal.inputValue();
@@ -192,10 +204,22 @@ describe('audition workspace', () => {
     const p = await fresh();
     expect(await p.page.getByTestId('input-clip').isHidden()).toBe(true);
     // 2 s of a 110 Hz sine clipped flat at full scale, 16-bit PCM
-    const rate = 48000, n = 2 * rate, b = Buffer.alloc(44 + 2 * n);
-    b.write('RIFF', 0); b.writeUInt32LE(36 + 2 * n, 4); b.write('WAVE', 8); b.write('fmt ', 12); b.writeUInt32LE(16, 16);
-    b.writeUInt16LE(1, 20); b.writeUInt16LE(1, 22); b.writeUInt32LE(rate, 24); b.writeUInt32LE(2 * rate, 28); b.writeUInt16LE(2, 32); b.writeUInt16LE(16, 34);
-    b.write('data', 36); b.writeUInt32LE(2 * n, 40);
+    const rate = 48000,
+      n = 2 * rate,
+      b = Buffer.alloc(44 + 2 * n);
+    b.write('RIFF', 0);
+    b.writeUInt32LE(36 + 2 * n, 4);
+    b.write('WAVE', 8);
+    b.write('fmt ', 12);
+    b.writeUInt32LE(16, 16);
+    b.writeUInt16LE(1, 20);
+    b.writeUInt16LE(1, 22);
+    b.writeUInt32LE(rate, 24);
+    b.writeUInt32LE(2 * rate, 28);
+    b.writeUInt16LE(2, 32);
+    b.writeUInt16LE(16, 34);
+    b.write('data', 36);
+    b.writeUInt32LE(2 * n, 40);
     for (let k = 0; k < n; k++) b.writeInt16LE(Math.round(32767 * Math.max(-1, Math.min(1, 1.5 * Math.sin((2 * Math.PI * 110 * k) / rate)))), 44 + 2 * k);
     await p.page.getByTestId('audio-file').setInputFiles({ name: 'hot-di.wav', mimeType: 'audio/wav', buffer: b });
     await p.page.getByText(/hot-di\.wav · 2\.0 s/).waitFor();
@@ -218,7 +242,9 @@ describe('audition workspace', () => {
     await expect.poll(() => slotJson(p, 'A')).not.toBe(atExport);
     await p.page.getByTestId('import-design').setInputFiles({ name: 'back.json', mimeType: 'application/json', buffer: Buffer.from(exported) });
     await expect.poll(() => slotJson(p, 'A')).toBe(atExport);
-    await p.page.getByTestId('import-design').setInputFiles({ name: 'broken.json', mimeType: 'application/json', buffer: Buffer.from('{"schema":"valvewright.design.v1"') });
+    await p.page
+      .getByTestId('import-design')
+      .setInputFiles({ name: 'broken.json', mimeType: 'application/json', buffer: Buffer.from('{"schema":"valvewright.design.v1"') });
     await p.page.getByText(/broken\.json is not valid JSON/).waitFor();
     await p.screenshot('bad-import');
     expect(await slotJson(p, 'A')).toBe(atExport);

@@ -23,12 +23,23 @@ const PT = TEMPLATES['pentode-triode']!;
 /** 16-bit PCM WAV of one or more channels (interleaved). */
 function wav16(samples: Float32Array | readonly Float32Array[], rateHz: number): Buffer {
   const chans = samples instanceof Float32Array ? [samples] : samples;
-  const nc = chans.length, n = chans[0]!.length, bytes = n * nc * 2;
+  const nc = chans.length,
+    n = chans[0]!.length,
+    bytes = n * nc * 2;
   const b = Buffer.alloc(44 + bytes);
-  b.write('RIFF', 0); b.writeUInt32LE(36 + bytes, 4); b.write('WAVE', 8);
-  b.write('fmt ', 12); b.writeUInt32LE(16, 16); b.writeUInt16LE(1, 20); b.writeUInt16LE(nc, 22);
-  b.writeUInt32LE(rateHz, 24); b.writeUInt32LE(rateHz * 2 * nc, 28); b.writeUInt16LE(2 * nc, 32); b.writeUInt16LE(16, 34);
-  b.write('data', 36); b.writeUInt32LE(bytes, 40);
+  b.write('RIFF', 0);
+  b.writeUInt32LE(36 + bytes, 4);
+  b.write('WAVE', 8);
+  b.write('fmt ', 12);
+  b.writeUInt32LE(16, 16);
+  b.writeUInt16LE(1, 20);
+  b.writeUInt16LE(nc, 22);
+  b.writeUInt32LE(rateHz, 24);
+  b.writeUInt32LE(rateHz * 2 * nc, 28);
+  b.writeUInt16LE(2 * nc, 32);
+  b.writeUInt16LE(16, 34);
+  b.write('data', 36);
+  b.writeUInt32LE(bytes, 40);
   for (let k = 0; k < n; k++) for (let c = 0; c < nc; c++) b.writeInt16LE(Math.round(Math.max(-1, Math.min(1, chans[c]![k]!)) * 32767), 44 + 2 * (k * nc + c));
   return b;
 }
@@ -39,7 +50,10 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
   let browser: Browser;
   const tmp = mkdtempSync(join(tmpdir(), 'vw-browser-'));
   const api = <K extends keyof HarnessApi>(name: K, ...args: Parameters<HarnessApi[K]>) =>
-    browser.page.evaluate(([n, a]) => ((window as unknown as { vw: Record<string, (...x: unknown[]) => unknown> }).vw[n as string]!(...(a as unknown[]))), [name, args] as const) as ReturnType<HarnessApi[K]>;
+    browser.page.evaluate(([n, a]) => (window as unknown as { vw: Record<string, (...x: unknown[]) => unknown> }).vw[n as string]!(...(a as unknown[])), [
+      name,
+      args,
+    ] as const) as ReturnType<HarnessApi[K]>;
 
   beforeAll(async () => {
     await installShim(FS);
@@ -58,16 +72,26 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     const noise = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648 - 0.5) * 0.05;
     const x = Float32Array.from({ length: n }, (_, k) => 0.6 * Math.sin((2 * Math.PI * 220 * k) / FS) + noise());
     for (const monitor of ['A', 'B'] as const) {
-      const init: ProcessorInit = { meterHz: 0, initial: [
-        { type: 'load-design', slot: 'A', design: TT }, { type: 'load-design', slot: 'B', design: PT },
-        { type: 'set-input-calibration', voltsAtFullScale: 0.3 }, { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 50 },
-        { type: 'set-output-scale', slot: 'B', voltsAtFullScale: 50 }, { type: 'monitor', target: monitor },
-      ] satisfies ToProcessor[] };
+      const init: ProcessorInit = {
+        meterHz: 0,
+        initial: [
+          { type: 'load-design', slot: 'A', design: TT },
+          { type: 'load-design', slot: 'B', design: PT },
+          { type: 'set-input-calibration', voltsAtFullScale: 0.3 },
+          { type: 'set-output-scale', slot: 'A', voltsAtFullScale: 50 },
+          { type: 'set-output-scale', slot: 'B', voltsAtFullScale: 50 },
+          { type: 'monitor', target: monitor },
+        ] satisfies ToProcessor[],
+      };
       const node = makeProcessor(init, FS).run(x, 128);
       const { output } = await api('renderWorklet', init, Array.from(x), FS);
       expect(output).toHaveLength(n);
-      let worst = 0, energy = 0;
-      for (let k = 0; k < n; k++) { worst = Math.max(worst, Math.abs(output[k]! - node[k]!)); energy += node[k]! ** 2; }
+      let worst = 0,
+        energy = 0;
+      for (let k = 0; k < n; k++) {
+        worst = Math.max(worst, Math.abs(output[k]! - node[k]!));
+        energy += node[k]! ** 2;
+      }
       console.log(`browser vs Node, monitor ${monitor}: max |difference| ${worst.toExponential(2)}`);
       expect(Math.sqrt(energy / n)).toBeGreaterThan(0.05); // a real signal, not silence on both sides
       expect(worst).toBeLessThan(1e-6);
@@ -80,7 +104,11 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     const tone = Float32Array.from({ length: rate * 4 }, (_, k) => 0.5 * Math.sin((2 * Math.PI * 440 * k) / rate));
     const file = join(tmp, 'capture.wav');
     writeFileSync(file, wav16(tone, rate));
-    const live = await openHarness(origin, ['--use-fake-ui-for-media-stream', '--use-fake-device-for-media-stream', `--use-file-for-fake-audio-capture=${file}`]);
+    const live = await openHarness(origin, [
+      '--use-fake-ui-for-media-stream',
+      '--use-fake-device-for-media-stream',
+      `--use-file-for-fake-audio-capture=${file}`,
+    ]);
     try {
       const r = await live.page.evaluate((d) => (window as unknown as { vw: HarnessApi }).vw.liveRun(d, 1.5), TT);
       expect(r.liveBefore).toBe('muted'); // live input starts muted
@@ -88,17 +116,24 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       // the live path's delay, by part: the processing share is the oversampling filters' latency
       // at the live default (DEFAULT_LIVE_FACTOR; under 1 ms, bench/alias.bench.ts)
       const lat = r.latency!;
-      console.log(`live latency: input ${(lat.inputSeconds * 1e3).toFixed(2)} ms, processing ${(lat.processingSeconds * 1e3).toFixed(3)} ms, output ${(lat.outputSeconds * 1e3).toFixed(2)} ms`);
+      console.log(
+        `live latency: input ${(lat.inputSeconds * 1e3).toFixed(2)} ms, processing ${(lat.processingSeconds * 1e3).toFixed(3)} ms, output ${(lat.outputSeconds * 1e3).toFixed(2)} ms`,
+      );
       const want = new OversampledCircuit(designCircuit(TT), r.sampleRateHz, DEFAULT_LIVE_FACTOR).latencySamples / r.sampleRateHz;
       expect(Math.abs(lat.processingSeconds - want)).toBeLessThan(1e-9);
       expect(lat.processingSeconds).toBeLessThan(1e-3);
-      for (const x of [lat.inputSeconds, lat.outputSeconds]) { expect(x).toBeGreaterThanOrEqual(0); expect(x).toBeLessThan(0.5); }
+      for (const x of [lat.inputSeconds, lat.outputSeconds]) {
+        expect(x).toBeGreaterThanOrEqual(0);
+        expect(x).toBeLessThan(0.5);
+      }
       expect(lat.totalSeconds).toBeCloseTo(lat.inputSeconds + lat.processingSeconds + lat.outputSeconds, 12);
       const meters = r.reports.filter((m) => m.type === 'meter');
       expect(meters.length).toBeGreaterThan(20); // ~30 Hz for 1.5 s
       const inPeak = Math.max(...meters.map((m) => m.inputPeakVolts ?? 0));
       const outPeak = Math.max(...meters.map((m) => m.outputPeakDbfs ?? -200));
-      console.log(`live: input peak ${inPeak.toFixed(3)} V, output peak ${outPeak.toFixed(1)} dBFS, spectrum peak ${r.peakHz.toFixed(0)} Hz at ${r.sampleRateHz} Hz`);
+      console.log(
+        `live: input peak ${inPeak.toFixed(3)} V, output peak ${outPeak.toFixed(1)} dBFS, spectrum peak ${r.peakHz.toFixed(0)} Hz at ${r.sampleRateHz} Hz`,
+      );
       // 0.5 full scale x 0.5 V at full scale = 0.25 V at the circuit input (processing off, so unchanged but for 16-bit rounding)
       expect(inPeak).toBeGreaterThan(0.2);
       expect(inPeak).toBeLessThan(0.3);
@@ -120,19 +155,28 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     }
   });
 
-  it('(b3) an interface\'s input 1 or 2 on its own, or both mixed, from a two-channel capture', async () => {
+  it("(b3) an interface's input 1 or 2 on its own, or both mixed, from a two-channel capture", async () => {
     // input 1: 440 Hz at half scale; input 2: 660 Hz at 0.2 of full scale (a guitar and something else)
     const rate = 48000;
     const left = Float32Array.from({ length: rate * 4 }, (_, k) => 0.5 * Math.sin((2 * Math.PI * 440 * k) / rate));
     const right = Float32Array.from({ length: rate * 4 }, (_, k) => 0.2 * Math.sin((2 * Math.PI * 660 * k) / rate));
     const file = join(tmp, 'capture-stereo.wav');
     writeFileSync(file, wav16([left, right], rate));
-    const live = await openHarness(origin, ['--use-fake-ui-for-media-stream', '--use-fake-device-for-media-stream', `--use-file-for-fake-audio-capture=${file}`]);
+    const live = await openHarness(origin, [
+      '--use-fake-ui-for-media-stream',
+      '--use-fake-device-for-media-stream',
+      `--use-file-for-fake-audio-capture=${file}`,
+    ]);
     try {
-      const run = (channel: 1 | 2 | 'mix') => live.page.evaluate(([d, c]) => (window as unknown as { vw: HarnessApi }).vw.liveRun(d, 1.0, { channel: c }), [TT, channel] as const);
+      const run = (channel: 1 | 2 | 'mix') =>
+        live.page.evaluate(([d, c]) => (window as unknown as { vw: HarnessApi }).vw.liveRun(d, 1.0, { channel: c }), [TT, channel] as const);
       const peak = (r: Awaited<ReturnType<typeof run>>) => Math.max(...r.reports.filter((m) => m.type === 'meter').map((m) => m.inputPeakVolts ?? 0));
-      const one = await run(1), two = await run(2), mix = await run('mix');
-      console.log(`capture channels ${one.channels}, inputs listed ${one.inputs}; input peaks: 1 ${peak(one).toFixed(3)} V, 2 ${peak(two).toFixed(3)} V, mixed ${peak(mix).toFixed(3)} V; errors: "${one.error}" "${two.error}" "${mix.error}"`);
+      const one = await run(1),
+        two = await run(2),
+        mix = await run('mix');
+      console.log(
+        `capture channels ${one.channels}, inputs listed ${one.inputs}; input peaks: 1 ${peak(one).toFixed(3)} V, 2 ${peak(two).toFixed(3)} V, mixed ${peak(mix).toFixed(3)} V; errors: "${one.error}" "${two.error}" "${mix.error}"`,
+      );
       expect(one.error).toBe('');
       expect(one.inputs).toBeGreaterThan(0);
       // 0.5 V at full scale (liveRun's calibration): input 1 alone peaks at 0.25 V
@@ -150,7 +194,9 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
       expect(peak(mix)).toBeLessThan(0.18);
       // a take of input 2 records the DI itself: 0.2 FS sine, rms 0.2/sqrt(2) = 0.1414, for as long as it ran
       const take = await live.page.evaluate(() => (window as unknown as { vw: HarnessApi }).vw.takeRun(1.0, 2));
-      console.log(`take: ${take.length} samples at ${take.sampleRateHz} Hz, rms ${take.rms.toFixed(4)}, peak ${take.peak.toFixed(4)}, dropped ${take.dropped}, ${take.during?.toFixed(2)} s while recording`);
+      console.log(
+        `take: ${take.length} samples at ${take.sampleRateHz} Hz, rms ${take.rms.toFixed(4)}, peak ${take.peak.toFixed(4)}, dropped ${take.dropped}, ${take.during?.toFixed(2)} s while recording`,
+      );
       expect(take.dropped).toBe(0);
       // the harness stops the take once the recorder counts 1 s (polled, not slept): the take holds
       // at least what the recorder counted while it ran, whatever the wall clock did
@@ -190,10 +236,18 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
   });
 
   it('(c) the Tone.js graph with a cabinet convolver renders the expected level', async () => {
-    const n = 9600, f = 1000, amp = 0.5;
+    const n = 9600,
+      f = 1000,
+      amp = 0.5;
     const x = Array.from({ length: n }, (_, k) => amp * Math.sin((2 * Math.PI * f * k) / FS));
     // dry monitor at 1x (no filter delay): output = input convolved with the response
-    const init: ProcessorInit = { factor: 1, initial: [{ type: 'set-quality', factor: 1 }, { type: 'monitor', target: 'dry' }] };
+    const init: ProcessorInit = {
+      factor: 1,
+      initial: [
+        { type: 'set-quality', factor: 1 },
+        { type: 'monitor', target: 'dry' },
+      ],
+    };
     const peak = (y: number[]) => Math.max(...y.slice(2000).map(Math.abs));
     const none = await api('renderGraph', init, x, FS, null);
     const unit = await api('renderGraph', init, x, FS, [0.5]);
@@ -201,8 +255,13 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     const two = await api('renderGraph', init, x, FS, taps);
     // Convolution theorem: a sine comes out scaled by |H(e^{jw})| = |sum h_k e^{-jwk}|.
     const w = (2 * Math.PI * f) / FS;
-    const gain = Math.hypot(taps.reduce((s, h, k) => s + h * Math.cos(w * k), 0), taps.reduce((s, h, k) => s - h * Math.sin(w * k), 0));
-    console.log(`cabinet: none ${peak(none).toFixed(5)}, 0.5 impulse ${peak(unit).toFixed(5)}, two taps ${peak(two).toFixed(5)} (expected ${(amp * gain).toFixed(5)})`);
+    const gain = Math.hypot(
+      taps.reduce((s, h, k) => s + h * Math.cos(w * k), 0),
+      taps.reduce((s, h, k) => s - h * Math.sin(w * k), 0),
+    );
+    console.log(
+      `cabinet: none ${peak(none).toFixed(5)}, 0.5 impulse ${peak(unit).toFixed(5)}, two taps ${peak(two).toFixed(5)} (expected ${(amp * gain).toFixed(5)})`,
+    );
     // peak of a sampled 1 kHz sine at 48 kHz is within (1 - cos(pi/48)) of its amplitude
     const tol = 1 - Math.cos(Math.PI / 48) + 1e-4;
     expect(Math.abs(peak(none) / amp - 1)).toBeLessThan(tol);
@@ -210,7 +269,7 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     expect(Math.abs(peak(two) / (amp * gain) - 1)).toBeLessThan(tol);
   });
 
-  it('(e) replies are matched by request id: a refused set-part on slot B leaves slot A\'s pending load alone; tube and quality changes arrive as plans', async () => {
+  it("(e) replies are matched by request id: a refused set-part on slot B leaves slot A's pending load alone; tube and quality changes arrive as plans", async () => {
     const r1 = PT.parts.find((p) => p.kind === 'resistor');
     const v2 = PT.parts.find((p) => p.id === 'V2');
     if (!r1 || r1.kind !== 'resistor' || !v2 || v2.kind !== 'tube') throw new Error('template without a resistor or V2');
@@ -224,6 +283,11 @@ describe.skipIf(!browserAvailable)('in headless Chromium', () => {
     // the retype on A (its plan from the worker) answers its request, on its own at 4x or swapped
     // in with the quality change; both slots end at 2x (plans at the new factor), no error
     expect(r.loadedAfter.some((l) => l.slot === 'A' && l.requestId !== null)).toBe(true);
-    expect(r.loadedAfter.slice(-2).map((l) => `${l.slot}@${l.factor}`).sort()).toEqual(['A@2', 'B@2']);
+    expect(
+      r.loadedAfter
+        .slice(-2)
+        .map((l) => `${l.slot}@${l.factor}`)
+        .sort(),
+    ).toEqual(['A@2', 'B@2']);
   });
 });

@@ -1,13 +1,18 @@
 // Small designs for the check tests: one clean 12AX7 stage and variations with designed-in faults.
 import { DESIGN_SCHEMA, type Design, type Part } from '../../src/dsp/circuit/design.ts';
 
-const k = 1e3, M = 1e6, n = 1e-9, u = 1e-6;
+const k = 1e3,
+  M = 1e6,
+  n = 1e-9,
+  u = 1e-6;
 
 /** A plain cathode-biased 12AX7 stage (common-practice values: 100 k plate, 1.5 k bypassed cathode, 1 M grid). */
 export function cleanStage(extra: Partial<Design> = {}): Design {
   return {
-    schema: DESIGN_SCHEMA, name: 'clean 12AX7 stage',
-    input: { node: 'in', ohms: 10 * k }, output: { node: 'out', loadOhms: 1 * M },
+    schema: DESIGN_SCHEMA,
+    name: 'clean 12AX7 stage',
+    input: { node: 'in', ohms: 10 * k },
+    output: { node: 'out', loadOhms: 1 * M },
     supply: { node: 'bp', volts: 300, ohms: 1 * k, filterFarads: 47 * u },
     parts: [
       { id: 'R1', kind: 'resistor', nodes: ['bp', 'b1'], ohms: 10 * k, tolerance: 0.05 },

@@ -29,33 +29,44 @@ export function fuzzedNetlist(seed: number, index: number): FuzzedNetlist {
     if (what < 0.4) {
       // a value out of range: 10^(±1..±15) times, or an extreme constant
       const f = Math.pow(10, (r() < 0.5 ? -1 : 1) * (1 + 14 * r()));
-      if (e.kind === 'resistor') { e.ohms *= f; done.push(`${e.id} x${f.toExponential(0)}`); }
-      else if (e.kind === 'capacitor') { e.farads *= f; done.push(`${e.id} x${f.toExponential(0)}`); }
-      else if (e.kind === 'dc-source') {
+      if (e.kind === 'resistor') {
+        e.ohms *= f;
+        done.push(`${e.id} x${f.toExponential(0)}`);
+      } else if (e.kind === 'capacitor') {
+        e.farads *= f;
+        done.push(`${e.id} x${f.toExponential(0)}`);
+      } else if (e.kind === 'dc-source') {
         const v = pick([e.volts * f, -e.volts, 1e5, 0]);
-        e.volts = v; if (r() < 0.3) e.ohms = pick([0, 1e-6, 1e9]);
+        e.volts = v;
+        if (r() < 0.3) e.ohms = pick([0, 1e-6, 1e9]);
         done.push(`${e.id} ${v.toExponential(1)} V, ${e.ohms} ohm`);
       } else {
         const m = e.model as unknown as Record<string, number>;
         const key = pick(Object.keys(m).filter((x) => x !== 'name'));
-        m[key] = m[key]! * f; done.push(`${e.id}.${key} x${f.toExponential(0)}`);
+        m[key] = m[key]! * f;
+        done.push(`${e.id}.${key} x${f.toExponential(0)}`);
       }
     } else if (what < 0.65) {
-      els.splice(k, 1); done.push(`removed ${e.id}`);
+      els.splice(k, 1);
+      done.push(`removed ${e.id}`);
     } else if (what < 0.9) {
       // a lead moved to another node, to ground, or to a new (dangling) node
       const to = pick([...nodes, '0', `x${q}`]);
       if (e.kind === 'triode' || e.kind === 'pentode') {
         const t = e.nodes as Record<string, string>;
         const lead = pick(Object.keys(t));
-        t[lead] = to; done.push(`${e.id}.${lead} -> ${to}`);
+        t[lead] = to;
+        done.push(`${e.id}.${lead} -> ${to}`);
       } else {
         const ns = [...e.nodes] as [string, string];
         const j = r() < 0.5 ? 0 : 1;
-        ns[j] = to; (e as { nodes: readonly [string, string] }).nodes = ns; done.push(`${e.id} lead ${j} -> ${to}`);
+        ns[j] = to;
+        (e as { nodes: readonly [string, string] }).nodes = ns;
+        done.push(`${e.id} lead ${j} -> ${to}`);
       }
     } else {
-      input.ohms = pick([0, 1e-9, 1e12]); done.push(`input ohms ${input.ohms}`);
+      input.ohms = pick([0, 1e-9, 1e12]);
+      done.push(`input ohms ${input.ohms}`);
     }
   }
   const netlist: Netlist = { ...base, input, elements: els as NetElement[] };

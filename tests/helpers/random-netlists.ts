@@ -42,7 +42,8 @@ export function randomNetlist(seed: number, index: number): RandomNetlistInfo {
   const pentode = index % 2 === 0;
   const bias1: 'grid-leak' | 'cathode' | 'cathode-bypassed' = (['grid-leak', 'cathode', 'cathode-bypassed'] as const)[Math.floor(index / 2) % 3]!;
   const coupling: 'direct' | 'capacitor' = Math.floor(index / 6) % 2 === 0 ? 'direct' : 'capacitor';
-  const bias2: 'cathode' | 'cathode-bypassed' | 'grid-leak' = coupling === 'direct' ? pick(['cathode', 'cathode-bypassed'] as const) : pick(['cathode', 'cathode-bypassed', 'grid-leak'] as const);
+  const bias2: 'cathode' | 'cathode-bypassed' | 'grid-leak' =
+    coupling === 'direct' ? pick(['cathode', 'cathode-bypassed'] as const) : pick(['cathode', 'cathode-bypassed', 'grid-leak'] as const);
   const strays = rnd() < 0.5;
   // Without grid current a pentode driven positive meets the netlist-v1 pentode law's jump: as
   // Vsk -> 0+ with Vgk > 0, E1 -> Vgk (not 0), and Ip = 0 for Vsk <= 0, so the circuit may have
@@ -69,7 +70,13 @@ export function randomNetlist(seed: number, index: number): RandomNetlistInfo {
     if (bias1 === 'cathode-bypassed') C('C5', 'k1', '0', logU(0.22e-6, 100e-6));
   }
   if (pentode) {
-    els.push({ id: 'V1', kind: 'pentode', nodes: { plate: 'p1', screen: 's1', grid: 'g1', cathode: k1 }, model: EF86, ...(withGrid ? { gridCurrent: GRID } : {}) });
+    els.push({
+      id: 'V1',
+      kind: 'pentode',
+      nodes: { plate: 'p1', screen: 's1', grid: 'g1', cathode: k1 },
+      model: EF86,
+      ...(withGrid ? { gridCurrent: GRID } : {}),
+    });
     R('R3', 'bp1', 'p1', logU(47e3, 2.2e6));
     R('R5', 'bp1', 's1', logU(100e3, 10e6));
     C('C4', 's1', '0', logU(10e-9, 2.2e-6));
@@ -102,7 +109,8 @@ export function randomNetlist(seed: number, index: number): RandomNetlistInfo {
   C('C8', 'p2', 'o1', logU(1e-9, 470e-9));
   R('R9', 'o1', 't1', logU(1e3, 220e3));
   C('C9', 't1', '0', logU(100e-12, 47e-9));
-  const pot = logU(10e3, 2.2e6), setting = 0.02 + 0.96 * rnd();
+  const pot = logU(10e3, 2.2e6),
+    setting = 0.02 + 0.96 * rnd();
   R('R10', 't1', 'out', pot * (1 - setting));
   R('R11', 'out', '0', pot * setting);
   R('R12', 'out', '0', logU(100e3, 10e6));

@@ -10,7 +10,8 @@ export function drive(fs: number, seconds: number, peakVolts: number, withOctave
   const x = new Float64Array(n);
   for (let k = 0; k < n; k++) {
     const t = k / fs;
-    const chord = 0.6 * Math.sin(2 * Math.PI * 110 * t) + 0.3 * Math.sin(2 * Math.PI * 165 * t + 1) + (withOctave ? 0.1 * Math.sin(2 * Math.PI * 440 * t + 2) : 0);
+    const chord =
+      0.6 * Math.sin(2 * Math.PI * 110 * t) + 0.3 * Math.sin(2 * Math.PI * 165 * t + 1) + (withOctave ? 0.1 * Math.sin(2 * Math.PI * 440 * t + 2) : 0);
     x[k] = peakVolts * Math.exp(-4 * t) * chord;
   }
   return x;
@@ -23,8 +24,12 @@ export function drive(fs: number, seconds: number, peakVolts: number, withOctave
  */
 export function errorDb(y: ArrayLike<number>, ref: ArrayLike<number>): number {
   const dc = ref[0]!;
-  let es = 0, ee = 0;
-  for (let k = 0; k < ref.length; k++) { es += (ref[k]! - dc) ** 2; ee += (y[k]! - ref[k]!) ** 2; }
+  let es = 0,
+    ee = 0;
+  for (let k = 0; k < ref.length; k++) {
+    es += (ref[k]! - dc) ** 2;
+    ee += (y[k]! - ref[k]!) ** 2;
+  }
   if (!Number.isFinite(ee)) return Infinity;
   return 10 * Math.log10(ee / es);
 }

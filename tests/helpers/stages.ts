@@ -25,7 +25,11 @@ export function stageChain(stages: number, name = `${stages}-stage chain`): Desi
     { id: 'VOL', kind: 'pot', nodes: ['v', 'out', '0'], ohms: 500e3, taper: 'log', position: 0.3, label: 'volume' },
   );
   return {
-    schema: DESIGN_SCHEMA, name, input: { node: 'in', ohms: 10e3 }, output: { node: 'out', loadOhms: 1e6 },
-    supply: { node: 'bp', volts: 300, ohms: 1e3, filterFarads: 47e-6 }, parts,
+    schema: DESIGN_SCHEMA,
+    name,
+    input: { node: 'in', ohms: 10e3 },
+    output: { node: 'out', loadOhms: 1e6 },
+    supply: { node: 'bp', volts: 300, ohms: 1e3, filterFarads: 47e-6 },
+    parts,
   };
 }

@@ -8,7 +8,12 @@ const mod = ns as unknown as { WaveFile?: WaveFileClass; default?: { WaveFile: W
 export const WaveFile = (mod.WaveFile ?? mod.default?.WaveFile) as WaveFileClass;
 
 /** The header fields tests read from a wavefile decode. */
-export interface WaveFmt { sampleRate: number; bitsPerSample: number; numChannels: number; audioFormat: number }
+export interface WaveFmt {
+  sampleRate: number;
+  bitsPerSample: number;
+  numChannels: number;
+  audioFormat: number;
+}
 
 /** Decodes bytes with wavefile: its header fields and its raw sample values (integer codes for PCM). */
 export function wavefileDecode<T extends Float64Array | Int32Array>(bytes: Uint8Array, type: new (n: number) => T): { fmt: WaveFmt; samples: T } {

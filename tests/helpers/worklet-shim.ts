@@ -55,7 +55,9 @@ export function makeProcessor(init: ProcessorInit = {}, sampleRateHz = 48000): S
   const proc = new ctor({ processorOptions: init });
   return {
     posted,
-    send(m) { proc.port.onmessage?.({ data: structuredClone(m) }); },
+    send(m) {
+      proc.port.onmessage?.({ data: structuredClone(m) });
+    },
     run(input, block = 128) {
       const out = new Float32Array(input.length);
       const o = new Float32Array(block);

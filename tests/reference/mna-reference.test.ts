@@ -14,7 +14,11 @@ const R = (id: string, a: string, b: string, ohms: number): Element => ({ id, ki
 const C = (id: string, a: string, b: string, farads: number): Element => ({ id, kind: 'capacitor', nodes: [a, b], farads });
 const DC = (id: string, plus: string, minus: string, volts: number, ohms = 0): Element => ({ id, kind: 'dc-source', nodes: [plus, minus], volts, ohms });
 const netlist = (inputNode: string, inputOhms: number, outputNode: string, elements: Element[]): unknown => ({
-  schema: SCHEMA, ground: '0', input: { node: inputNode, ohms: inputOhms }, output: { node: outputNode }, elements,
+  schema: SCHEMA,
+  ground: '0',
+  input: { node: inputNode, ohms: inputOhms },
+  output: { node: outputNode },
+  elements,
 });
 const node = (nodes: Record<string, number>, name: string): number => {
   const v = nodes[name];
@@ -31,8 +35,7 @@ const maxAbsDiff = (a: Float64Array, b: ArrayLike<number>): number => {
   for (let i = 0; i < a.length; i++) m = Math.max(m, Math.abs(a[i]! - b[i]!));
   return m;
 };
-const loadFixture = (name: string): unknown =>
-  JSON.parse(readFileSync(new URL(`../fixtures/netlists/${name}.json`, import.meta.url), 'utf8')) as unknown;
+const loadFixture = (name: string): unknown => JSON.parse(readFileSync(new URL(`../fixtures/netlists/${name}.json`, import.meta.url), 'utf8')) as unknown;
 
 describe('linear circuits against analytic results', () => {
   const rOhms = 1000;
@@ -46,7 +49,7 @@ describe('linear circuits against analytic results', () => {
     // H(s) = 1/(1+sRC), s = (2/T)(1-z^-1)/(1+z^-1) (bilinear transform, any DSP handbook):
     // unit step from rest gives y[n] = 1 - k/(k+1)·((k-1)/(k+1))^n with k = 2RC/T.
     const fs = 48000;
-    const k = (2 * rc) * fs;
+    const k = 2 * rc * fs;
     const p = (k - 1) / (k + 1);
     const n = 400;
     const expected = Array.from({ length: n }, (_, i) => 1 - (k / (k + 1)) * p ** i);
@@ -66,7 +69,11 @@ describe('linear circuits against analytic results', () => {
       const y = new Float64Array(x.length);
       let xPrev = 0;
       let yPrev = 0;
-      x.forEach((xi, i) => { y[i] = (xi + xPrev - (1 - k) * yPrev) / (1 + k); xPrev = xi; yPrev = y[i]!; });
+      x.forEach((xi, i) => {
+        y[i] = (xi + xPrev - (1 - k) * yPrev) / (1 + k);
+        xPrev = xi;
+        yPrev = y[i]!;
+      });
       for (const net of [lowPassA, lowPassB]) expect(maxAbsDiff(simulateNetlist(net, x, fs).output, y)).toBeLessThan(1e-9);
     }
     // 2 MHz vs continuous: x = sin(wt) from rest gives y = A·sin(wt - phi) + A·sin(phi)·e^(-t/RC),
@@ -89,9 +96,16 @@ describe('linear circuits against analytic results', () => {
     const net = netlist('in', 0, 'out', [R('R1', 'in', 'out', 10e3), R('R2', 'out', '0', 4.7e3)]);
     const x = Float64Array.from({ length: 64 }, (_, i) => Math.sin(i * 0.7) * 3 + 0.1 * i);
     const { output } = simulateNetlist(net, x, 44100);
-    expect(maxAbsDiff(output, Array.from(x, (v) => (v * 4.7) / 14.7))).toBeLessThan(1e-12);
+    expect(
+      maxAbsDiff(
+        output,
+        Array.from(x, (v) => (v * 4.7) / 14.7),
+      ),
+    ).toBeLessThan(1e-12);
     // dc-source with its own series resistance: V·R2/(Rs+R1+R2) = 12·3/6 V
-    const op = solveOperatingPoint(netlist('in', 1e3, 'out', [DC('B1', 'b', '0', 12, 1e3), R('R1', 'b', 'out', 2e3), R('R2', 'out', '0', 3e3), R('R3', 'in', '0', 1e3)]));
+    const op = solveOperatingPoint(
+      netlist('in', 1e3, 'out', [DC('B1', 'b', '0', 12, 1e3), R('R1', 'b', 'out', 2e3), R('R2', 'out', '0', 3e3), R('R3', 'in', '0', 1e3)]),
+    );
     expect(node(op.nodes, 'out')).toBeCloseTo(6, 12);
     expect(node(op.nodes, 'b')).toBeCloseTo(10, 12);
   });
@@ -109,7 +123,10 @@ describe('linear circuits against analytic results', () => {
       type Cx = readonly [number, number];
       const mul = (a: Cx, b: Cx): Cx => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
       const sub = (a: Cx, b: Cx): Cx => [a[0] - b[0], a[1] - b[1]];
-      const div = (a: Cx, b: Cx): Cx => { const d = b[0] ** 2 + b[1] ** 2; return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d]; };
+      const div = (a: Cx, b: Cx): Cx => {
+        const d = b[0] ** 2 + b[1] ** 2;
+        return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
+      };
       const sc1: Cx = [0, wa * c1];
       const a11: Cx = [1 / r1, wa * (c1 + c2)];
       const a12: Cx = [0, -wa * c2];
@@ -121,10 +138,20 @@ describe('linear circuits against analytic results', () => {
       const y = simulateNetlist(net, x, fs).output;
       // least-squares fit of y over the last 0.1 s (whole cycles) to a·sin + b·cos
       const start = n - Math.round(0.1 * fs);
-      let ss = 0, cc = 0, sc = 0, ys = 0, yc = 0;
+      let ss = 0,
+        cc = 0,
+        sc = 0,
+        ys = 0,
+        yc = 0;
       for (let i = start; i < n; i++) {
-        const s = Math.sin(w * i), co = Math.cos(w * i), yi = y[i]!;
-        ss += s * s; cc += co * co; sc += s * co; ys += yi * s; yc += yi * co;
+        const s = Math.sin(w * i),
+          co = Math.cos(w * i),
+          yi = y[i]!;
+        ss += s * s;
+        cc += co * co;
+        sc += s * co;
+        ys += yi * s;
+        yc += yi * co;
       }
       const det = ss * cc - sc * sc;
       const re = (ys * cc - yc * sc) / det; // sin coefficient = Re H
@@ -139,15 +166,24 @@ describe('linear circuits against analytic results', () => {
     expect(node(solveOperatingPoint(net).nodes, 'm')).toBe(0);
     const x = Float64Array.from({ length: 100 }, (_, i) => Math.cos(i * 0.3));
     // charge balance C1(u - vm) = C2·vm  ->  vm = u·C1/(C1+C2) (gmin leak time constant 4e4 s)
-    expect(maxAbsDiff(simulateNetlist(net, x, 48000).output, Array.from(x, (u) => u / 4))).toBeLessThan(1e-9);
+    expect(
+      maxAbsDiff(
+        simulateNetlist(net, x, 48000).output,
+        Array.from(x, (u) => u / 4),
+      ),
+    ).toBeLessThan(1e-9);
   });
 });
 
 describe('tube models against published model values', () => {
   it('Koren 12AX7 at Vpk 250 V, Vgk -2 V gives Ip 0.952 mA', () => {
     // check-values.md "Koren 12AX7 at 250 V / -2 V (model): Ip 0.952 mA"
-    const net = netlist('in', 1e3, 'p', [R('R0', 'in', '0', 1e6), DC('B1', 'p', '0', 250), DC('B2', '0', 'g', 2),
-      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7 }]);
+    const net = netlist('in', 1e3, 'p', [
+      R('R0', 'in', '0', 1e6),
+      DC('B1', 'p', '0', 250),
+      DC('B2', '0', 'g', 2),
+      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7 },
+    ]);
     const v1 = tube(solveOperatingPoint(net).tubes, 'V1');
     expect(v1.plateAmps * 1e3).toBeCloseTo(0.952, 3);
     expect(v1.plateWatts).toBeCloseTo(v1.plateAmps * 250, 12);
@@ -157,7 +193,12 @@ describe('tube models against published model values', () => {
 
   it('Koren 12AX7 small-signal gm 1.67 mA/V, rp 53.7 k at 250 V / -2 V, and the bypassed-stage gain formula', () => {
     // check-values.md (model): gm 1.67 mA/V, rp 53.7 k. Each sample of a capacitor-free circuit is a DC solve.
-    const triode = (plate: string, grid: string, cathode: string): Element => ({ id: 'V1', kind: 'triode', nodes: { plate, grid, cathode }, model: KOREN_12AX7 });
+    const triode = (plate: string, grid: string, cathode: string): Element => ({
+      id: 'V1',
+      kind: 'triode',
+      nodes: { plate, grid, cathode },
+      model: KOREN_12AX7,
+    });
     // gm: grid driven around 0 V, cathode held at +2 V, plate current sensed in 1 ohm from an ideal 252 V
     const gmNet = netlist('g', 0, 'p', [DC('B1', 'b', '0', 252), R('Rs', 'b', 'p', 1), DC('B2', 'k', '0', 2), triode('p', 'g', 'k')]);
     const dv = 0.01;
@@ -175,7 +216,12 @@ describe('tube models against published model values', () => {
     // gain: plate load 100 k from B+ chosen for Vpk 250 V at 0.952 mA; cathode at a fixed +2 V (perfect bypass).
     // A = mu·Rac/(rp+Rac), mu = gm·rp (check-values.md gain formula, bypassed)
     const loadOhms = 100e3;
-    const gainNet = netlist('g', 0, 'p', [DC('B1', 'b', '0', 252 + 0.952e-3 * loadOhms), R('Rl', 'b', 'p', loadOhms), DC('B2', 'k', '0', 2), triode('p', 'g', 'k')]);
+    const gainNet = netlist('g', 0, 'p', [
+      DC('B1', 'b', '0', 252 + 0.952e-3 * loadOhms),
+      R('Rl', 'b', 'p', loadOhms),
+      DC('B2', 'k', '0', 2),
+      triode('p', 'g', 'k'),
+    ]);
     const op = solveOperatingPoint(gainNet);
     expect(node(op.nodes, 'p') - 2).toBeCloseTo(250, 0);
     const y = simulateNetlist(gainNet, Float64Array.from([1e-3, -1e-3]), 48000).output;
@@ -186,8 +232,12 @@ describe('tube models against published model values', () => {
 
   it('worked example: B+ 330 V, Rp 100 k, Rk 1.5 k unbypassed, 1 M grid leak: Ip 1.07 mA, Vpk 221 V, Vgk -1.61 V', () => {
     // check-values.md worked example (textbook, circuit inferred), tolerance 1 %
-    const net = netlist('g', 1e6, 'p', [DC('B1', 'bp', '0', 330), R('R1', 'bp', 'p', 100e3), R('R2', 'k', '0', 1.5e3),
-      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 }]);
+    const net = netlist('g', 1e6, 'p', [
+      DC('B1', 'bp', '0', 330),
+      R('R1', 'bp', 'p', 100e3),
+      R('R2', 'k', '0', 1.5e3),
+      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 },
+    ]);
     const op = solveOperatingPoint(net);
     const v1 = tube(op.tubes, 'V1');
     const vk = node(op.nodes, 'k');
@@ -198,26 +248,49 @@ describe('tube models against published model values', () => {
     // constant input: transient sample equals the DC point of the same circuit with a dc-source at the grid
     const u = 0.5;
     const y = simulateNetlist(net, new Float64Array(3).fill(u), 48000).output;
-    const withSource = netlist('x', 1e3, 'p', [DC('B1', 'bp', '0', 330), R('R1', 'bp', 'p', 100e3), R('R2', 'k', '0', 1.5e3),
-      DC('B9', 'g', '0', u, 1e6), R('R9', 'x', '0', 1e3),
-      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 }]);
+    const withSource = netlist('x', 1e3, 'p', [
+      DC('B1', 'bp', '0', 330),
+      R('R1', 'bp', 'p', 100e3),
+      R('R2', 'k', '0', 1.5e3),
+      DC('B9', 'g', '0', u, 1e6),
+      R('R9', 'x', '0', 1e3),
+      { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 },
+    ]);
     expect(y[2]!).toBeCloseTo(node(solveOperatingPoint(withSource).nodes, 'p'), 8);
   });
 
   it('Dempwolf-Zolzer grid law: Ig(0) 18.8 uA, Ig(-0.5) 0.13 uA, Ig(+0.5) 249 uA', () => {
     // check-values.md "Grid current from that law (model)"
-    for (const [vgk, microAmps, tolMicroAmps] of [[0, 18.8, 0.05], [-0.5, 0.13, 0.005], [0.5, 249, 0.5]] as const) {
-      const net = netlist('in', 1e3, 'p', [R('R0', 'in', '0', 1e3), DC('B1', 'p', '0', 100), DC('B2', 'g', '0', vgk),
-        { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7, gridCurrent: DZ_12AX7 }]);
+    for (const [vgk, microAmps, tolMicroAmps] of [
+      [0, 18.8, 0.05],
+      [-0.5, 0.13, 0.005],
+      [0.5, 249, 0.5],
+    ] as const) {
+      const net = netlist('in', 1e3, 'p', [
+        R('R0', 'in', '0', 1e3),
+        DC('B1', 'p', '0', 100),
+        DC('B2', 'g', '0', vgk),
+        { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7, gridCurrent: DZ_12AX7 },
+      ]);
       expect(Math.abs(tube(solveOperatingPoint(net).tubes, 'V1').gridAmps * 1e6 - microAmps)).toBeLessThan(tolMicroAmps);
     }
   });
 
   it('grid-leak bias, grounded cathode, coupling cap from the source: 1 M -0.36 V, 4.7 M -0.53 V, 10 M -0.81 V, 22 M -1.77 V', () => {
     // check-values.md "Grid-leak bias ... With the Dempwolf-Zolzer 12AX7 grid law (model)"
-    for (const [gridOhms, volts] of [[1e6, -0.36], [4.7e6, -0.53], [10e6, -0.81], [22e6, -1.77]] as const) {
-      const net = netlist('in', 10e3, 'p', [C('C1', 'in', 'g', 22e-9), R('Rg', 'g', '0', gridOhms), DC('B1', 'bp', '0', 300, 1e3),
-        R('Rp', 'bp', 'p', 100e3), { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7, gridCurrent: DZ_12AX7 }]);
+    for (const [gridOhms, volts] of [
+      [1e6, -0.36],
+      [4.7e6, -0.53],
+      [10e6, -0.81],
+      [22e6, -1.77],
+    ] as const) {
+      const net = netlist('in', 10e3, 'p', [
+        C('C1', 'in', 'g', 22e-9),
+        R('Rg', 'g', '0', gridOhms),
+        DC('B1', 'bp', '0', 300, 1e3),
+        R('Rp', 'bp', 'p', 100e3),
+        { id: 'V1', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: '0' }, model: KOREN_12AX7, gridCurrent: DZ_12AX7 },
+      ]);
       const op = solveOperatingPoint(net);
       expect(Math.abs(node(op.nodes, 'g') - volts)).toBeLessThan(0.006);
       expect(node(op.nodes, 'in')).toBe(0); // capacitor open at DC
@@ -226,8 +299,13 @@ describe('tube models against published model values', () => {
 
   it('EF86 Koren-form fit at Va 250 V, Vg2 140 V, Vg1 -2 V gives Ia 3.06 mA, Ig2 0.56 mA', () => {
     // check-values.md EF86 fit (model values); data sheet 3.0 mA / 0.6 mA at -2.2 V
-    const net = netlist('in', 1e3, 'p', [R('R0', 'in', '0', 1e6), DC('B1', 'p', '0', 250), DC('B3', 's', '0', 140), DC('B2', '0', 'g', 2),
-      { id: 'V1', kind: 'pentode', nodes: { plate: 'p', screen: 's', grid: 'g', cathode: '0' }, model: EF86_FIT }]);
+    const net = netlist('in', 1e3, 'p', [
+      R('R0', 'in', '0', 1e6),
+      DC('B1', 'p', '0', 250),
+      DC('B3', 's', '0', 140),
+      DC('B2', '0', 'g', 2),
+      { id: 'V1', kind: 'pentode', nodes: { plate: 'p', screen: 's', grid: 'g', cathode: '0' }, model: EF86_FIT },
+    ]);
     const v1 = tube(solveOperatingPoint(net).tubes, 'V1');
     expect(Math.abs(v1.plateAmps * 1e3 - 3.06)).toBeLessThan(0.006);
     expect(Math.abs(v1.screenAmps * 1e3 - 0.56)).toBeLessThan(0.006);
@@ -302,12 +380,25 @@ describe('fixtures and solver behaviour', () => {
       [{ ...good, elements: [R('R1', 'in', 'out', -5)] }, /R1.*ohms.*> 0/],
       [{ ...good, elements: [{ id: 'X1', kind: 'inductor', nodes: ['in', 'out'] }] }, /X1.*unknown kind/],
       [{ ...good, elements: [R('R1', 'in', 'out', 1), R('R1', 'out', '0', 1)] }, /duplicate element id "R1"/],
-      [{ ...good, elements: [R('R1', 'in', 'out', 1), { id: 'V1', kind: 'triode', nodes: { plate: 'out', grid: 'in', cathode: '0' }, model: { ...KOREN_12AX7, name: 'other' } }] }, /V1.*koren-triode/],
+      [
+        {
+          ...good,
+          elements: [
+            R('R1', 'in', 'out', 1),
+            { id: 'V1', kind: 'triode', nodes: { plate: 'out', grid: 'in', cathode: '0' }, model: { ...KOREN_12AX7, name: 'other' } },
+          ],
+        },
+        /V1.*koren-triode/,
+      ],
       [{ ...good, output: { node: 'nowhere' } }, /output node "nowhere"/],
     ];
     for (const [net, re] of cases) {
       expect(() => solveOperatingPoint(net)).toThrow(re);
-      try { solveOperatingPoint(net); } catch (e) { expect((e as Error).message).not.toContain('\n'); }
+      try {
+        solveOperatingPoint(net);
+      } catch (e) {
+        expect((e as Error).message).not.toContain('\n');
+      }
     }
     expect(() => simulateNetlist(good, Float64Array.from([0, Number.NaN]), 48000)).toThrow(/sample 1 is not finite/);
     expect(() => simulateNetlist(good, new Float64Array(4), 0)).toThrow(/sampleRateHz/);

@@ -57,11 +57,29 @@ const MAX_STEP_VOLTS = 25; // step limiting: largest node-voltage change per New
 const FLOATING_NODE_GMIN_SIEMENS = 1e-12;
 
 // ---------------------------------------------------------------- parsed circuit
-interface KorenTriodeParams { readonly mu: number; readonly ex: number; readonly kg1: number; readonly kp: number; readonly kvb: number }
-interface KorenPentodeParams extends KorenTriodeParams { readonly kg2: number }
-interface GridLawParams { readonly gg: number; readonly cg: number; readonly xi: number; readonly ig0: number }
+interface KorenTriodeParams {
+  readonly mu: number;
+  readonly ex: number;
+  readonly kg1: number;
+  readonly kp: number;
+  readonly kvb: number;
+}
+interface KorenPentodeParams extends KorenTriodeParams {
+  readonly kg2: number;
+}
+interface GridLawParams {
+  readonly gg: number;
+  readonly cg: number;
+  readonly xi: number;
+  readonly ig0: number;
+}
 /** netlist-v1 "initial-velocity" grid law (docs/netlist-v1.md). */
-interface InitialVelocityGridParams { readonly gg: number; readonly xi: number; readonly cathodeKelvin: number; readonly onsetVolts: number }
+interface InitialVelocityGridParams {
+  readonly gg: number;
+  readonly xi: number;
+  readonly cathodeKelvin: number;
+  readonly onsetVolts: number;
+}
 
 interface Tube {
   readonly id: string;
@@ -76,9 +94,17 @@ interface Tube {
   readonly initialVelocity?: InitialVelocityGridParams;
 }
 
-interface TwoTerminal { readonly id: string; readonly a: number; readonly b: number }
-interface Resistor extends TwoTerminal { readonly ohms: number }
-interface Capacitor extends TwoTerminal { readonly farads: number }
+interface TwoTerminal {
+  readonly id: string;
+  readonly a: number;
+  readonly b: number;
+}
+interface Resistor extends TwoTerminal {
+  readonly ohms: number;
+}
+interface Capacitor extends TwoTerminal {
+  readonly farads: number;
+}
 interface Source extends TwoTerminal {
   /** series resistance; 0 = ideal, solved with an extra branch-current unknown */
   readonly ohms: number;
@@ -167,8 +193,14 @@ function parseNetlist(netlist: unknown): Circuit {
     const where = `element ${id}`;
     if (kind === 'resistor' || kind === 'capacitor' || kind === 'dc-source') {
       const nodes = e['nodes'];
-      if (!Array.isArray(nodes) || nodes.length !== 2 || typeof nodes[0] !== 'string' || typeof nodes[1] !== 'string'
-        || nodes[0].length === 0 || nodes[1].length === 0) {
+      if (
+        !Array.isArray(nodes) ||
+        nodes.length !== 2 ||
+        typeof nodes[0] !== 'string' ||
+        typeof nodes[1] !== 'string' ||
+        nodes[0].length === 0 ||
+        nodes[1].length === 0
+      ) {
         fail(`${where}: "nodes" must be an array of two node names`);
       }
       const a = node(nodes[0]);
@@ -189,8 +221,11 @@ function parseNetlist(netlist: unknown): Circuit {
       if (model['name'] !== wantName) fail(`${where}: model name must be "${wantName}", got ${JSON.stringify(model['name'])}`);
       const mw = `${where} model`;
       const base: KorenTriodeParams = {
-        mu: num(model, 'mu', mw, 'positive'), ex: num(model, 'ex', mw, 'positive'), kg1: num(model, 'kg1', mw, 'positive'),
-        kp: num(model, 'kp', mw, 'positive'), kvb: num(model, 'kvb', mw, 'positive'),
+        mu: num(model, 'mu', mw, 'positive'),
+        ex: num(model, 'ex', mw, 'positive'),
+        kg1: num(model, 'kg1', mw, 'positive'),
+        kp: num(model, 'kp', mw, 'positive'),
+        kvb: num(model, 'kvb', mw, 'positive'),
       };
       let gridLaw: GridLawParams | undefined;
       let initialVelocity: InitialVelocityGridParams | undefined;
@@ -200,14 +235,21 @@ function parseNetlist(netlist: unknown): Circuit {
         const gw = `${where} gridCurrent`;
         if (gc['name'] === 'initial-velocity') initialVelocity = parseInitialVelocity(gc, gw);
         else {
-          if (gc['name'] !== 'dempwolf-zolzer') fail(`${where}: gridCurrent name must be "dempwolf-zolzer" or "initial-velocity", got ${JSON.stringify(gc['name'])}`);
-          gridLaw = { gg: num(gc, 'gg', gw, 'positive'), cg: num(gc, 'cg', gw, 'positive'), xi: num(gc, 'xi', gw, 'positive'), ig0: num(gc, 'ig0', gw, 'nonnegative') };
+          if (gc['name'] !== 'dempwolf-zolzer')
+            fail(`${where}: gridCurrent name must be "dempwolf-zolzer" or "initial-velocity", got ${JSON.stringify(gc['name'])}`);
+          gridLaw = {
+            gg: num(gc, 'gg', gw, 'positive'),
+            cg: num(gc, 'cg', gw, 'positive'),
+            xi: num(gc, 'xi', gw, 'positive'),
+            ig0: num(gc, 'ig0', gw, 'nonnegative'),
+          };
         }
       }
       const laws = { ...(gridLaw ? { gridLaw } : {}), ...(initialVelocity ? { initialVelocity } : {}) };
-      const t: Tube = kind === 'triode'
-        ? { id, pentode: false, plate, grid, cathode, screen, triode: base, ...laws }
-        : { id, pentode: true, plate, grid, cathode, screen, pent: { ...base, kg2: num(model, 'kg2', mw, 'positive') }, ...laws };
+      const t: Tube =
+        kind === 'triode'
+          ? { id, pentode: false, plate, grid, cathode, screen, triode: base, ...laws }
+          : { id, pentode: true, plate, grid, cathode, screen, pent: { ...base, kg2: num(model, 'kg2', mw, 'positive') }, ...laws };
       tubes.push(t);
     } else {
       fail(`${where}: unknown kind ${JSON.stringify(kind)}`);
@@ -245,8 +287,18 @@ function parseNetlist(netlist: unknown): Circuit {
   for (let i = 0; i < nodeCount; i++) if (find(i) !== find(nodeCount)) floatingNodes.push(i);
 
   return {
-    nodeNames, nodeIndex, ground, size: next, nodeCount, resistors, capacitors, dcSources, input,
-    tubes, output, floatingNodes,
+    nodeNames,
+    nodeIndex,
+    ground,
+    size: next,
+    nodeCount,
+    resistors,
+    capacitors,
+    dcSources,
+    input,
+    tubes,
+    output,
+    floatingNodes,
   };
 }
 
@@ -290,7 +342,12 @@ function tubeCurrents(t: Tube, vgk: number, vpk: number, vsk: number, out: Float
 
 // ---------------------------------------------------------------- initial-velocity grid law (spec, exact)
 function parseInitialVelocity(gc: Obj, where: string): InitialVelocityGridParams {
-  const p = { gg: num(gc, 'gg', where, 'positive'), xi: num(gc, 'xi', where, 'positive'), cathodeKelvin: num(gc, 'cathodeKelvin', where, 'positive'), onsetVolts: num(gc, 'onsetVolts', where, 'any') };
+  const p = {
+    gg: num(gc, 'gg', where, 'positive'),
+    xi: num(gc, 'xi', where, 'positive'),
+    cathodeKelvin: num(gc, 'cathodeKelvin', where, 'positive'),
+    onsetVolts: num(gc, 'onsetVolts', where, 'any'),
+  };
   return p;
 }
 
@@ -309,7 +366,10 @@ function luFactor(a: Float64Array, n: number, perm: Int32Array): void {
     let best = Math.abs(a[col * n + col]!);
     for (let r = col + 1; r < n; r++) {
       const v = Math.abs(a[r * n + col]!);
-      if (v > best) { best = v; piv = r; }
+      if (v > best) {
+        best = v;
+        piv = r;
+      }
     }
     if (!(best > 1e-300)) throw new MnaConvergenceError(`mna-reference: singular nodal matrix at unknown ${col} (ideal-source loop or unconnected node?)`);
     perm[col] = piv;
@@ -633,7 +693,9 @@ export function solveOperatingPoint(netlist: unknown): OperatingPoint {
   const c = parseNetlist(netlist);
   const x = operatingPointVector(c);
   const nodes: Record<string, number> = { [c.ground]: 0 };
-  c.nodeNames.forEach((name, i) => { nodes[name] = x[i]!; });
+  c.nodeNames.forEach((name, i) => {
+    nodes[name] = x[i]!;
+  });
   return { nodes, tubes: tubeReport(c, x) };
 }
 
@@ -700,7 +762,9 @@ export function simulateNetlist(netlist: unknown, input: Float64Array, sampleRat
       capVolts[k] = v;
     });
     output[step] = volt(x, c.output);
-    record.forEach((i, r) => { traces[r]![step] = volt(x, i); });
+    record.forEach((i, r) => {
+      traces[r]![step] = volt(x, i);
+    });
   }
   return { output, nodes, newtonIterations: { total: totalIterations, maxPerSample: maxIterations }, continuationSamples };
 }
@@ -729,7 +793,10 @@ class Continuation {
   private readonly trial: SolveState;
   private first = true;
 
-  constructor(private readonly c: Circuit, private readonly st: SolveState) {
+  constructor(
+    private readonly c: Circuit,
+    private readonly st: SolveState,
+  ) {
     const nc = c.capacitors.length;
     this.prevCapVolts = Float64Array.from(st.capVolts);
     this.prevCapAmps = Float64Array.from(st.capAmps);
@@ -765,7 +832,9 @@ class Continuation {
 
   /** Solve the present step into x by continuation; at least `minSteps` sub-steps. */
   solve(newton: Newton, a: Float64Array, x: Float64Array, maxIter: number, minSteps: number): boolean {
-    const st = this.st, tr = this.trial, nc = this.c.capacitors.length;
+    const st = this.st,
+      tr = this.trial,
+      nc = this.c.capacitors.length;
     const set = (lambda: number): void => {
       tr.inputVolts = this.prevInput.volts + lambda * (st.inputVolts - this.prevInput.volts);
       for (let k = 0; k < nc; k++) {

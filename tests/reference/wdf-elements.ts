@@ -12,23 +12,34 @@
 
 /** Inverse of an n x n matrix by Gauss-Jordan elimination with partial pivoting (any numerical-methods text). */
 function invert(m: Float64Array, n: number): Float64Array {
-  const a = Float64Array.from(m), inv = new Float64Array(n * n);
+  const a = Float64Array.from(m),
+    inv = new Float64Array(n * n);
   for (let i = 0; i < n; i++) inv[i * n + i] = 1;
   for (let c = 0; c < n; c++) {
     let p = c;
     for (let r = c + 1; r < n; r++) if (Math.abs(a[r * n + c]!) > Math.abs(a[p * n + c]!)) p = r;
     if (!(Math.abs(a[p * n + c]!) > 1e-300)) throw new Error(`singular matrix at column ${c}`);
     for (let k = 0; k < n; k++) {
-      let t = a[c * n + k]!; a[c * n + k] = a[p * n + k]!; a[p * n + k] = t;
-      t = inv[c * n + k]!; inv[c * n + k] = inv[p * n + k]!; inv[p * n + k] = t;
+      let t = a[c * n + k]!;
+      a[c * n + k] = a[p * n + k]!;
+      a[p * n + k] = t;
+      t = inv[c * n + k]!;
+      inv[c * n + k] = inv[p * n + k]!;
+      inv[p * n + k] = t;
     }
     const d = 1 / a[c * n + c]!;
-    for (let k = 0; k < n; k++) { a[c * n + k]! *= d; inv[c * n + k]! *= d; }
+    for (let k = 0; k < n; k++) {
+      a[c * n + k]! *= d;
+      inv[c * n + k]! *= d;
+    }
     for (let r = 0; r < n; r++) {
       if (r === c) continue;
       const f = a[r * n + c]!;
       if (f === 0) continue;
-      for (let k = 0; k < n; k++) { a[r * n + k]! -= f * a[c * n + k]!; inv[r * n + k]! -= f * inv[c * n + k]!; }
+      for (let k = 0; k < n; k++) {
+        a[r * n + k]! -= f * a[c * n + k]!;
+        inv[r * n + k]! -= f * inv[c * n + k]!;
+      }
     }
   }
   return inv;
@@ -55,18 +66,36 @@ abstract class Leaf implements WaveNode {
   protected b = 0;
   abstract readonly portOhms: number;
   abstract reflect(): number;
-  accept(a: number): void { this.a = a; }
-  get volts(): number { return (this.a + this.b) / 2; }
-  get amps(): number { return (this.a - this.b) / (2 * this.portOhms); }
-  protected changed(): void { this.parent?.childChanged(); }
+  accept(a: number): void {
+    this.a = a;
+  }
+  get volts(): number {
+    return (this.a + this.b) / 2;
+  }
+  get amps(): number {
+    return (this.a - this.b) / (2 * this.portOhms);
+  }
+  protected changed(): void {
+    this.parent?.childChanged();
+  }
 }
 
 /** Adapted resistor: b = 0 (Fettweis 1986, resistor with R_port = R). */
 export class Resistor extends Leaf {
-  constructor(private ohms: number) { super(); }
-  get portOhms(): number { return this.ohms; }
-  setOhms(ohms: number): void { this.ohms = ohms; this.changed(); }
-  reflect(): number { this.b = 0; return 0; }
+  constructor(private ohms: number) {
+    super();
+  }
+  get portOhms(): number {
+    return this.ohms;
+  }
+  setOhms(ohms: number): void {
+    this.ohms = ohms;
+    this.changed();
+  }
+  reflect(): number {
+    this.b = 0;
+    return 0;
+  }
 }
 
 /**
@@ -77,13 +106,19 @@ export class Resistor extends Leaf {
 export class Capacitor extends Leaf {
   private ohms: number;
   private state = 0;
-  constructor(private farads: number, private sampleRateHz: number) {
+  constructor(
+    private farads: number,
+    private sampleRateHz: number,
+  ) {
     super();
     this.ohms = 1 / (2 * farads * sampleRateHz);
   }
-  get portOhms(): number { return this.ohms; }
+  get portOhms(): number {
+    return this.ohms;
+  }
   setFarads(farads: number): void {
-    const v = this.volts, i = this.amps;
+    const v = this.volts,
+      i = this.amps;
     this.farads = farads;
     this.ohms = 1 / (2 * farads * this.sampleRateHz);
     this.state = v + this.ohms * i;
@@ -92,17 +127,40 @@ export class Capacitor extends Leaf {
     this.changed();
   }
   /** Start at a DC voltage (no current). */
-  setVolts(v: number): void { this.state = v; this.a = v; this.b = v; }
-  reflect(): number { this.b = this.state; return this.b; }
-  override accept(a: number): void { this.a = a; this.state = a; }
+  setVolts(v: number): void {
+    this.state = v;
+    this.a = v;
+    this.b = v;
+  }
+  reflect(): number {
+    this.b = this.state;
+    return this.b;
+  }
+  override accept(a: number): void {
+    this.a = a;
+    this.state = a;
+  }
 }
 
 /** Resistive voltage source: EMF behind a series resistance, b = Vs. */
 export class ResistiveVoltageSource extends Leaf {
-  constructor(public emfVolts: number, private ohms: number) { super(); }
-  get portOhms(): number { return this.ohms; }
-  setOhms(ohms: number): void { this.ohms = ohms; this.changed(); }
-  reflect(): number { this.b = this.emfVolts; return this.b; }
+  constructor(
+    public emfVolts: number,
+    private ohms: number,
+  ) {
+    super();
+  }
+  get portOhms(): number {
+    return this.ohms;
+  }
+  setOhms(ohms: number): void {
+    this.ohms = ohms;
+    this.changed();
+  }
+  reflect(): number {
+    this.b = this.emfVolts;
+    return this.b;
+  }
 }
 
 /** A root element (not adapted): reflects in response to the wave from its single child. */
@@ -114,13 +172,17 @@ export interface RootOnePort {
 /** Ideal voltage source at the root: b = 2 Vs - a. */
 export class IdealVoltageSource implements RootOnePort {
   constructor(public emfVolts: number) {}
-  respond(a: number): number { return 2 * this.emfVolts - a; }
+  respond(a: number): number {
+    return 2 * this.emfVolts - a;
+  }
 }
 
 /** Ideal switch at the root: closed (v = 0) b = -a; open (i = 0) b = a. */
 export class Switch implements RootOnePort {
   constructor(public closed: boolean) {}
-  respond(a: number): number { return this.closed ? -a : a; }
+  respond(a: number): number {
+    return this.closed ? -a : a;
+  }
 }
 
 abstract class Adaptor implements WaveNode {
@@ -128,16 +190,25 @@ abstract class Adaptor implements WaveNode {
   protected a = 0;
   protected bUp = 0;
   abstract readonly portOhms: number;
-  constructor(protected readonly left: WaveNode, protected readonly right: WaveNode) {
+  constructor(
+    protected readonly left: WaveNode,
+    protected readonly right: WaveNode,
+  ) {
     left.parent = this;
     right.parent = this;
   }
   abstract reflect(): number;
   abstract accept(a: number): void;
   /** A child's port resistance changed: recompute ours and tell our parent. */
-  childChanged(): void { this.parent?.childChanged(); }
-  get volts(): number { return (this.a + this.bUp) / 2; }
-  get amps(): number { return (this.a - this.bUp) / (2 * this.portOhms); }
+  childChanged(): void {
+    this.parent?.childChanged();
+  }
+  get volts(): number {
+    return (this.a + this.bUp) / 2;
+  }
+  get amps(): number {
+    return (this.a - this.bUp) / (2 * this.portOhms);
+  }
 }
 
 /**
@@ -148,7 +219,9 @@ abstract class Adaptor implements WaveNode {
 export class SeriesAdaptor extends Adaptor {
   private a1 = 0;
   private a2 = 0;
-  get portOhms(): number { return this.left.portOhms + this.right.portOhms; }
+  get portOhms(): number {
+    return this.left.portOhms + this.right.portOhms;
+  }
   reflect(): number {
     this.a1 = this.left.reflect();
     this.a2 = this.right.reflect();
@@ -167,11 +240,14 @@ export class SeriesAdaptor extends Adaptor {
 export class ParallelAdaptor extends Adaptor {
   private a1 = 0;
   private a2 = 0;
-  get portOhms(): number { return 1 / (1 / this.left.portOhms + 1 / this.right.portOhms); }
+  get portOhms(): number {
+    return 1 / (1 / this.left.portOhms + 1 / this.right.portOhms);
+  }
   reflect(): number {
     this.a1 = this.left.reflect();
     this.a2 = this.right.reflect();
-    const g1 = 1 / this.left.portOhms, g2 = 1 / this.right.portOhms;
+    const g1 = 1 / this.left.portOhms,
+      g2 = 1 / this.right.portOhms;
     this.bUp = (g1 * this.a1 + g2 * this.a2) / (g1 + g2);
     return this.bUp;
   }
@@ -185,7 +261,10 @@ export class ParallelAdaptor extends Adaptor {
 
 /** A tree with one unadapted element at its root. */
 export class WdfTree {
-  constructor(private readonly root: RootOnePort, private readonly child: WaveNode) {
+  constructor(
+    private readonly root: RootOnePort,
+    private readonly child: WaveNode,
+  ) {
     child.parent = { childChanged: () => undefined };
   }
   /** One sample: waves up the tree, the root's response back down. */
@@ -211,7 +290,10 @@ export class RTypeRoot {
    * @param nodeCount internal nodes (ground excluded; index -1 is ground)
    * @param ports each child with the two internal nodes its port connects (+ at `a`)
    */
-  constructor(private readonly nodeCount: number, private readonly ports: readonly { readonly child: WaveNode; readonly a: number; readonly b: number }[]) {
+  constructor(
+    private readonly nodeCount: number,
+    private readonly ports: readonly { readonly child: WaveNode; readonly a: number; readonly b: number }[],
+  ) {
     this.aIn = new Float64Array(ports.length);
     this.bOut = new Float64Array(ports.length);
     for (const p of ports) p.child.parent = this;
@@ -219,21 +301,31 @@ export class RTypeRoot {
   }
 
   /** Scattering matrix (row-major, ports x ports), for inspection. */
-  get scattering(): Float64Array { return this.S; }
+  get scattering(): Float64Array {
+    return this.S;
+  }
 
   childChanged(): void {
-    const n = this.nodeCount, np = this.ports.length;
+    const n = this.nodeCount,
+      np = this.ports.length;
     // Unknowns: node voltages (n), the Thevenin internal nodes (np), source currents (np).
     const D = n + 2 * np;
     const X = new Float64Array(D * D);
-    const add = (r: number, c: number, v: number) => { if (r >= 0 && c >= 0) X[r * D + c]! += v; };
+    const add = (r: number, c: number, v: number) => {
+      if (r >= 0 && c >= 0) X[r * D + c]! += v;
+    };
     this.ports.forEach((p, j) => {
       const t = n + j; // node between the source and the port resistance
       const g = 1 / p.child.portOhms;
-      add(t, t, g); add(p.a, p.a, g); add(t, p.a, -g); add(p.a, t, -g);
+      add(t, t, g);
+      add(p.a, p.a, g);
+      add(t, p.a, -g);
+      add(p.a, t, -g);
       const row = n + np + j; // source: v_t - v_b = a_j, current i_j flows from b through the source to t
-      add(row, t, 1); add(row, p.b, -1);
-      add(t, row, 1); add(p.b, row, -1);
+      add(row, t, 1);
+      add(row, p.b, -1);
+      add(t, row, 1);
+      add(p.b, row, -1);
     });
     for (let k = 0; k < n; k++) X[k * D + k]! += 1e-15; // keeps an isolated internal node defined
     const Xi = invert(X, D);

@@ -6,7 +6,8 @@ import { CliError, optNumber, optString, parseArgs } from '../args.ts';
 import { CIRCUIT_OPTIONS, loadCircuitSource, sourceNotes } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
-export const AC_USAGE = 'usage: valvewright ac (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] [--json] [--points N] [--tone-parts ID,ID,... --tone-from NODE]';
+export const AC_USAGE =
+  'usage: valvewright ac (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] [--json] [--points N] [--tone-parts ID,ID,... --tone-from NODE]';
 
 export async function runAc(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, ['json'], [...CIRCUIT_OPTIONS, 'points', 'tone-parts', 'tone-from']);
@@ -22,7 +23,13 @@ export async function runAc(argv: readonly string[], io: CommandIO): Promise<num
   if (given) {
     const from = optString(a, 'tone-from');
     if (!from) throw new CliError('--tone-parts needs --tone-from NODE (the node that drives the network)');
-    tone = { partIds: given.split(',').map((s) => s.trim()).filter(Boolean), drivenFrom: from };
+    tone = {
+      partIds: given
+        .split(',')
+        .map((s) => s.trim())
+        .filter(Boolean),
+      drivenFrom: from,
+    };
   } else {
     const t = identifyToneNetwork(circuit);
     if (t) tone = { partIds: t.elementIds, drivenFrom: t.drivenFrom };
@@ -33,20 +40,38 @@ export async function runAc(argv: readonly string[], io: CommandIO): Promise<num
   const ends = src.fromNetlist || !src.design ? null : toneControlEnds(src.design, op);
   const pick = (r: typeof whole) => ({ magnitudeDb: r.magnitudeDb, phaseDeg: r.phaseDeg });
   const out = {
-    frequenciesHz: f, whole: pick(whole),
+    frequenciesHz: f,
+    whole: pick(whole),
     supply: src.design ? { node: src.design.supply.node, volts: op.nodes[src.design.supply.node] ?? null, fromPowerSupply: src.supply !== null } : null,
-    tone: tone && ideal && driven ? {
-      parts: [...new Set(tone.partIds.map((id) => id.replace(/\.(1|2)$/, '')))], drivenFrom: tone.drivenFrom,
-      // as the circuit drives it (from the stage's output impedance) and loads it
-      sourceOhms: driven.sourceOhms, ...pick(driven.response),
-      idealSource: pick(ideal),
-      control: ends,
-    } : null,
+    tone:
+      tone && ideal && driven
+        ? {
+            parts: [...new Set(tone.partIds.map((id) => id.replace(/\.(1|2)$/, '')))],
+            drivenFrom: tone.drivenFrom,
+            // as the circuit drives it (from the stage's output impedance) and loads it
+            sourceOhms: driven.sourceOhms,
+            ...pick(driven.response),
+            idealSource: pick(ideal),
+            control: ends,
+          }
+        : null,
   };
-  if (a.options.has('json')) { io.out(JSON.stringify(out, null, 2)); return 0; }
-  io.out(`small-signal response of ${src.label} (input EMF to output${out.tone ? `; tone network ${out.tone.parts.join(', ')} driven from node ${out.tone.drivenFrom} through ${(out.tone.sourceOhms / 1e3).toFixed(1)} k` : ''})`);
-  if (ends) io.out(`tone control ${ends.potId}: treble-cut corner ${ends.atPosition0Hz ? `${ends.atPosition0Hz.toFixed(0)} Hz` : 'none'} at 0 (darkest), ${ends.atPosition1Hz ? `${ends.atPosition1Hz.toFixed(0)} Hz` : 'none below 200 kHz'} at 10 (brightest); 10 kHz against 300 Hz: ${ends.tilt0Db.toFixed(1)} dB .. ${ends.tilt1Db.toFixed(1)} dB`);
+  if (a.options.has('json')) {
+    io.out(JSON.stringify(out, null, 2));
+    return 0;
+  }
+  io.out(
+    `small-signal response of ${src.label} (input EMF to output${out.tone ? `; tone network ${out.tone.parts.join(', ')} driven from node ${out.tone.drivenFrom} through ${(out.tone.sourceOhms / 1e3).toFixed(1)} k` : ''})`,
+  );
+  if (ends)
+    io.out(
+      `tone control ${ends.potId}: treble-cut corner ${ends.atPosition0Hz ? `${ends.atPosition0Hz.toFixed(0)} Hz` : 'none'} at 0 (darkest), ${ends.atPosition1Hz ? `${ends.atPosition1Hz.toFixed(0)} Hz` : 'none below 200 kHz'} at 10 (brightest); 10 kHz against 300 Hz: ${ends.tilt0Db.toFixed(1)} dB .. ${ends.tilt1Db.toFixed(1)} dB`,
+    );
   io.out('       Hz    whole dB   phase°     tone dB   phase°   ideal-source dB');
-  f.forEach((hz, i) => io.out(`${hz.toFixed(1).padStart(9)} ${whole.magnitudeDb[i]!.toFixed(2).padStart(10)} ${whole.phaseDeg[i]!.toFixed(1).padStart(8)} ${driven ? driven.response.magnitudeDb[i]!.toFixed(2).padStart(11) + ' ' + driven.response.phaseDeg[i]!.toFixed(1).padStart(8) + ' ' + ideal!.magnitudeDb[i]!.toFixed(2).padStart(12) : ''}`));
+  f.forEach((hz, i) =>
+    io.out(
+      `${hz.toFixed(1).padStart(9)} ${whole.magnitudeDb[i]!.toFixed(2).padStart(10)} ${whole.phaseDeg[i]!.toFixed(1).padStart(8)} ${driven ? driven.response.magnitudeDb[i]!.toFixed(2).padStart(11) + ' ' + driven.response.phaseDeg[i]!.toFixed(1).padStart(8) + ' ' + ideal!.magnitudeDb[i]!.toFixed(2).padStart(12) : ''}`,
+    ),
+  );
   return 0;
 }

@@ -37,20 +37,28 @@ export function benchSignal(sampleRateHz: number, seconds: number): Float64Array
     const t = k / sampleRateHz;
     const tn = t % 1; // re-pluck every second
     let s = 0;
-    for (const f of notes) for (let h = 1; h <= 6; h++) s += Math.sin(2 * Math.PI * f * h * t) * Math.exp(-tn * (2 + h)) / h;
+    for (const f of notes) for (let h = 1; h <= 6; h++) s += (Math.sin(2 * Math.PI * f * h * t) * Math.exp(-tn * (2 + h))) / h;
     x[k] = 0.1 * s;
   }
   return x;
 }
 
-export function benchCase(template: string, factor: OversamplingFactor, seconds: number, baseRateHz = 48000, tubeFunctions: TubeFunctions = 'exact'): BenchCase {
+export function benchCase(
+  template: string,
+  factor: OversamplingFactor,
+  seconds: number,
+  baseRateHz = 48000,
+  tubeFunctions: TubeFunctions = 'exact',
+): BenchCase {
   const design = TEMPLATES[template];
   if (!design) throw new Error(`unknown template ${template}`);
   // Same chain as render/oversampled.ts (interpolator, engine at factor x, decimator), built
   // here so the tube-function option can be passed to the engine.
   const engine = new CircuitEngine(designCircuit(design), baseRateHz * factor, { tubeFunctions });
-  const up = new Oversampler(factor), down = new Oversampler(factor);
-  const hi = new Float64Array(factor), hiOut = new Float64Array(factor);
+  const up = new Oversampler(factor),
+    down = new Oversampler(factor);
+  const hi = new Float64Array(factor),
+    hiOut = new Float64Array(factor);
   const reset = () => {
     engine.resetToOperatingPoint();
     up.reset(0);
@@ -77,7 +85,10 @@ export function benchCase(template: string, factor: OversamplingFactor, seconds:
   if (!Number.isFinite(sink)) throw new Error('bench produced a non-finite output');
   const after = engine.solverStats;
   return {
-    template, oversample: factor, audioSeconds: seconds, computeSeconds,
+    template,
+    oversample: factor,
+    audioSeconds: seconds,
+    computeSeconds,
     realTimeFactor: seconds / computeSeconds,
     realTimeFactorCpu: seconds / Math.max(1e-9, (cpu.user + cpu.system) / 1e6),
     newtonIterationsPerSample: (after.iterations - before.iterations) / Math.max(1, after.solves - before.solves),
@@ -95,13 +106,24 @@ export interface BenchReport {
 }
 
 /** Measure every case in this process. */
-export function benchReport(command: string, names: readonly string[], seconds: number, tubes: readonly TubeFunctions[], runtime: string, line?: (s: string) => void): BenchReport {
+export function benchReport(
+  command: string,
+  names: readonly string[],
+  seconds: number,
+  tubes: readonly TubeFunctions[],
+  runtime: string,
+  line?: (s: string) => void,
+): BenchReport {
   const cases: BenchCase[] = [];
-  for (const tf of tubes) for (const name of names) for (const f of [1, 2, 4, 8] as const) {
-    const c = benchCase(name, f, seconds, 48000, tf);
-    cases.push(c);
-    line?.(`${name.padEnd(16)} ${tf.padEnd(5)} ${String(f).padStart(2)}x  real-time factor ${c.realTimeFactor.toFixed(2)} (cpu ${c.realTimeFactorCpu.toFixed(2)})  ${c.newtonIterationsPerSample.toFixed(2)} Newton iterations/sample`);
-  }
+  for (const tf of tubes)
+    for (const name of names)
+      for (const f of [1, 2, 4, 8] as const) {
+        const c = benchCase(name, f, seconds, 48000, tf);
+        cases.push(c);
+        line?.(
+          `${name.padEnd(16)} ${tf.padEnd(5)} ${String(f).padStart(2)}x  real-time factor ${c.realTimeFactor.toFixed(2)} (cpu ${c.realTimeFactorCpu.toFixed(2)})  ${c.newtonIterationsPerSample.toFixed(2)} Newton iterations/sample`,
+        );
+      }
   return { command, node: process.version, runtime, baseRateHz: 48000, threads: 1, cases };
 }
 
@@ -111,9 +133,14 @@ function runBundled(argv: readonly string[], io: CommandIO): number | null {
   const dir = mkdtempSync(join(tmpdir(), 'valvewright-bench-'));
   try {
     const out = join(dir, 'engine.bench.mjs');
-    const build = spawnSync(process.execPath, ['-e',
-      `require('esbuild').buildSync({ entryPoints: [${JSON.stringify(entry)}], bundle: true, platform: 'node', format: 'esm', outfile: ${JSON.stringify(out)}, logLevel: 'error' })`],
-    { cwd: fileURLToPath(new URL('../../../', import.meta.url)), encoding: 'utf8' });
+    const build = spawnSync(
+      process.execPath,
+      [
+        '-e',
+        `require('esbuild').buildSync({ entryPoints: [${JSON.stringify(entry)}], bundle: true, platform: 'node', format: 'esm', outfile: ${JSON.stringify(out)}, logLevel: 'error' })`,
+      ],
+      { cwd: fileURLToPath(new URL('../../../', import.meta.url)), encoding: 'utf8' },
+    );
     if (build.status !== 0) return null;
     const run = spawnSync(process.execPath, [out, ...argv], { encoding: 'utf8', maxBuffer: 64 << 20, stdio: ['ignore', 'pipe', 'pipe'] });
     for (const l of (run.stdout ?? '').split('\n')) if (l.length > 0) io.out(l);

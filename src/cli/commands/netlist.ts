@@ -4,7 +4,8 @@ import { parseArgs } from '../args.ts';
 import { loadCircuitSource, sourceNotes } from '../circuit-load.ts';
 import type { CommandIO } from '../main.ts';
 
-export const NETLIST_USAGE = 'usage: valvewright netlist --design FILE|TEMPLATE [--set PART.FIELD=VALUE ...]   (a design with a power-supply section is written with the estimated B+)';
+export const NETLIST_USAGE =
+  'usage: valvewright netlist --design FILE|TEMPLATE [--set PART.FIELD=VALUE ...]   (a design with a power-supply section is written with the estimated B+)';
 
 export async function runNetlist(argv: readonly string[], io: CommandIO): Promise<number> {
   const a = parseArgs(argv, [], ['design', 'set']);

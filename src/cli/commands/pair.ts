@@ -15,9 +15,25 @@ import { LoudnessMeter, type LoudnessReport } from '../../dsp/analysis/loudness.
 import { designCircuit, type Design } from '../../dsp/circuit/design.ts';
 import { isOversamplingFactor } from '../../dsp/render/oversampled.ts';
 import {
-  AlignedRender, FLOAT32, PAIR_SHEET_JSON, PAIR_SHEET_MD, PAIR_TOLERANCE_LU, PCM24, buildPairSheet, checkPair, correctPairGains,
-  designSheetEntry, jsonReplacer, pairFileName, pairSheetMarkdown, planPairGains, quantiseBlock,
-  type PairGainPlan, type PairOutputFormat, type PairSideInfo, type PairVariant,
+  AlignedRender,
+  FLOAT32,
+  PAIR_SHEET_JSON,
+  PAIR_SHEET_MD,
+  PAIR_TOLERANCE_LU,
+  PCM24,
+  buildPairSheet,
+  checkPair,
+  correctPairGains,
+  designSheetEntry,
+  jsonReplacer,
+  pairFileName,
+  pairSheetMarkdown,
+  planPairGains,
+  quantiseBlock,
+  type PairGainPlan,
+  type PairOutputFormat,
+  type PairSideInfo,
+  type PairVariant,
 } from '../../dsp/render/pair.ts';
 import type { OversamplingFactor } from '../../dsp/oversampling/oversampler.ts';
 import { CliError, optNumber, optString, parseArgs } from '../args.ts';
@@ -37,7 +53,8 @@ import { renderInParallel } from '../pair-renders.ts';
 export const PAIR_DEFAULT_OVERSAMPLE: OversamplingFactor = 8;
 import type { CommandIO } from '../main.ts';
 
-export const PAIR_USAGE = 'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--set PART.FIELD=VALUE ...] [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
+export const PAIR_USAGE =
+  'usage: valvewright pair --input DI.wav (--design A | --dry) --design B --out DIR [--set PART.FIELD=VALUE ...] [--target-lufs L] [--peak-ceiling DB] [--oversample 1|2|4|8|16|32|64|128] [--input-volts V] [--float] [--force] [--max-memory-mb M] [--json]';
 const BLOCK = 8192;
 const MAX_WRITE_PASSES = 4;
 
@@ -72,7 +89,8 @@ function makeRenderers(sides: readonly Side[], fs: number, factor: OversamplingF
  * `diSink` sees the raw DI channels (for the input's own loudness).
  */
 async function runThroughDi(
-  reader: WavFileReader, renderers: readonly (AlignedRender | null)[],
+  reader: WavFileReader,
+  renderers: readonly (AlignedRender | null)[],
   sink: (side: number, block: Float32Array, n: number) => Promise<void> | void,
   diSink?: (channels: readonly Float32Array[], n: number) => void,
 ): Promise<void> {
@@ -114,7 +132,11 @@ async function runThroughDi(
 }
 
 export async function runPair(argv: readonly string[], io: CommandIO): Promise<number> {
-  const a = parseArgs(argv, ['dry', 'force', 'float', 'json', 'help'], ['input', 'design', 'set', 'out', 'target-lufs', 'peak-ceiling', 'oversample', 'input-volts', 'max-memory-mb']);
+  const a = parseArgs(
+    argv,
+    ['dry', 'force', 'float', 'json', 'help'],
+    ['input', 'design', 'set', 'out', 'target-lufs', 'peak-ceiling', 'oversample', 'input-volts', 'max-memory-mb'],
+  );
   if (a.options.has('help')) {
     io.out(PAIR_USAGE);
     io.out('Renders two designs (or dry and one design) from the same DI, matches their integrated loudness');
@@ -132,10 +154,14 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
   const refs = (a.all.get('design') ?? []).filter((v): v is string => typeof v === 'string');
   if (dry && refs.length !== 1) throw new CliError(`--dry pairs the DI with one design: give exactly one --design (got ${refs.length})`);
   if (!dry && refs.length !== 2) throw new CliError(`give two designs (--design A --design B) or --dry and one --design (got ${refs.length} --design)`);
-  const factor = optNumber(a, 'oversample', PAIR_DEFAULT_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128')) as OversamplingFactor;
+  const factor = optNumber(a, 'oversample', PAIR_DEFAULT_OVERSAMPLE, (x) =>
+    isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128',
+  ) as OversamplingFactor;
   const inputVolts = optNumber(a, 'input-volts', DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   const ceilingDbtp = optNumber(a, 'peak-ceiling', -1, (x) => (x <= 0 && x >= -60 ? null : 'must be between -60 and 0 dBTP'));
-  const targetLufs = a.options.has('target-lufs') ? optNumber(a, 'target-lufs', 0, (x) => (x < 0 && x > -70 ? null : 'must be between -70 and 0 LUFS')) : undefined;
+  const targetLufs = a.options.has('target-lufs')
+    ? optNumber(a, 'target-lufs', 0, (x) => (x < 0 && x > -70 ? null : 'must be between -70 and 0 LUFS'))
+    : undefined;
   const maxMemoryMb = optNumber(a, 'max-memory-mb', 300, (x) => (x >= 0 ? null : 'must be zero or more'));
   const format: PairOutputFormat = a.options.has('float') ? FLOAT32 : PCM24;
   const force = a.options.has('force');
@@ -149,8 +175,14 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
     const fs = h.sampleRate;
     const diName = basename(inPath, extname(inPath));
     const sideSpecs: Omit<Side, 'path'>[] = dry
-      ? [{ variant: 'dry', name: diName }, { variant: 'b', name: designs[0]!.design.name, design: designs[0]! }]
-      : [{ variant: 'a', name: designs[0]!.design.name, design: designs[0]! }, { variant: 'b', name: designs[1]!.design.name, design: designs[1]! }];
+      ? [
+          { variant: 'dry', name: diName },
+          { variant: 'b', name: designs[0]!.design.name, design: designs[0]! },
+        ]
+      : [
+          { variant: 'a', name: designs[0]!.design.name, design: designs[0]! },
+          { variant: 'b', name: designs[1]!.design.name, design: designs[1]! },
+        ];
     const sides: Side[] = sideSpecs.map((s) => ({ ...s, path: join(outDir, pairFileName(s.name, s.variant, fs, format)) }));
     const sheetJsonPath = join(outDir, PAIR_SHEET_JSON);
     const sheetMdPath = join(outDir, PAIR_SHEET_MD);
@@ -174,7 +206,9 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
     const cachePos = [0, 0];
     const meters = sides.map(() => new LoudnessMeter(fs, 1));
     const diMeter = new LoudnessMeter(fs, h.channelCount);
-    io.err(`pass 1: rendering ${sides.map((s) => `${s.variant} (${s.name})`).join(' and ')} from ${inPath}, ${(h.frameCount / fs).toFixed(1)} s at ${factor}x${keep ? ', kept in memory' : ', not kept (will render again)'}`);
+    io.err(
+      `pass 1: rendering ${sides.map((s) => `${s.variant} (${s.name})`).join(' and ')} from ${inPath}, ${(h.frameCount / fs).toFixed(1)} s at ${factor}x${keep ? ', kept in memory' : ', not kept (will render again)'}`,
+    );
     const t0 = Date.now();
     let renderers = makeRenderers(sides, fs, factor, inputVolts);
     const ops = renderers.map((r) => r?.model.engine.operatingPoint() ?? null);
@@ -188,22 +222,41 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
       const progress = (j: number, frames: number): void => {
         done[j] = frames;
         const pct = Math.floor((100 * Math.min(...done)) / h.frameCount);
-        if (pct >= shown + 10) { shown = pct - (pct % 10); io.err(`pass 1: ${shown} % rendered (${((Date.now() - t0) / 1000).toFixed(1)} s)`); }
+        if (pct >= shown + 10) {
+          shown = pct - (pct % 10);
+          io.err(`pass 1: ${shown} % rendered (${((Date.now() - t0) / 1000).toFixed(1)} s)`);
+        }
       };
-      const renders = renderInParallel(jobs.map((j) => j.job), progress);
-      await runThroughDi(reader, sides.map(() => null), (i, b, n) => {
-        if (sides[i]!.design) return;
-        cache[i]!.set(b.subarray(0, n), cachePos[i]);
-        cachePos[i]! += n;
-      }, (chans, n) => diMeter.process(chans, n, 0));
+      const renders = renderInParallel(
+        jobs.map((j) => j.job),
+        progress,
+      );
+      await runThroughDi(
+        reader,
+        sides.map(() => null),
+        (i, b, n) => {
+          if (sides[i]!.design) return;
+          cache[i]!.set(b.subarray(0, n), cachePos[i]);
+          cachePos[i]! += n;
+        },
+        (chans, n) => diMeter.process(chans, n, 0),
+      );
       const results = await renders;
-      jobs.forEach((j, k) => { cache[j.side]!.set(results[k]!.samples.subarray(0, h.frameCount)); nonFinite += results[k]!.nonFiniteSamples; });
+      jobs.forEach((j, k) => {
+        cache[j.side]!.set(results[k]!.samples.subarray(0, h.frameCount));
+        nonFinite += results[k]!.nonFiniteSamples;
+      });
       for (let i = 0; i < sides.length; i++) {
         const c = cache[i]!;
         for (let f = 0; f < c.length; f += BLOCK) meters[i]!.process([c.subarray(f, Math.min(c.length, f + BLOCK))], Math.min(BLOCK, c.length - f), 0);
       }
     } else {
-      await runThroughDi(reader, renderers, (i, b, n) => meters[i]!.process([b], n, 0), (chans, n) => diMeter.process(chans, n, 0));
+      await runThroughDi(
+        reader,
+        renderers,
+        (i, b, n) => meters[i]!.process([b], n, 0),
+        (chans, n) => diMeter.process(chans, n, 0),
+      );
       nonFinite = renderers.reduce((s, r) => s + (r?.nonFiniteSamples ?? 0), 0);
     }
     io.err(`pass 1: rendered in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
@@ -214,7 +267,9 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
     try {
       plan = planPairGains(rendered, { ceilingDbtp, ...(targetLufs !== undefined ? { targetLufs } : {}) });
     } catch (e) {
-      throw new CliError((e as Error).message.replace(/file (\d) of the pair/, (_m, d: string) => `${sides[Number(d) - 1]!.variant} (${sides[Number(d) - 1]!.name})`));
+      throw new CliError(
+        (e as Error).message.replace(/file (\d) of the pair/, (_m, d: string) => `${sides[Number(d) - 1]!.variant} (${sides[Number(d) - 1]!.name})`),
+      );
     }
 
     // Pass 2: gain, quantise, write, measure what was written; correct and repeat if needed.
@@ -254,21 +309,32 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
       }
       await Promise.all(writers.map((w) => w.abort()));
       if (passes >= MAX_WRITE_PASSES) {
-        throw new CliError(`could not match the pair within ${PAIR_TOLERANCE_LU} LU under ${ceilingDbtp} dBTP after ${passes} passes (difference ${check.differenceLu.toFixed(3)} LU): nothing written`);
+        throw new CliError(
+          `could not match the pair within ${PAIR_TOLERANCE_LU} LU under ${ceilingDbtp} dBTP after ${passes} passes (difference ${check.differenceLu.toFixed(3)} LU): nothing written`,
+        );
       }
       plan = correctPairGains(plan, finals);
     }
 
-    const sideInfo = (i: 0 | 1): PairSideInfo => ({ variant: sides[i]!.variant, file: basename(sides[i]!.path), source: sides[i]!.name, rendered: rendered[i], final: finals[i] });
+    const sideInfo = (i: 0 | 1): PairSideInfo => ({
+      variant: sides[i]!.variant,
+      file: basename(sides[i]!.path),
+      source: sides[i]!.name,
+      rendered: rendered[i],
+      final: finals[i],
+    });
     const commandLine = ['valvewright', 'pair', ...argv].map(quoteArg).join(' ');
     const sheet = buildPairSheet({
       commandLine,
       input: { file: inPath, sampleRateHz: fs, channelCount: h.channelCount, frames: h.frameCount, loudness: diReport },
-      oversample: factor, inputVoltsAtFullScale: inputVolts, format,
+      oversample: factor,
+      inputVoltsAtFullScale: inputVolts,
+      format,
       latencyCompensation: latency
         ? `processed renders advanced by ${latency.advanceSamples} samples (oversampler latency ${latency.latencySamples.toFixed(3)} samples, rounded); the dry file is the DI unshifted; every file has the DI's ${h.frameCount} frames`
         : 'none needed (no oversampling latency)',
-      plan, passes,
+      plan,
+      passes,
       sides: [sideInfo(0), sideInfo(1)],
       designs: sides.flatMap((s, i) => (s.design && ops[i] ? [designSheetEntry(s.design.design, s.design.ref, ops[i]!)] : [])),
     });
@@ -277,9 +343,12 @@ export async function runPair(argv: readonly string[], io: CommandIO): Promise<n
 
     io.err(`pair ready in ${((Date.now() - t0) / 1000).toFixed(1)} s for ${(h.frameCount / fs).toFixed(1)} s of DI`);
     if (a.options.has('json')) {
-      io.out(JSON.stringify({ files: sides.map((s) => s.path), sheet: [sheetJsonPath, sheetMdPath], matching: sheet.matching, loudness: sheet.files }, jsonReplacer));
+      io.out(
+        JSON.stringify({ files: sides.map((s) => s.path), sheet: [sheetJsonPath, sheetMdPath], matching: sheet.matching, loudness: sheet.files }, jsonReplacer),
+      );
     } else {
-      for (const f of sheet.files) io.out(`${join(outDir, f.file)}: ${f.integratedLufs.toFixed(2)} LUFS, ${f.truePeakDbtp.toFixed(2)} dBTP, gain ${f.gainDb.toFixed(2)} dB`);
+      for (const f of sheet.files)
+        io.out(`${join(outDir, f.file)}: ${f.integratedLufs.toFixed(2)} LUFS, ${f.truePeakDbtp.toFixed(2)} dBTP, gain ${f.gainDb.toFixed(2)} dB`);
       io.out(`${sheetJsonPath}, ${sheetMdPath}: ${sheet.matching.note}`);
     }
     return 0;

@@ -13,7 +13,11 @@ export async function runParts(argv: readonly string[], io: CommandIO): Promise<
   for (const l of sourceNotes(src)) io.err(l);
   const r = checkCircuit(src.given);
   const rows = partsRows(r.model, r.ratings, r.findings);
-  if (a.options.has('csv')) { io.out(partsCsv(rows).replace(/\r\n$/, '')); return 0; }
-  for (const x of rows) io.out(`${x.ref.padEnd(10)} ${x.kind.padEnd(14)} ${x.value.padEnd(8)} ${x.tolerance.padEnd(6)} ${x.buy.padEnd(14)} ${x.worstCase}  ${x.notes}`);
+  if (a.options.has('csv')) {
+    io.out(partsCsv(rows).replace(/\r\n$/, ''));
+    return 0;
+  }
+  for (const x of rows)
+    io.out(`${x.ref.padEnd(10)} ${x.kind.padEnd(14)} ${x.value.padEnd(8)} ${x.tolerance.padEnd(6)} ${x.buy.padEnd(14)} ${x.worstCase}  ${x.notes}`);
   return 0;
 }

@@ -14,7 +14,8 @@ import { estimateOutputVoltsAtFullScale } from '../../dsp/render/levelling.ts';
 import type { CommandIO } from '../main.ts';
 import { humForRender } from '../hum.ts';
 
-export const RENDER_USAGE = 'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60] [--json]';
+export const RENDER_USAGE =
+  'usage: valvewright render (--design FILE|TEMPLATE | --netlist FILE) [--set PART.FIELD=VALUE ...] --input IN.wav --output OUT.wav [--oversample 1|2|4|8|16|32|64|128] [--antialias on|off] [--input-volts V] [--raw] [--hum 50|60] [--json]';
 /** Output ceiling, dBTP (true peak, ITU-R BS.1770-4 Annex 2 meter: analysis/true-peak.ts). */
 export const RENDER_CEILING_DBTP = -1;
 const BLOCK = 8192;
@@ -34,8 +35,10 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   // --raw: the plain discretisation of the netlist (what the netlist-v1 reference solves);
   // no flag: the root is averaged up to 16x (OversampledCircuit default), plain above
   const antialiasing: Antialiasing | undefined = raw || aaRaw === 'off' ? 'off' : aaRaw === 'on' ? 'averaged' : undefined;
-  const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) => (isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128'));
-  if (raw && a.options.has('oversample')) throw new CliError('--raw renders the plain circuit at the file\'s rate: drop --oversample');
+  const factor = optNumber(a, 'oversample', raw ? 1 : DEFAULT_RENDER_OVERSAMPLE, (x) =>
+    isOversamplingFactor(x) ? null : 'must be 1, 2, 4, 8, 16, 32, 64 or 128',
+  );
+  if (raw && a.options.has('oversample')) throw new CliError("--raw renders the plain circuit at the file's rate: drop --oversample");
   const inputVolts = optNumber(a, 'input-volts', DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, (x) => (x > 0 && x <= 100 ? null : 'must be between 0 and 100 volts'));
   if (raw && a.options.has('input-volts')) throw new CliError('--raw reads input samples as volts: drop --input-volts');
   const humText = optString(a, 'hum');
@@ -47,13 +50,18 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const levelRef = loaded.fromNetlist || !loaded.design ? loaded.circuit : designCircuit(withVolumeFull(loaded.design));
   const reader = await openWavFile(inPath);
   const h = reader.header;
-  if (h.frameCount === 0) { await reader.close(); throw new CliError(`${inPath} has no audio frames`); }
+  if (h.frameCount === 0) {
+    await reader.close();
+    throw new CliError(`${inPath} has no audio frames`);
+  }
   if (h.channelCount > 1) io.err(`note: ${inPath} has ${h.channelCount} channels; mixing to mono`);
   const fs = h.sampleRate;
   const factorT = factor as OversamplingFactor;
   let model: CircuitEngine | OversampledCircuit;
   try {
-    model = raw ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' }) : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
+    model = raw
+      ? new CircuitEngine(loaded.circuit, fs, { antialiasing: 'off' })
+      : new OversampledCircuit(loaded.circuit, fs, factorT, undefined, antialiasing ? { antialiasing } : undefined);
   } catch (e) {
     // e.g. no DC operating point: close the input before the error reaches the user
     await reader.close();
@@ -82,8 +90,11 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
       const now = Date.now();
       if (now - lastReport >= PROGRESS_INTERVAL_MS) {
         lastReport = now;
-        const done = f / h.frameCount, left = ((now - started) / 1000) * (1 / done - 1);
-        io.err(`rendering ${inPath}: ${(100 * done).toFixed(0)} % (${(f / fs).toFixed(1)} of ${(h.frameCount / fs).toFixed(1)} s, about ${left.toFixed(0)} s left)`);
+        const done = f / h.frameCount,
+          left = ((now - started) / 1000) * (1 / done - 1);
+        io.err(
+          `rendering ${inPath}: ${(100 * done).toFixed(0)} % (${(f / fs).toFixed(1)} of ${(h.frameCount / fs).toFixed(1)} s, about ${left.toFixed(0)} s left)`,
+        );
       }
       const n = Math.min(BLOCK, h.frameCount - f);
       await reader.read(f, n, chans);
@@ -95,7 +106,10 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
       for (let k = 0; k < n; k++) {
         if (hum) humEngine.setSourceVolts(hum.sourceId, hum.next());
         let y = model.processSample(mono[k]!);
-        if (!Number.isFinite(y)) { y = 0; nonFinite++; }
+        if (!Number.isFinite(y)) {
+          y = 0;
+          nonFinite++;
+        }
         out[k] = raw ? y : limiter.process(y * outScale);
       }
       if (raw) await writer.write([out], n);
@@ -115,19 +129,36 @@ export async function runRender(argv: readonly string[], io: CommandIO): Promise
   const engine = model instanceof CircuitEngine ? model : model.engine;
   const stats = engine.solverStats;
   const summary = {
-    output: outPath, frames: h.frameCount, sampleRateHz: fs, oversample: raw ? 1 : factor, antialias: engine.averagingDelaySamples > 0, raw,
-    inputVoltsAtFullScale: raw ? null : inputVolts, outputVoltsAtFullScale: raw ? null : 1 / outScale,
+    output: outPath,
+    frames: h.frameCount,
+    sampleRateHz: fs,
+    oversample: raw ? 1 : factor,
+    antialias: engine.averagingDelaySamples > 0,
+    raw,
+    inputVoltsAtFullScale: raw ? null : inputVolts,
+    outputVoltsAtFullScale: raw ? null : 1 / outScale,
     limiterMinGainDb: raw ? null : 20 * Math.log10(limiter.minGain),
     // the model's B+ at its node at rest (the power-supply estimate where the design has one)
-    supplyVolts: loaded.fromNetlist || !loaded.design ? null : engine.operatingPoint().nodes[loaded.design.supply.node] ?? null,
-    ceilingDbtp: raw ? null : RENDER_CEILING_DBTP, truePeakTrimDb: raw ? null : 20 * Math.log10(trimGain), outputTruePeakDbtp: outTruePeakDbtp,
-    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves), newtonFailures: stats.failures, newtonFallbacks: stats.fallbacks, nonFiniteSamples: nonFinite,
+    supplyVolts: loaded.fromNetlist || !loaded.design ? null : (engine.operatingPoint().nodes[loaded.design.supply.node] ?? null),
+    ceilingDbtp: raw ? null : RENDER_CEILING_DBTP,
+    truePeakTrimDb: raw ? null : 20 * Math.log10(trimGain),
+    outputTruePeakDbtp: outTruePeakDbtp,
+    newtonIterationsPerSample: stats.iterations / Math.max(1, stats.solves),
+    newtonFailures: stats.failures,
+    newtonFallbacks: stats.fallbacks,
+    nonFiniteSamples: nonFinite,
   };
   const warning = solverWarning(stats);
   if (warning) io.err(warning);
-  if (!raw) io.err(`input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`);
+  if (!raw)
+    io.err(
+      `input calibration: full scale = ${inputVolts} V peak at the circuit input (--input-volts; the workspace starts from the same ${DEFAULT_INPUT_VOLTS_AT_FULL_SCALE} V)`,
+    );
   if (a.options.has('json')) io.out(JSON.stringify(summary));
-  else io.err(`rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`);
+  else
+    io.err(
+      `rendered ${h.frameCount} frames at ${fs} Hz (${raw ? 'raw volts' : `${factor}x oversampled, limited to ${RENDER_CEILING_DBTP} dBTP true peak${trimGain < 1 ? ` (trimmed ${(20 * Math.log10(trimGain)).toFixed(2)} dB for inter-sample peaks)` : ''}`}) to ${outPath}`,
+    );
   return 0;
 }
 
@@ -164,6 +195,10 @@ async function writeUnderTruePeakCeiling(blocks: Float32Array[], writer: WavFile
  */
 export function solverWarning(stats: SolverStats): string | null {
   if (stats.fallbacks === 0 && stats.failures === 0) return null;
-  return `warning: the circuit solver needed its fallback (continuation) on ${stats.fallbacks} of ${stats.solves} circuit samples`
-    + (stats.failures > 0 ? `, and ${stats.failures} did not converge even so (each held the previous sample: the output there is not the circuit's)` : ' (all converged)');
+  return (
+    `warning: the circuit solver needed its fallback (continuation) on ${stats.fallbacks} of ${stats.solves} circuit samples` +
+    (stats.failures > 0
+      ? `, and ${stats.failures} did not converge even so (each held the previous sample: the output there is not the circuit's)`
+      : ' (all converged)')
+  );
 }

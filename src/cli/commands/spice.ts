@@ -13,8 +13,15 @@ export async function runSpice(argv: readonly string[], io: CommandIO): Promise<
   for (const l of sourceNotes(loaded)) io.err(l);
   const text = toSpice(loaded.netlist, { title: loaded.label });
   const out = optString(a, 'output');
-  if (!out) { io.out(text.replace(/\n$/, '')); return 0; }
-  try { await writeFile(out, text); } catch (e) { throw new CliError(`cannot write ${out} (${(e as NodeJS.ErrnoException).code ?? 'error'})`); }
+  if (!out) {
+    io.out(text.replace(/\n$/, ''));
+    return 0;
+  }
+  try {
+    await writeFile(out, text);
+  } catch (e) {
+    throw new CliError(`cannot write ${out} (${(e as NodeJS.ErrnoException).code ?? 'error'})`);
+  }
   io.err(`wrote ${out}`);
   return 0;
 }

@@ -24,16 +24,28 @@ export function logFrequencies(startHz = 20, stopHz = 20000, points = 61): numbe
 
 /** Sweep a linear network from its '<input>' source (or any AC sources) to outputNode. */
 export function sweep(net: LinearNetwork, outputNode: string, frequenciesHz: readonly number[], inputNode?: string): AcResponse {
-  const re: number[] = [], im: number[] = [], mag: number[] = [], ph: number[] = [];
+  const re: number[] = [],
+    im: number[] = [],
+    mag: number[] = [],
+    ph: number[] = [];
   for (const f of frequenciesHz) {
     const v = solveLinear(net, 2 * Math.PI * f);
-    let r = v.re[outputNode] ?? 0, i = v.im[outputNode] ?? 0;
+    let r = v.re[outputNode] ?? 0,
+      i = v.im[outputNode] ?? 0;
     if (inputNode !== undefined) {
       // transfer relative to a node voltage instead of the source EMF
-      const ar = v.re[inputNode] ?? 0, ai = v.im[inputNode] ?? 0, d = ar * ar + ai * ai;
-      if (d > 0) { const nr = (r * ar + i * ai) / d, ni = (i * ar - r * ai) / d; r = nr; i = ni; }
+      const ar = v.re[inputNode] ?? 0,
+        ai = v.im[inputNode] ?? 0,
+        d = ar * ar + ai * ai;
+      if (d > 0) {
+        const nr = (r * ar + i * ai) / d,
+          ni = (i * ar - r * ai) / d;
+        r = nr;
+        i = ni;
+      }
     }
-    re.push(r); im.push(i);
+    re.push(r);
+    im.push(i);
     const m = Math.hypot(r, i);
     mag.push(m > 0 ? 20 * Math.log10(m) : -400);
     ph.push((Math.atan2(i, r) * 180) / Math.PI);
@@ -46,7 +58,10 @@ function hasTubes(c: EngineCircuit | Netlist): boolean {
 }
 
 /** Whole circuit: input source EMF to output node, linearised at `op` (computed when not given). */
-export function acAnalysis(circuit: EngineCircuit | Netlist, options: { readonly op?: OperatingPoint; readonly frequenciesHz?: readonly number[] } = {}): AcResponse {
+export function acAnalysis(
+  circuit: EngineCircuit | Netlist,
+  options: { readonly op?: OperatingPoint; readonly frequenciesHz?: readonly number[] } = {},
+): AcResponse {
   const op = options.op ?? (hasTubes(circuit) ? new CircuitEngine(circuit, 48000).operatingPoint() : undefined);
   const net = linearNetwork(circuit, { tubes: 'linearised', ...(op ? { op } : {}) });
   return sweep(net, circuit.output.node, options.frequenciesHz ?? logFrequencies());
@@ -89,7 +104,11 @@ function passiveTwoTerminal(e: EngineElement): e is Extract<EngineElement, { kin
 export function identifyToneNetwork(circuit: EngineCircuit | Netlist): ToneNetwork | null {
   const terminals = tubeTerminals(circuit);
   const sourceNodes = new Set<string>();
-  for (const e of circuit.elements) if (e.kind === 'dc-source') { sourceNodes.add(e.nodes[0]); sourceNodes.add(e.nodes[1]); }
+  for (const e of circuit.elements)
+    if (e.kind === 'dc-source') {
+      sourceNodes.add(e.nodes[0]);
+      sourceNodes.add(e.nodes[1]);
+    }
   const passive = (circuit.elements as readonly EngineElement[]).filter(passiveTwoTerminal);
   for (const t of circuit.elements) {
     if (t.kind !== 'triode' && t.kind !== 'pentode') continue;
@@ -108,8 +127,13 @@ export function identifyToneNetwork(circuit: EngineCircuit | Netlist): ToneNetwo
           used.add(e.id);
           const other = e.nodes[0] === n ? e.nodes[1] : e.nodes[0];
           if (other === circuit.ground || other === plate || region.has(other)) continue;
-          if (terminals.has(other) || sourceNodes.has(other)) { used.clear(); region.clear(); break; }
-          region.add(other); queue.push(other);
+          if (terminals.has(other) || sourceNodes.has(other)) {
+            used.clear();
+            region.clear();
+            break;
+          }
+          region.add(other);
+          queue.push(other);
         }
         if (region.size === 0) break;
       }
@@ -134,7 +158,8 @@ export function toneNetworkAc(
   const ids = new Set(network.elementIds);
   const chosen = circuit.elements.filter((e) => ids.has(e.id) || ids.has(designId(e.id)));
   if (chosen.length === 0) throw new RangeError('tone network: none of the given parts is in the circuit');
-  for (const e of chosen) if (!passiveTwoTerminal(e as EngineElement)) throw new RangeError(`tone network: ${e.id} is not a resistor, capacitor or closed switch`);
+  for (const e of chosen)
+    if (!passiveTwoTerminal(e as EngineElement)) throw new RangeError(`tone network: ${e.id} is not a resistor, capacitor or closed switch`);
   const sub: EngineCircuit = {
     ground: circuit.ground,
     input: { node: network.drivenFrom, ohms: options.sourceOhms ?? 0 },
@@ -149,20 +174,36 @@ export function toneNetworkAc(
  * linearised circuit with the network disconnected, input EMF on, solved open and with a test
  * resistor from the driving node to ground (Thevenin: Z = Rt·(Voc/Vl − 1)).
  */
-export function drivingImpedanceOhms(circuit: EngineCircuit | Netlist, op: OperatingPoint, network: { readonly elementIds: readonly string[]; readonly drivenFrom: string }, hertz = 1000): number {
+export function drivingImpedanceOhms(
+  circuit: EngineCircuit | Netlist,
+  op: OperatingPoint,
+  network: { readonly elementIds: readonly string[]; readonly drivenFrom: string },
+  hertz = 1000,
+): number {
   const ids = new Set(network.elementIds);
-  const rest = { ...circuit, elements: (circuit.elements as readonly EngineElement[]).filter((e) => !(ids.has(e.id) || ids.has(designId(e.id)))) } as EngineCircuit;
+  const rest = {
+    ...circuit,
+    elements: (circuit.elements as readonly EngineElement[]).filter((e) => !(ids.has(e.id) || ids.has(designId(e.id)))),
+  } as EngineCircuit;
   const w = 2 * Math.PI * hertz;
   const open = linearNetwork(rest, { tubes: 'linearised', op });
   const testOhms = 10e3;
-  const loaded: LinearNetwork = { ...open, admittances: [...open.admittances, { id: '<test>', a: network.drivenFrom, b: circuit.ground, siemens: 1 / testOhms, farads: 0 }] };
-  const vo = solveLinear(open, w), vl = solveLinear(loaded, w);
+  const loaded: LinearNetwork = {
+    ...open,
+    admittances: [...open.admittances, { id: '<test>', a: network.drivenFrom, b: circuit.ground, siemens: 1 / testOhms, farads: 0 }],
+  };
+  const vo = solveLinear(open, w),
+    vl = solveLinear(loaded, w);
   const n = network.drivenFrom;
-  const or = vo.re[n] ?? 0, oi = vo.im[n] ?? 0, lr = vl.re[n] ?? 0, li = vl.im[n] ?? 0;
+  const or = vo.re[n] ?? 0,
+    oi = vo.im[n] ?? 0,
+    lr = vl.re[n] ?? 0,
+    li = vl.im[n] ?? 0;
   const d = lr * lr + li * li;
   if (!(d > 0)) return 0;
   // Voc / Vl − 1, complex
-  const qr = (or * lr + oi * li) / d - 1, qi = (oi * lr - or * li) / d;
+  const qr = (or * lr + oi * li) / d - 1,
+    qi = (oi * lr - or * li) / d;
   return testOhms * Math.hypot(qr, qi);
 }
 
@@ -171,7 +212,8 @@ export function drivingImpedanceOhms(circuit: EngineCircuit | Netlist, op: Opera
  * impedance (drivingImpedanceOhms), loaded by everything in the network (volume pot, output load).
  */
 export function toneNetworkInCircuit(
-  circuit: EngineCircuit | Netlist, op: OperatingPoint,
+  circuit: EngineCircuit | Netlist,
+  op: OperatingPoint,
   network: { readonly elementIds: readonly string[]; readonly drivenFrom: string; readonly outputNode?: string },
   frequenciesHz?: readonly number[],
 ): { readonly sourceOhms: number; readonly response: AcResponse } {

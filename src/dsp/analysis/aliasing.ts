@@ -59,11 +59,13 @@ export function measureAliasing(signal: Float64Array | Float32Array, fs: number,
   let mean = 0;
   for (let k = 0; k < n; k++) mean += signal[k]!;
   mean /= n;
-  const re = new Float64Array(n), im = new Float64Array(n);
+  const re = new Float64Array(n),
+    im = new Float64Array(n);
   for (let k = 0; k < n; k++) re[k] = (signal[k]! - mean) * w[k]!;
   fftInPlace(re, im);
   const bin = fs / n;
-  let total = 0, alias = 0;
+  let total = 0,
+    alias = 0;
   for (let k = 1; k < n / 2; k++) {
     const p = re[k]! * re[k]! + im[k]! * im[k]!;
     total += p;

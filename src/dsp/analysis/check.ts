@@ -22,7 +22,13 @@ const sortFindings = (f: readonly Finding[]) => [...f].sort((a, b) => ORDER[a.se
 export function checkDesign(design: Design, options: RatingsOptions = {}): CheckResult {
   const circuit = designCircuit(design);
   let op: OperatingPoint | undefined = options.op;
-  if (!op) { try { op = new CircuitEngine(circuit, options.sampleRateHz ?? 48000).operatingPoint(); } catch { op = undefined; } }
+  if (!op) {
+    try {
+      op = new CircuitEngine(circuit, options.sampleRateHz ?? 48000).operatingPoint();
+    } catch {
+      op = undefined;
+    }
+  }
   const cold = coldDcNodes(circuit, { [SUPPLY_ID]: options.unloadedSupplyVolts ?? design.supply.volts });
   const wiring = checkWiring(design, { ...(op ? { warmNodes: op.nodes } : {}), coldNodes: cold });
   const ratings = ratingsSheet(design, { ...options, ...(op ? { op } : {}) });
@@ -44,7 +50,9 @@ export const SMALL_TRANSFORMER_EFFICIENCY = 0.8;
 /** Fuse rating over running primary current so the switch-on surge passes (common practice: about 2x, slow-blow). */
 export const FUSE_HEADROOM = 2;
 /** Miniature fuse ratings, amperes (the R10 series fuse makers list, common practice). */
-export const FUSE_RATINGS_AMPS: readonly number[] = [0.05, 0.063, 0.08, 0.1, 0.125, 0.16, 0.2, 0.25, 0.315, 0.4, 0.5, 0.63, 0.8, 1, 1.25, 1.6, 2, 2.5, 3.15, 4, 5, 6.3, 8, 10];
+export const FUSE_RATINGS_AMPS: readonly number[] = [
+  0.05, 0.063, 0.08, 0.1, 0.125, 0.16, 0.2, 0.25, 0.315, 0.4, 0.5, 0.63, 0.8, 1, 1.25, 1.6, 2, 2.5, 3.15, 4, 5, 6.3, 8, 10,
+];
 
 export function primaryEstimate(design: Design, supply: DesignSupply): PrimaryEstimate | null {
   const ps = design.powerSupply;
@@ -70,10 +78,23 @@ export function supplyFindings(design: Design, supply: DesignSupply): Finding[] 
   const r3 = (x: number) => +x.toPrecision(3);
   const h = e.heater;
   if (h) {
-    if (!h.currentOk) f.push({ severity: 'error', code: 'heater-budget', parts: design.parts.filter((p) => p.kind === 'tube').map((p) => p.id), nodes: [], message: `the heaters draw ${r3(h.totalAmps)} A from a ${h.windingVolts} V winding rated ${h.windingAmps} A (${Math.round(h.usedFraction * 100)} %): the winding overheats and its voltage sags; use a larger heater winding or fewer tubes` });
+    if (!h.currentOk)
+      f.push({
+        severity: 'error',
+        code: 'heater-budget',
+        parts: design.parts.filter((p) => p.kind === 'tube').map((p) => p.id),
+        nodes: [],
+        message: `the heaters draw ${r3(h.totalAmps)} A from a ${h.windingVolts} V winding rated ${h.windingAmps} A (${Math.round(h.usedFraction * 100)} %): the winding overheats and its voltage sags; use a larger heater winding or fewer tubes`,
+      });
     for (const m of h.voltageMismatches) f.push({ severity: 'error', code: 'heater-voltage', parts: [], nodes: [], message: `heater voltage: ${m}` });
   } else if (design.parts.some((p) => p.kind === 'tube')) {
-    f.push({ severity: 'note', code: 'heater-budget-unchecked', parts: [], nodes: [], message: 'the power-supply section gives no heaterWinding: the heater budget is not checked' });
+    f.push({
+      severity: 'note',
+      code: 'heater-budget-unchecked',
+      parts: [],
+      nodes: [],
+      message: 'the power-supply section gives no heaterWinding: the heater budget is not checked',
+    });
   }
   const unloaded = supply.unloadedVolts;
   const caps = [
@@ -84,11 +105,29 @@ export function supplyFindings(design: Design, supply: DesignSupply): Finding[] 
   const buyText = buy.ok ? `${buy.rating} V` : 'a higher rating (or two in series with balancing resistors)';
   for (const c of caps) {
     if (c.rated === undefined) {
-      f.push({ severity: 'note', code: 'supply-capacitor-unrated', parts: [], nodes: [], message: `${c.label}: no rating given; it sees the unloaded ${r3(unloaded)} V at switch-on: buy ${buyText}` });
+      f.push({
+        severity: 'note',
+        code: 'supply-capacitor-unrated',
+        parts: [],
+        nodes: [],
+        message: `${c.label}: no rating given; it sees the unloaded ${r3(unloaded)} V at switch-on: buy ${buyText}`,
+      });
     } else if (unloaded > c.rated) {
-      f.push({ severity: 'error', code: 'supply-capacitor-voltage', parts: [], nodes: [], message: `${c.label} is rated ${c.rated} V but the unloaded B+ is ${r3(unloaded)} V (at switch-on, before the tubes draw current): it will fail, possibly violently; buy ${buyText}` });
+      f.push({
+        severity: 'error',
+        code: 'supply-capacitor-voltage',
+        parts: [],
+        nodes: [],
+        message: `${c.label} is rated ${c.rated} V but the unloaded B+ is ${r3(unloaded)} V (at switch-on, before the tubes draw current): it will fail, possibly violently; buy ${buyText}`,
+      });
     } else if (unloaded > 0.8 * c.rated) {
-      f.push({ severity: 'warning', code: 'supply-capacitor-voltage', parts: [], nodes: [], message: `${c.label} rated ${c.rated} V runs at ${Math.round((100 * unloaded) / c.rated)} % of its rating with the unloaded ${r3(unloaded)} V (keep under 80 %): short life; buy ${buyText}` });
+      f.push({
+        severity: 'warning',
+        code: 'supply-capacitor-voltage',
+        parts: [],
+        nodes: [],
+        message: `${c.label} rated ${c.rated} V runs at ${Math.round((100 * unloaded) / c.rated)} % of its rating with the unloaded ${r3(unloaded)} V (keep under 80 %): short life; buy ${buyText}`,
+      });
     }
   }
   for (const w of e.warnings) {
@@ -96,7 +135,14 @@ export function supplyFindings(design: Design, supply: DesignSupply): Finding[] 
     f.push({ severity: 'warning', code: 'supply', parts: [], nodes: [], message: w });
   }
   const p = primaryEstimate(design, supply);
-  if (p) f.push({ severity: 'note', code: 'mains-fuse', parts: [], nodes: [], message: `primary current about ${r3(p.primaryAmps * 1e3)} mA at ${p.mainsVolts} V (${r3(p.secondaryVoltAmps)} VA on the secondaries, ${SMALL_TRANSFORMER_EFFICIENCY * 100} % transformer efficiency): fit a ${p.fuseAmps >= 1 ? `${p.fuseAmps} A` : `${Math.round(p.fuseAmps * 1000)} mA`} slow-blow (T) mains fuse, about ${FUSE_HEADROOM}x the running current so the switch-on surge passes (common practice)` });
+  if (p)
+    f.push({
+      severity: 'note',
+      code: 'mains-fuse',
+      parts: [],
+      nodes: [],
+      message: `primary current about ${r3(p.primaryAmps * 1e3)} mA at ${p.mainsVolts} V (${r3(p.secondaryVoltAmps)} VA on the secondaries, ${SMALL_TRANSFORMER_EFFICIENCY * 100} % transformer efficiency): fit a ${p.fuseAmps >= 1 ? `${p.fuseAmps} A` : `${Math.round(p.fuseAmps * 1000)} mA`} slow-blow (T) mains fuse, about ${FUSE_HEADROOM}x the running current so the switch-on surge passes (common practice)`,
+    });
   return f;
 }
 
@@ -115,7 +161,9 @@ export function checkCircuit(design: Design, options: RatingsOptions = {}): Wors
   let supply: DesignSupply | null = null;
   const extra: Finding[] = [];
   if (design.powerSupply) {
-    try { supply = designSupply(design); } catch (err) {
+    try {
+      supply = designSupply(design);
+    } catch (err) {
       extra.push({ severity: 'error', code: 'supply-estimate', parts: [], nodes: [], message: `power-supply section: ${(err as Error).message}` });
     }
   }

@@ -49,14 +49,24 @@ export function designSupply(design: Design, section?: PowerSupplySection, optio
   const ps = section ?? design.powerSupply;
   if (!ps) throw new RangeError('design has no "powerSupply" section (transformer, rectifier, reservoir): give one or the supply flags');
   const stages = ps.stages ?? [];
-  const estimateFor = (amps: number) => estimateSupply({
-    secondary: ps.secondary, rectifier: ps.rectifier, mainsHertz: options.mainsHertz ?? ps.mainsHertz, reservoirFarads: ps.reservoirFarads,
-    ...(ps.reservoirRatedVolts !== undefined ? { reservoirRatedVolts: ps.reservoirRatedVolts } : {}),
-    reservoirLoadAmps: stages.length === 0 ? amps : 0,
-    stages: stages.map((s, i) => ({ droppingOhms: s.droppingOhms, farads: s.farads, loadAmps: i === stages.length - 1 ? amps : 0, ...(s.ratedVolts !== undefined ? { ratedVolts: s.ratedVolts } : {}), ...(s.label !== undefined ? { label: s.label } : {}) })),
-    heaters: heaterLoads(design),
-    ...(ps.heaterWinding ? { heaterWinding: ps.heaterWinding } : {}),
-  });
+  const estimateFor = (amps: number) =>
+    estimateSupply({
+      secondary: ps.secondary,
+      rectifier: ps.rectifier,
+      mainsHertz: options.mainsHertz ?? ps.mainsHertz,
+      reservoirFarads: ps.reservoirFarads,
+      ...(ps.reservoirRatedVolts !== undefined ? { reservoirRatedVolts: ps.reservoirRatedVolts } : {}),
+      reservoirLoadAmps: stages.length === 0 ? amps : 0,
+      stages: stages.map((s, i) => ({
+        droppingOhms: s.droppingOhms,
+        farads: s.farads,
+        loadAmps: i === stages.length - 1 ? amps : 0,
+        ...(s.ratedVolts !== undefined ? { ratedVolts: s.ratedVolts } : {}),
+        ...(s.label !== undefined ? { label: s.label } : {}),
+      })),
+      heaters: heaterLoads(design),
+      ...(ps.heaterWinding ? { heaterWinding: ps.heaterWinding } : {}),
+    });
   let d = design;
   let amps = supplyCurrentAmps(d, new CircuitEngine(designCircuit(d), 48000).operatingPoint());
   let est = estimateFor(amps);
@@ -74,9 +84,14 @@ export function designSupply(design: Design, section?: PowerSupplySection, optio
   }
   const last = est.nodes[est.nodes.length - 1]!;
   return {
-    estimate: est, design: d, loadAmps: amps, unloadedVolts: est.unloadedVolts,
-    loadedVolts: op ? op.nodes[design.supply.node] ?? last.dcVolts : last.dcVolts,
-    ripplePeakToPeakVolts: last.ripplePeakToPeakVolts, rippleHertz: est.rippleHertz, iterations: it + 1,
+    estimate: est,
+    design: d,
+    loadAmps: amps,
+    unloadedVolts: est.unloadedVolts,
+    loadedVolts: op ? (op.nodes[design.supply.node] ?? last.dcVolts) : last.dcVolts,
+    ripplePeakToPeakVolts: last.ripplePeakToPeakVolts,
+    rippleHertz: est.rippleHertz,
+    iterations: it + 1,
   };
 }
 
@@ -94,7 +109,8 @@ export class BPlusHum {
   constructor(supply: DesignSupply, sampleRateHz: number) {
     const est = supply.estimate;
     const node = est.nodes[est.nodes.length - 1]!;
-    const rs = supply.design.supply.ohms, c = supply.design.supply.filterFarads;
+    const rs = supply.design.supply.ohms,
+      c = supply.design.supply.filterFarads;
     const emf = supply.design.supply.volts;
     // a whole number of ripple periods: 1 s holds 100 or 120 (or 50, 60) periods exactly
     const n = Math.max(1, Math.round(sampleRateHz));
@@ -103,7 +119,8 @@ export class BPlusHum {
       const hz = h.harmonic * est.rippleHertz;
       if (hz >= 0.45 * sampleRateHz) continue;
       const wrc = 2 * Math.PI * hz * rs * c;
-      const amp = h.amplitudeVolts * Math.hypot(1, wrc), ph = h.phaseRadians + Math.atan(wrc);
+      const amp = h.amplitudeVolts * Math.hypot(1, wrc),
+        ph = h.phaseRadians + Math.atan(wrc);
       const w = (2 * Math.PI * hz) / sampleRateHz;
       for (let j = 0; j < n; j++) this.table[j]! += amp * Math.cos(w * j + ph);
     }

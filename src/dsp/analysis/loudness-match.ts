@@ -40,7 +40,14 @@ export class SlidingLoudness {
     this.ring = new Float64Array(Math.max(1, Math.round(windowSeconds / stepSeconds)));
   }
 
-  reset(): void { this.st.fill(0); this.ring.fill(0); this.pos = 0; this.filled = 0; this.head = 0; this.closed = 0; }
+  reset(): void {
+    this.st.fill(0);
+    this.ring.fill(0);
+    this.pos = 0;
+    this.filled = 0;
+    this.head = 0;
+    this.closed = 0;
+  }
 
   /** Window loudness, LUFS. */
   get lufs(): number {
@@ -48,21 +55,28 @@ export class SlidingLoudness {
   }
 
   /** Whether the window holds its full length of sound. */
-  get full(): boolean { return this.filled === this.ring.length; }
+  get full(): boolean {
+    return this.filled === this.ring.length;
+  }
 
   push(x: Float64Array, off: number, len: number): void {
-    const st = this.st, end = off + len;
+    const st = this.st,
+      end = off + len;
     let i = off;
     while (i < end) {
       const take = Math.min(end - i, this.subLen - this.pos);
       kWeightedEnergy(this.k, st, 0, x, i, i + take);
       // a non-finite sample would poison the window: start again from silence
-      if (!Number.isFinite(st[0]! + st[1]! + st[2]! + st[3]! + st[4]!)) { this.reset(); return; }
+      if (!Number.isFinite(st[0]! + st[1]! + st[2]! + st[3]! + st[4]!)) {
+        this.reset();
+        return;
+      }
       i += take;
       this.pos += take;
       if (this.pos === this.subLen) {
         // close the sub-block: it replaces the oldest in the window
-        const ring = this.ring, h = this.head;
+        const ring = this.ring,
+          h = this.head;
         st[5] = st[5]! - ring[h]! + st[4]!;
         ring[h] = st[4]!;
         st[4] = 0;
@@ -100,12 +114,15 @@ export class LoudnessMatch {
 
   /** B's loudness against A's over the window, dB (NaN while either is silent or not yet measured). */
   get offsetDb(): number {
-    const la = this.a.lufs, lb = this.b.lufs;
+    const la = this.a.lufs,
+      lb = this.b.lufs;
     return la > ABSOLUTE_GATE_LUFS && lb > ABSOLUTE_GATE_LUFS ? lb - la : NaN;
   }
 
   /** The gain applied to B now, dB (0 when the match is off). */
-  get gainDb(): number { return this.enabled ? this.g[0]! : 0; }
+  get gainDb(): number {
+    return this.enabled ? this.g[0]! : 0;
+  }
 
   /**
    * Measure a segment of both slots' levelled outputs and write B's match gain for each sample
@@ -121,17 +138,20 @@ export class LoudnessMatch {
       const off = this.offsetDb;
       // the client pack's gain too (loudness.ts gainToMatchDb): B brought to A
       if (off === off) g[1] = Math.max(-MATCH_RANGE_DB, Math.min(MATCH_RANGE_DB, gainToMatchDb(this.b.lufs, this.a.lufs)));
-      const d = g[1]! - g[0]!, lim = this.slewPerSubBlock * steps;
+      const d = g[1]! - g[0]!,
+        lim = this.slewPerSubBlock * steps;
       g[0] = g[0]! + (d > lim ? lim : d < -lim ? -lim : d);
     }
     const end = this.enabled ? Math.pow(10, g[0]! / 20) : 1;
     const start = g[3]!;
     const inc = len > 0 ? (end - start) / len : 0;
     for (let q = 0; q < len; q++) gainB[q] = start + inc * (q + 1);
-    g[2] = start; g[3] = end;
+    g[2] = start;
+    g[3] = end;
   }
 
   /** Measure the output (after the mix, the master level and the limiter). */
-  measureOutput(y: Float64Array, len: number): void { this.out.push(y, 0, len); }
-
+  measureOutput(y: Float64Array, len: number): void {
+    this.out.push(y, 0, len);
+  }
 }

@@ -120,10 +120,25 @@ function checkSampleRate(sampleRateHz: number): void {
  */
 export function kWeightedEnergy(k: KWeighting, state: Float64Array, at: number, x: ArrayLike<number>, from: number, to: number): void {
   // indexed, not destructured: array destructuring runs an iterator, which allocates on the audio path
-  const sb = k.shelf.b, sa = k.shelf.a, hb = k.highPass.b, ha = k.highPass.a;
-  const b0 = sb[0], b1 = sb[1], b2 = sb[2], a1 = sa[1], a2 = sa[2];
-  const c0 = hb[0], c1 = hb[1], c2 = hb[2], d1 = ha[1], d2 = ha[2];
-  let s1 = state[at]!, s2 = state[at + 1]!, t1 = state[at + 2]!, t2 = state[at + 3]!, e = state[at + 4]!;
+  const sb = k.shelf.b,
+    sa = k.shelf.a,
+    hb = k.highPass.b,
+    ha = k.highPass.a;
+  const b0 = sb[0],
+    b1 = sb[1],
+    b2 = sb[2],
+    a1 = sa[1],
+    a2 = sa[2];
+  const c0 = hb[0],
+    c1 = hb[1],
+    c2 = hb[2],
+    d1 = ha[1],
+    d2 = ha[2];
+  let s1 = state[at]!,
+    s2 = state[at + 1]!,
+    t1 = state[at + 2]!,
+    t2 = state[at + 3]!,
+    e = state[at + 4]!;
   for (let j = from; j < to; j++) {
     const v = x[j] ?? 0;
     const u = b0 * v + s1;
@@ -134,7 +149,11 @@ export function kWeightedEnergy(k: KWeighting, state: Float64Array, at: number, 
     t2 = c2 * u - d2 * y;
     e += y * y;
   }
-  state[at] = s1; state[at + 1] = s2; state[at + 2] = t1; state[at + 3] = t2; state[at + 4] = e;
+  state[at] = s1;
+  state[at + 1] = s2;
+  state[at + 2] = t1;
+  state[at + 3] = t2;
+  state[at + 4] = e;
 }
 
 /** Loudness of a K-weighted, channel-weighted mean square, LUFS (BS.1770-4 eq. 2). Shared with the live match. */
@@ -373,11 +392,7 @@ function loudnessRange(shortTerm: Float64Array): number {
 }
 
 /** Measures a whole signal. Mono is one channel; stereo/3-channel weights are 1.0. */
-export function measureLoudness(
-  channels: readonly (Float32Array | Float64Array)[],
-  sampleRateHz: number,
-  options: LoudnessOptions = {},
-): LoudnessReport {
+export function measureLoudness(channels: readonly (Float32Array | Float64Array)[], sampleRateHz: number, options: LoudnessOptions = {}): LoudnessReport {
   if (channels.length === 0) throw new Error('loudness needs at least one channel');
   const n = channels[0]?.length ?? 0;
   for (let c = 1; c < channels.length; c++) {

@@ -50,16 +50,21 @@ export function runStream(seed: number, run: number): () => number {
 
 function tolOf(p: Part): number {
   switch (p.kind) {
-    case 'resistor': return p.tolerance ?? DEFAULT_TOLERANCE.resistor;
-    case 'capacitor': return p.tolerance ?? (p.polarized ? DEFAULT_TOLERANCE.electrolytic : DEFAULT_TOLERANCE.capacitor);
-    case 'pot': return p.tolerance ?? DEFAULT_TOLERANCE.pot;
-    default: return 0;
+    case 'resistor':
+      return p.tolerance ?? DEFAULT_TOLERANCE.resistor;
+    case 'capacitor':
+      return p.tolerance ?? (p.polarized ? DEFAULT_TOLERANCE.electrolytic : DEFAULT_TOLERANCE.capacitor);
+    case 'pot':
+      return p.tolerance ?? DEFAULT_TOLERANCE.pot;
+    default:
+      return 0;
   }
 }
 
 /** The factors of run k: tube samples uniform over 0.66..1.33 x, values uniform within ±tolerance. Run 0 is nominal. */
 export function runFactors(design: Design, seed: number, run: number): { tubeSamples: Record<string, number>; partFactors: Record<string, number> } {
-  const tubeSamples: Record<string, number> = {}, partFactors: Record<string, number> = {};
+  const tubeSamples: Record<string, number> = {},
+    partFactors: Record<string, number> = {};
   const rnd = runStream(seed, run);
   for (const p of design.parts) {
     const u = rnd();
@@ -71,8 +76,13 @@ export function runFactors(design: Design, seed: number, run: number): { tubeSam
 
 /** The contact-potential shifts of run k, uniform within ±CONTACT_POTENTIAL_SPREAD_VOLTS (run 0: none). */
 export function runContactVolts(design: Design, seed: number, run: number): Record<string, number> {
-  const rnd = runStream(seed ^ 0x5bd1e995, run), out: Record<string, number> = {};
-  for (const p of design.parts) if (p.kind === 'tube') { const u = rnd(); out[p.id] = run === 0 ? 0 : CONTACT_POTENTIAL_SPREAD_VOLTS * (2 * u - 1); }
+  const rnd = runStream(seed ^ 0x5bd1e995, run),
+    out: Record<string, number> = {};
+  for (const p of design.parts)
+    if (p.kind === 'tube') {
+      const u = rnd();
+      out[p.id] = run === 0 ? 0 : CONTACT_POTENTIAL_SPREAD_VOLTS * (2 * u - 1);
+    }
   return out;
 }
 
@@ -94,11 +104,16 @@ export function variedDesign(design: Design, tubeSamples: Readonly<Record<string
     parts: design.parts.map((p): Part => {
       const f = partFactors[p.id] ?? 1;
       switch (p.kind) {
-        case 'tube': return { ...p, sample: p.sample * (tubeSamples[p.id] ?? 1) };
-        case 'resistor': return { ...p, ohms: p.ohms * f };
-        case 'capacitor': return { ...p, farads: p.farads * f };
-        case 'pot': return { ...p, ohms: p.ohms * f };
-        default: return p;
+        case 'tube':
+          return { ...p, sample: p.sample * (tubeSamples[p.id] ?? 1) };
+        case 'resistor':
+          return { ...p, ohms: p.ohms * f };
+        case 'capacitor':
+          return { ...p, farads: p.farads * f };
+        case 'pot':
+          return { ...p, ohms: p.ohms * f };
+        default:
+          return p;
       }
     }),
   };
@@ -127,9 +142,12 @@ export function biasFailures(design: Design, op: OperatingPoint): string[] {
     if (t.vgk > 0.2) out.push(`${p.id} grid ${t.vgk.toFixed(2)} V above its cathode (grid conducts at idle)`);
     if (t.plateWatts > R.plateWatts) out.push(`${p.id} plate ${t.plateWatts.toFixed(2)} W over ${R.plateWatts} W`);
     if (t.vpk > R.plateVolts) out.push(`${p.id} plate ${t.vpk.toFixed(0)} V over ${R.plateVolts} V`);
-    if (t.kind === 'pentode' && R.screenWatts !== undefined && t.screenWatts > R.screenWatts) out.push(`${p.id} screen ${t.screenWatts.toFixed(2)} W over ${R.screenWatts} W`);
-    if (R.cathodeAmps !== undefined && t.cathodeAmps > R.cathodeAmps) out.push(`${p.id} cathode ${(t.cathodeAmps * 1e3).toFixed(1)} mA over ${R.cathodeAmps * 1e3} mA`);
-    if (Math.abs(vk - (p.heaterVolts ?? 0)) > R.heaterCathodeVolts) out.push(`${p.id} heater-cathode ${Math.abs(vk - (p.heaterVolts ?? 0)).toFixed(0)} V over ${R.heaterCathodeVolts} V`);
+    if (t.kind === 'pentode' && R.screenWatts !== undefined && t.screenWatts > R.screenWatts)
+      out.push(`${p.id} screen ${t.screenWatts.toFixed(2)} W over ${R.screenWatts} W`);
+    if (R.cathodeAmps !== undefined && t.cathodeAmps > R.cathodeAmps)
+      out.push(`${p.id} cathode ${(t.cathodeAmps * 1e3).toFixed(1)} mA over ${R.cathodeAmps * 1e3} mA`);
+    if (Math.abs(vk - (p.heaterVolts ?? 0)) > R.heaterCathodeVolts)
+      out.push(`${p.id} heater-cathode ${Math.abs(vk - (p.heaterVolts ?? 0)).toFixed(0)} V over ${R.heaterCathodeVolts} V`);
   }
   return out;
 }
@@ -147,7 +165,18 @@ export function spreadRun(design: Design, seed: number, run: number, options: Sp
     engine = new CircuitEngine(circuit, fs);
     op = engine.operatingPoint();
   } catch (err) {
-    return { run, tubeSamples, contactVolts, partFactors, biased: false, failures: [`no operating point: ${(err as Error).message}`], tubes: {}, nodes: {}, gainDb1k: null, outputPeakVolts: null };
+    return {
+      run,
+      tubeSamples,
+      contactVolts,
+      partFactors,
+      biased: false,
+      failures: [`no operating point: ${(err as Error).message}`],
+      tubes: {},
+      nodes: {},
+      gainDb1k: null,
+      outputPeakVolts: null,
+    };
   }
   const failures = biasFailures(d, op);
   const gain = gainAt(circuit, op, 1000);
@@ -161,10 +190,29 @@ export function spreadRun(design: Design, seed: number, run: number, options: Sp
   }
   const tubes: Record<string, { plateAmps: number; vgk: number; vpk: number; plateWatts: number }> = {};
   for (const [id, t] of Object.entries(op.tubes)) tubes[id] = { plateAmps: t.plateAmps, vgk: t.vgk, vpk: t.vpk, plateWatts: t.plateWatts };
-  return { run, tubeSamples, contactVolts, partFactors, biased: failures.length === 0, failures, tubes, nodes: op.nodes, gainDb1k: gain > 0 ? 20 * Math.log10(gain) : null, outputPeakVolts: peak };
+  return {
+    run,
+    tubeSamples,
+    contactVolts,
+    partFactors,
+    biased: failures.length === 0,
+    failures,
+    tubes,
+    nodes: op.nodes,
+    gainDb1k: gain > 0 ? 20 * Math.log10(gain) : null,
+    outputPeakVolts: peak,
+  };
 }
 
-export interface Stats { readonly min: number; readonly p5: number; readonly median: number; readonly p95: number; readonly max: number; readonly mean: number; readonly sd: number }
+export interface Stats {
+  readonly min: number;
+  readonly p5: number;
+  readonly median: number;
+  readonly p95: number;
+  readonly max: number;
+  readonly mean: number;
+  readonly sd: number;
+}
 
 export function stats(xs: readonly number[]): Stats | null {
   if (xs.length === 0) return null;
@@ -180,7 +228,9 @@ export interface SpreadSummary {
   readonly seed: number;
   readonly nominal: SpreadRun;
   /** Per tube: plate current, grid bias (Vgk, with the contact-potential spread) and plate voltage; contactVolts: the drawn shifts. */
-  readonly tubes: Readonly<Record<string, { readonly plateAmps: Stats | null; readonly vgk: Stats | null; readonly vpk: Stats | null; readonly contactVolts: Stats | null }>>;
+  readonly tubes: Readonly<
+    Record<string, { readonly plateAmps: Stats | null; readonly vgk: Stats | null; readonly vpk: Stats | null; readonly contactVolts: Stats | null }>
+  >;
   /** The contact-potential distribution used (see CONTACT_POTENTIAL_SPREAD_VOLTS). */
   readonly contactPotential: { readonly distribution: 'uniform'; readonly halfWidthVolts: number };
   readonly gainDb1k: Stats | null;
@@ -197,13 +247,19 @@ export function summariseSpread(design: Design, seed: number, results: readonly 
   const tubes: Record<string, { plateAmps: Stats | null; vgk: Stats | null; vpk: Stats | null; contactVolts: Stats | null }> = {};
   for (const id of ids) {
     const ok = sorted.flatMap((r) => (r.tubes[id] ? [r.tubes[id]!] : []));
-    tubes[id] = { plateAmps: stats(ok.map((t) => t.plateAmps)), vgk: stats(ok.map((t) => t.vgk)), vpk: stats(ok.map((t) => t.vpk)), contactVolts: stats(sorted.map((r) => r.contactVolts?.[id] ?? 0)) };
+    tubes[id] = {
+      plateAmps: stats(ok.map((t) => t.plateAmps)),
+      vgk: stats(ok.map((t) => t.vgk)),
+      vpk: stats(ok.map((t) => t.vpk)),
+      contactVolts: stats(sorted.map((r) => r.contactVolts?.[id] ?? 0)),
+    };
   }
   const caseRun = (which: 'low' | 'nominal' | 'high'): SpreadRun => {
     return spreadRun(tubeCaseDesign(design, which), seed, 0, options);
   };
   return {
-    runs: sorted.length, seed,
+    runs: sorted.length,
+    seed,
     nominal: sorted.find((r) => r.run === 0) ?? spreadRun(design, seed, 0, options),
     tubes,
     contactPotential: { distribution: 'uniform', halfWidthVolts: CONTACT_POTENTIAL_SPREAD_VOLTS },

@@ -382,7 +382,9 @@ export function estimateSupply(input: SupplyInput): SupplyEstimate {
   }
   const capNeed = nextCapacitorVoltageRating(unloadedVolts);
   if (capNeed.ok) {
-    notes.push(`capacitor voltage: every filter capacitor sees the unloaded ${fmt(unloadedVolts)} V at switch-on; buy ${String(capNeed.rating)} V or more (80 % derating)`);
+    notes.push(
+      `capacitor voltage: every filter capacitor sees the unloaded ${fmt(unloadedVolts)} V at switch-on; buy ${String(capNeed.rating)} V or more (80 % derating)`,
+    );
   } else {
     warnings.push(`capacitor voltage: ${capNeed.reason}`);
   }
@@ -453,12 +455,7 @@ export function estimateSupply(input: SupplyInput): SupplyEstimate {
  * The default 1 s holds a whole number of ripple periods (ripple is 50, 60, 100
  * or 120 Hz), so the buffer loops without a click.
  */
-export function rippleWaveform(
-  estimate: SupplyEstimate,
-  nodeIndex: number,
-  sampleRateHz: number,
-  seconds = 1,
-): Float64Array {
+export function rippleWaveform(estimate: SupplyEstimate, nodeIndex: number, sampleRateHz: number, seconds = 1): Float64Array {
   const node = estimate.nodes[nodeIndex];
   if (node === undefined) {
     throw new RangeError(`rippleWaveform: nodeIndex ${String(nodeIndex)} out of range 0..${estimate.nodes.length - 1}`);

@@ -9,9 +9,17 @@ import { linearNetwork, solveLinear } from './linear.ts';
 
 export type VoicingTarget =
   | { readonly kind: 'corner'; readonly hertz: number; readonly response: 'low-pass' | 'high-pass' }
-  | { readonly kind: 'curve'; readonly points: readonly { readonly hertz: number; readonly db: number }[]; /** Ignore a constant level offset (default true). */ readonly matchLevel?: boolean };
+  | {
+      readonly kind: 'curve';
+      readonly points: readonly { readonly hertz: number; readonly db: number }[];
+      /** Ignore a constant level offset (default true). */ readonly matchLevel?: boolean;
+    };
 
-export interface VoicingNetwork { readonly elementIds: readonly string[]; readonly drivenFrom: string; readonly outputNode?: string }
+export interface VoicingNetwork {
+  readonly elementIds: readonly string[];
+  readonly drivenFrom: string;
+  readonly outputNode?: string;
+}
 
 export interface VoicingOptions {
   readonly series?: 'E12' | 'E24';
@@ -41,20 +49,41 @@ export function corner(mag: (hz: number) => number, response: 'low-pass' | 'high
   let peakI = 0;
   for (let i = 1; i < m.length; i++) if (m[i]! > m[peakI]!) peakI = i;
   const level = m[peakI]! / Math.SQRT2;
-  let a: number | null = null, b: number | null = null;
-  if (response === 'low-pass') { for (let i = peakI; i + 1 < f.length; i++) if (m[i]! >= level && m[i + 1]! < level) { a = f[i]!; b = f[i + 1]!; break; } }
-  else { for (let i = peakI; i > 0; i--) if (m[i]! >= level && m[i - 1]! < level) { a = f[i - 1]!; b = f[i]!; break; } }
+  let a: number | null = null,
+    b: number | null = null;
+  if (response === 'low-pass') {
+    for (let i = peakI; i + 1 < f.length; i++)
+      if (m[i]! >= level && m[i + 1]! < level) {
+        a = f[i]!;
+        b = f[i + 1]!;
+        break;
+      }
+  } else {
+    for (let i = peakI; i > 0; i--)
+      if (m[i]! >= level && m[i - 1]! < level) {
+        a = f[i - 1]!;
+        b = f[i]!;
+        break;
+      }
+  }
   if (a === null || b === null) return null;
   for (let k = 0; k < 50; k++) {
     const c = Math.sqrt(a * b);
     const above = m[peakI]! / Math.SQRT2 <= mag(c);
-    if ((response === 'low-pass') === above) a = c; else b = c;
+    if ((response === 'low-pass') === above) a = c;
+    else b = c;
   }
   return Math.sqrt(a * b);
 }
 
 /** Fit the `vary` elements (resistors or capacitors of the network) to the target from E12 / E24. */
-export function fitToneNetwork(circuit: EngineCircuit | Netlist, network: VoicingNetwork, vary: readonly string[], target: VoicingTarget, options: VoicingOptions = {}): VoicingResult {
+export function fitToneNetwork(
+  circuit: EngineCircuit | Netlist,
+  network: VoicingNetwork,
+  vary: readonly string[],
+  target: VoicingTarget,
+  options: VoicingOptions = {},
+): VoicingResult {
   const series: ESeries = options.series ?? 'E12';
   const decades = options.decades ?? 1;
   const ids = new Set(network.elementIds);
@@ -71,7 +100,9 @@ export function fitToneNetwork(circuit: EngineCircuit | Netlist, network: Voicin
   });
   const candidates = present.map((x) => seriesValuesBetween(x / 10 ** decades, x * 10 ** decades, series));
   const build = (vals: readonly number[]): EngineCircuit => ({
-    ground: circuit.ground, input: { node: network.drivenFrom, ohms: options.sourceOhms ?? 0 }, output: { node: network.outputNode ?? circuit.output.node },
+    ground: circuit.ground,
+    input: { node: network.drivenFrom, ohms: options.sourceOhms ?? 0 },
+    output: { node: network.outputNode ?? circuit.output.node },
     elements: chosen.map((e) => {
       const i = vary.indexOf(e.id);
       if (i < 0) return e;
@@ -83,7 +114,10 @@ export function fitToneNetwork(circuit: EngineCircuit | Netlist, network: Voicin
     evaluated++;
     const sub = build(vals);
     const net = linearNetwork(sub, { tubes: 'removed' });
-    const mag = (hz: number) => { const v = solveLinear(net, 2 * Math.PI * hz); return Math.hypot(v.re[sub.output.node] ?? 0, v.im[sub.output.node] ?? 0); };
+    const mag = (hz: number) => {
+      const v = solveLinear(net, 2 * Math.PI * hz);
+      return Math.hypot(v.re[sub.output.node] ?? 0, v.im[sub.output.node] ?? 0);
+    };
     if (target.kind === 'corner') {
       const fc = corner(mag, target.response);
       return { cost: fc === null ? Infinity : Math.abs(Math.log(fc / target.hertz)), cornerHz: fc };
@@ -99,32 +133,52 @@ export function fitToneNetwork(circuit: EngineCircuit | Netlist, network: Voicin
     const idx = new Array<number>(vary.length).fill(0);
     for (let n = 0; n < total; n++) {
       let r = n;
-      for (let i = 0; i < vary.length; i++) { idx[i] = r % candidates[i]!.length; r = Math.floor(r / candidates[i]!.length); }
+      for (let i = 0; i < vary.length; i++) {
+        idx[i] = r % candidates[i]!.length;
+        r = Math.floor(r / candidates[i]!.length);
+      }
       const vals = idx.map((j, i) => candidates[i]![j]!);
       const c = cost(vals).cost;
-      if (c < bestCost - 1e-15) { bestCost = c; best = vals; }
+      if (c < bestCost - 1e-15) {
+        bestCost = c;
+        best = vals;
+      }
     }
   } else {
     for (let pass = 0; pass < 6; pass++) {
       let improved = false;
-      for (let i = 0; i < vary.length; i++) for (const x of candidates[i]!) {
-        const vals = best.map((b, j) => (j === i ? x : b));
-        const c = cost(vals).cost;
-        if (c < bestCost - 1e-15) { bestCost = c; best = vals; improved = true; }
-      }
+      for (let i = 0; i < vary.length; i++)
+        for (const x of candidates[i]!) {
+          const vals = best.map((b, j) => (j === i ? x : b));
+          const c = cost(vals).cost;
+          if (c < bestCost - 1e-15) {
+            bestCost = c;
+            best = vals;
+            improved = true;
+          }
+        }
       if (!improved) break;
     }
   }
   const final = cost(best);
   const sub = build(best);
-  const response = toneNetworkAc(sub, { elementIds: sub.elements.map((e) => e.id), drivenFrom: network.drivenFrom, outputNode: sub.output.node }, { ...(options.sourceOhms !== undefined ? { sourceOhms: options.sourceOhms } : {}) });
+  const response = toneNetworkAc(
+    sub,
+    { elementIds: sub.elements.map((e) => e.id), drivenFrom: network.drivenFrom, outputNode: sub.output.node },
+    { ...(options.sourceOhms !== undefined ? { sourceOhms: options.sourceOhms } : {}) },
+  );
   const values: Record<string, number> = {};
-  vary.forEach((v, i) => { values[v] = best[i]!; });
+  vary.forEach((v, i) => {
+    values[v] = best[i]!;
+  });
   return {
-    values, cornerHz: final.cornerHz,
+    values,
+    cornerHz: final.cornerHz,
     fitError: target.kind === 'corner' ? (final.cornerHz ?? NaN) / target.hertz - 1 : final.cost,
     fitErrorUnit: target.kind === 'corner' ? 'fraction' : 'dB rms',
-    insertionLossDb: -Math.max(...response.magnitudeDb), response, evaluated,
+    insertionLossDb: -Math.max(...response.magnitudeDb),
+    response,
+    evaluated,
   };
 }
 
@@ -157,13 +211,19 @@ export function toneControlEnds(design: Design, op?: OperatingPoint): ToneContro
     const n = identifyToneNetwork(c) ?? net;
     const sourceOhms = drivingImpedanceOhms(c, o, n);
     const sub: EngineCircuit = {
-      ground: c.ground, input: { node: n.drivenFrom, ohms: sourceOhms }, output: { node: n.outputNode },
+      ground: c.ground,
+      input: { node: n.drivenFrom, ohms: sourceOhms },
+      output: { node: n.outputNode },
       elements: (c.elements as readonly EngineElement[]).filter((e) => n.elementIds.includes(e.id)),
     };
     const lin = linearNetwork(sub, { tubes: 'removed' });
-    const mag = (hz: number) => { const v = solveLinear(lin, 2 * Math.PI * hz); return Math.hypot(v.re[sub.output.node] ?? 0, v.im[sub.output.node] ?? 0); };
+    const mag = (hz: number) => {
+      const v = solveLinear(lin, 2 * Math.PI * hz);
+      return Math.hypot(v.re[sub.output.node] ?? 0, v.im[sub.output.node] ?? 0);
+    };
     return { sourceOhms, fc: corner(mag, 'low-pass'), tilt: 20 * Math.log10(mag(10000) / mag(300)) };
   };
-  const a = at(0), b = at(1);
+  const a = at(0),
+    b = at(1);
   return { potId: pot.id, sourceOhms: a.sourceOhms, atPosition0Hz: a.fc, atPosition1Hz: b.fc, tilt0Db: a.tilt, tilt1Db: b.tilt };
 }

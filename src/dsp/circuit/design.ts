@@ -12,14 +12,50 @@ export const DESIGN_SCHEMA = 'valvewright.design.v1';
 export type Taper = 'linear' | 'log' | 'reverse-log';
 
 /** ratedWatts (optional): the power rating of the part you have or mean to buy; checked by the ratings sheet. */
-export interface ResistorPart { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number; readonly tolerance?: number; readonly ratedWatts?: number; readonly label?: string }
+export interface ResistorPart {
+  readonly id: string;
+  readonly kind: 'resistor';
+  readonly nodes: readonly [string, string];
+  readonly ohms: number;
+  readonly tolerance?: number;
+  readonly ratedWatts?: number;
+  readonly label?: string;
+}
 /** Polarised: nodes[0] is the + lead. ratedVolts (optional): the voltage rating of the part; checked by the ratings sheet. */
-export interface CapacitorPart { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number; readonly tolerance?: number; readonly polarized?: boolean; readonly ratedVolts?: number; readonly label?: string }
+export interface CapacitorPart {
+  readonly id: string;
+  readonly kind: 'capacitor';
+  readonly nodes: readonly [string, string];
+  readonly farads: number;
+  readonly tolerance?: number;
+  readonly polarized?: boolean;
+  readonly ratedVolts?: number;
+  readonly label?: string;
+}
 /** Three-terminal potentiometer: nodes [end1, wiper, end2]; position 0 puts the wiper at end1. */
-export interface PotPart { readonly id: string; readonly kind: 'pot'; readonly nodes: readonly [string, string, string]; readonly ohms: number; readonly taper: Taper; readonly position: number; readonly tolerance?: number; readonly ratedWatts?: number; readonly label?: string }
-export interface SwitchPart { readonly id: string; readonly kind: 'switch'; readonly nodes: readonly [string, string]; readonly closed: boolean; readonly contactOhms?: number; readonly label?: string }
+export interface PotPart {
+  readonly id: string;
+  readonly kind: 'pot';
+  readonly nodes: readonly [string, string, string];
+  readonly ohms: number;
+  readonly taper: Taper;
+  readonly position: number;
+  readonly tolerance?: number;
+  readonly ratedWatts?: number;
+  readonly label?: string;
+}
+export interface SwitchPart {
+  readonly id: string;
+  readonly kind: 'switch';
+  readonly nodes: readonly [string, string];
+  readonly closed: boolean;
+  readonly contactOhms?: number;
+  readonly label?: string;
+}
 export interface TubePart {
-  readonly id: string; readonly kind: 'tube'; readonly type: string;
+  readonly id: string;
+  readonly kind: 'tube';
+  readonly type: string;
   /** Plate-current scale standing for a strong (> 1) or weak (< 1) sample. */
   readonly sample: number;
   readonly nodes: { readonly plate: string; readonly grid: string; readonly cathode: string; readonly screen?: string };
@@ -100,9 +136,12 @@ export function taperFraction(taper: Taper, position: number): number {
   // Audio ("log") taper approximated by an exponential through 10 % at half rotation (common practice).
   const b = 81;
   switch (taper) {
-    case 'linear': return x;
-    case 'log': return (Math.pow(b, x) - 1) / (b - 1);
-    case 'reverse-log': return 1 - (Math.pow(b, 1 - x) - 1) / (b - 1);
+    case 'linear':
+      return x;
+    case 'log':
+      return (Math.pow(b, x) - 1) / (b - 1);
+    case 'reverse-log':
+      return 1 - (Math.pow(b, 1 - x) - 1) / (b - 1);
   }
 }
 
@@ -144,7 +183,9 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   if (d.userTubes !== undefined) {
     if (!Array.isArray(d.userTubes)) throw new DesignError('design "userTubes" must be a list of user tube files');
     d.userTubes.forEach((u, i) => {
-      try { registerUserTube(userTubeType(u, `userTubes[${i}]`)); } catch (e) {
+      try {
+        registerUserTube(userTubeType(u, `userTubes[${i}]`));
+      } catch (e) {
         throw new DesignError(e instanceof TubeFileError ? e.message : `userTubes[${i}]: ${(e as Error).message}`);
       }
     });
@@ -178,17 +219,28 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
         break;
       case 'tube': {
         let t: TubeType;
-        try { t = tubeType(p.type); } catch (err) { throw new DesignError(`${where}: ${(err as Error).message}`); }
+        try {
+          t = tubeType(p.type);
+        } catch (err) {
+          throw new DesignError(`${where}: ${(err as Error).message}`);
+        }
         if (!(p.sample > 0.2 && p.sample < 5)) throw new DesignError(`${where}: sample factor must be between 0.2 and 5`);
         if (t.kind === 'pentode' && !p.nodes.screen) throw new DesignError(`${where}: a ${t.name} pentode needs a screen node`);
         if (t.kind === 'triode' && p.nodes.screen) throw new DesignError(`${where}: a ${t.name} triode has no screen`);
         if (p.interelectrode !== undefined && typeof p.interelectrode !== 'boolean') throw new DesignError(`${where}: "interelectrode" must be true or false`);
         break;
       }
-      default: throw new DesignError(`${where}: unknown kind ${JSON.stringify((p as { kind: unknown }).kind)}`);
+      default:
+        throw new DesignError(`${where}: unknown kind ${JSON.stringify((p as { kind: unknown }).kind)}`);
     }
-    const distinct = p.kind === 'pot' ? new Set([p.nodes[0], p.nodes[1]]).size === 2 && p.nodes[0] !== p.nodes[2] : p.kind === 'tube' || new Set(nodeList).size === nodeList.length;
-    if (!distinct) throw new DesignError(`${where}: two terminals on the same node${p.kind === 'pot' ? ' (a pot may tie its wiper to end 2 as a variable resistor, nothing else)' : ''}`);
+    const distinct =
+      p.kind === 'pot'
+        ? new Set([p.nodes[0], p.nodes[1]]).size === 2 && p.nodes[0] !== p.nodes[2]
+        : p.kind === 'tube' || new Set(nodeList).size === nodeList.length;
+    if (!distinct)
+      throw new DesignError(
+        `${where}: two terminals on the same node${p.kind === 'pot' ? ' (a pot may tie its wiper to end 2 as a variable resistor, nothing else)' : ''}`,
+      );
     for (const n of nodeList) nodes.add(n);
   }
   if (!nodes.has(d.output.node)) throw new DesignError(`output node "${d.output.node}" is not connected to any part`);
@@ -197,7 +249,11 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   }
   if (d.sheet !== undefined) {
     const pos = typeof d.sheet === 'object' && d.sheet !== null ? d.sheet.positions : null;
-    const good = pos === undefined || (typeof pos === 'object' && pos !== null && Object.values(pos).every((v) => Array.isArray(v) && v.length === 2 && v.every((x) => typeof x === 'number' && Number.isFinite(x))));
+    const good =
+      pos === undefined ||
+      (typeof pos === 'object' &&
+        pos !== null &&
+        Object.values(pos).every((v) => Array.isArray(v) && v.length === 2 && v.every((x) => typeof x === 'number' && Number.isFinite(x))));
     if (!good) throw new DesignError('design "sheet" must be { "positions": { PART: [x, y] } } with finite numbers');
   }
   const design = doc as Design;
@@ -205,7 +261,9 @@ export function validateDesign(doc: unknown, options: { readonly wiring?: boolea
   // Every node needs at least two connections (the supply, input and load count).
   const uses = new Map<string, number>();
   const bump = (n: string) => uses.set(n, (uses.get(n) ?? 0) + 1);
-  bump(d.supply.node); bump(d.input.node); bump(d.output.node);
+  bump(d.supply.node);
+  bump(d.input.node);
+  bump(d.output.node);
   for (const p of design.parts) for (const n of p.kind === 'tube' ? Object.values(p.nodes) : p.nodes) if (n) bump(n);
   for (const [n, c] of uses) if (n !== GROUND && c < 2) throw new DesignError(`node "${n}" connects to only one terminal (unknown or misspelt node?)`);
   const circuit = designCircuit(design);
@@ -222,13 +280,17 @@ function tubeElement(p: TubePart): NetTube {
   // The sample factor scales plate (and screen) current: kg1, kg2 divided by it (netlist-v1 equations).
   if (t.kind === 'triode') {
     return {
-      id: p.id, kind: 'triode', nodes: { plate: p.nodes.plate, grid: p.nodes.grid, cathode: p.nodes.cathode },
+      id: p.id,
+      kind: 'triode',
+      nodes: { plate: p.nodes.plate, grid: p.nodes.grid, cathode: p.nodes.cathode },
       model: { name: 'koren-triode', ...t.model, kg1: t.model.kg1 / p.sample },
       gridCurrent: t.gridCurrent,
     };
   }
   return {
-    id: p.id, kind: 'pentode', nodes: { plate: p.nodes.plate, screen: p.nodes.screen ?? '', grid: p.nodes.grid, cathode: p.nodes.cathode },
+    id: p.id,
+    kind: 'pentode',
+    nodes: { plate: p.nodes.plate, screen: p.nodes.screen ?? '', grid: p.nodes.grid, cathode: p.nodes.cathode },
     model: { name: 'koren-pentode', ...t.model, kg1: t.model.kg1 / p.sample, kg2: t.model.kg2 / p.sample },
     gridCurrent: t.gridCurrent,
   };
@@ -243,7 +305,9 @@ export const INTERELECTRODE_SUFFIXES = ['.Cgp', '.Cgk', '.Cpk'] as const;
  */
 export function interelectrodeCapacitors(p: TubePart): EngineCapacitor[] {
   if (p.interelectrode === false) return [];
-  const c = tubeType(p.type).capacitance, n = p.nodes, integration = 'bdf2' as const;
+  const c = tubeType(p.type).capacitance,
+    n = p.nodes,
+    integration = 'bdf2' as const;
   const all: EngineCapacitor[] = [
     { id: p.id + INTERELECTRODE_SUFFIXES[0], kind: 'capacitor', nodes: [n.grid, n.plate], farads: c.gridPlateFarads, integration },
     { id: p.id + INTERELECTRODE_SUFFIXES[1], kind: 'capacitor', nodes: [n.grid, n.cathode], farads: c.gridCathodeFarads, integration },
@@ -255,13 +319,19 @@ export function interelectrodeCapacitors(p: TubePart): EngineCapacitor[] {
 function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
   const out: EngineElement[] = [
     { id: SUPPLY_ID, kind: 'dc-source', nodes: [d.supply.node, GROUND], volts: d.supply.volts, ohms: d.supply.ohms },
-    ...(d.supply.filterFarads > 0 ? [{ id: SUPPLY_FILTER_ID, kind: 'capacitor' as const, nodes: [d.supply.node, GROUND] as const, farads: d.supply.filterFarads }] : []),
+    ...(d.supply.filterFarads > 0
+      ? [{ id: SUPPLY_FILTER_ID, kind: 'capacitor' as const, nodes: [d.supply.node, GROUND] as const, farads: d.supply.filterFarads }]
+      : []),
     { id: LOAD_ID, kind: 'resistor', nodes: [d.output.node, GROUND], ohms: d.output.loadOhms },
   ];
   for (const p of d.parts) {
     switch (p.kind) {
-      case 'resistor': out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: p.ohms }); break;
-      case 'capacitor': out.push({ id: p.id, kind: 'capacitor', nodes: p.nodes, farads: p.farads }); break;
+      case 'resistor':
+        out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: p.ohms });
+        break;
+      case 'capacitor':
+        out.push({ id: p.id, kind: 'capacitor', nodes: p.nodes, farads: p.farads });
+        break;
       case 'pot': {
         const r = potResistors(p);
         out.push({ id: potUpperId(p.id), kind: 'resistor', nodes: [p.nodes[0], p.nodes[1]], ohms: r.upperOhms });
@@ -274,7 +344,9 @@ function elementsOf(d: Design, openSwitches: 'keep' | 'omit'): EngineElement[] {
         else if (p.closed) out.push({ id: p.id, kind: 'resistor', nodes: p.nodes, ohms: contactOhms });
         break;
       }
-      case 'tube': out.push(tubeElement(p), ...interelectrodeCapacitors(p)); break;
+      case 'tube':
+        out.push(tubeElement(p), ...interelectrodeCapacitors(p));
+        break;
     }
   }
   return out;
@@ -288,7 +360,10 @@ export function designCircuit(d: Design): EngineCircuit {
 /** The netlist interchange form at the present settings (pots as two resistors, open switches left out). */
 export function designToNetlist(d: Design): Netlist {
   return {
-    schema: NETLIST_SCHEMA, ground: GROUND, input: { node: d.input.node, ohms: d.input.ohms }, output: { node: d.output.node },
+    schema: NETLIST_SCHEMA,
+    ground: GROUND,
+    input: { node: d.input.node, ohms: d.input.ohms },
+    output: { node: d.output.node },
     // the interchange form has no integration field (netlist-v1): drop it
     elements: elementsOf(d, 'omit').map((e) => (e.kind === 'capacitor' ? { id: e.id, kind: e.kind, nodes: e.nodes, farads: e.farads } : e)) as NetElement[],
   };
@@ -297,14 +372,17 @@ export function designToNetlist(d: Design): Netlist {
 /** Engine-level updates that stand for a new value of one design part. */
 export function partValueUpdates(part: Part): { id: string; value: number }[] {
   switch (part.kind) {
-    case 'resistor': return [{ id: part.id, value: part.ohms }];
-    case 'capacitor': return [{ id: part.id, value: part.farads }];
+    case 'resistor':
+      return [{ id: part.id, value: part.ohms }];
+    case 'capacitor':
+      return [{ id: part.id, value: part.farads }];
     case 'pot': {
       const r = potResistors(part);
       const up = [{ id: potUpperId(part.id), value: r.upperOhms }];
       return part.nodes[1] === part.nodes[2] ? up : [...up, { id: potLowerId(part.id), value: r.lowerOhms }];
     }
-    default: return [];
+    default:
+      return [];
   }
 }
 

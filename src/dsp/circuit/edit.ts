@@ -38,17 +38,39 @@ export function terminalsOf(p: Part): { readonly terminal: Terminal; readonly no
       ];
       return p.nodes.screen !== undefined ? [...out, { terminal: 'screen', node: p.nodes.screen, name: 'screen' }] : out;
     }
-    case 'pot': return [{ terminal: '0', node: p.nodes[0], name: 'end 1' }, { terminal: '1', node: p.nodes[1], name: 'wiper' }, { terminal: '2', node: p.nodes[2], name: 'end 2' }];
-    case 'capacitor': return p.polarized ? [{ terminal: '0', node: p.nodes[0], name: '+ lead' }, { terminal: '1', node: p.nodes[1], name: '− lead' }] : [{ terminal: '0', node: p.nodes[0], name: 'lead 1' }, { terminal: '1', node: p.nodes[1], name: 'lead 2' }];
-    default: return [{ terminal: '0', node: p.nodes[0], name: 'lead 1' }, { terminal: '1', node: p.nodes[1], name: 'lead 2' }];
+    case 'pot':
+      return [
+        { terminal: '0', node: p.nodes[0], name: 'end 1' },
+        { terminal: '1', node: p.nodes[1], name: 'wiper' },
+        { terminal: '2', node: p.nodes[2], name: 'end 2' },
+      ];
+    case 'capacitor':
+      return p.polarized
+        ? [
+            { terminal: '0', node: p.nodes[0], name: '+ lead' },
+            { terminal: '1', node: p.nodes[1], name: '− lead' },
+          ]
+        : [
+            { terminal: '0', node: p.nodes[0], name: 'lead 1' },
+            { terminal: '1', node: p.nodes[1], name: 'lead 2' },
+          ];
+    default:
+      return [
+        { terminal: '0', node: p.nodes[0], name: 'lead 1' },
+        { terminal: '1', node: p.nodes[1], name: 'lead 2' },
+      ];
   }
 }
 
 /** Every node of the design (ground first, then in order of appearance). */
 export function designNodes(d: Design): string[] {
   const out = [GROUND];
-  const add = (n: string) => { if (!out.includes(n)) out.push(n); };
-  add(d.input.node); add(d.supply.node); add(d.output.node);
+  const add = (n: string) => {
+    if (!out.includes(n)) out.push(n);
+  };
+  add(d.input.node);
+  add(d.supply.node);
+  add(d.output.node);
   for (const p of d.parts) for (const t of terminalsOf(p)) add(t.node);
   return out;
 }
@@ -93,14 +115,22 @@ export function makePart(d: Design, spec: NewPartSpec): Part | string {
   const n = spec.nodes;
   const need = (count: number): string | null => (n.length === count ? null : `a ${spec.kind} needs ${count} nodes (got ${n.length})`);
   switch (spec.kind) {
-    case 'resistor': return need(2) ?? { id, kind: 'resistor', nodes: [n[0]!, n[1]!], ohms: 100e3, tolerance: 0.05 };
-    case 'capacitor': return need(2) ?? { id, kind: 'capacitor', nodes: [n[0]!, n[1]!], farads: 22e-9, tolerance: 0.1 };
-    case 'switch': return need(2) ?? { id, kind: 'switch', nodes: [n[0]!, n[1]!], closed: true };
-    case 'pot': return need(3) ?? { id, kind: 'pot', nodes: [n[0]!, n[1]!, n[2]!], ohms: 500e3, taper: 'log', position: 0.5 };
+    case 'resistor':
+      return need(2) ?? { id, kind: 'resistor', nodes: [n[0]!, n[1]!], ohms: 100e3, tolerance: 0.05 };
+    case 'capacitor':
+      return need(2) ?? { id, kind: 'capacitor', nodes: [n[0]!, n[1]!], farads: 22e-9, tolerance: 0.1 };
+    case 'switch':
+      return need(2) ?? { id, kind: 'switch', nodes: [n[0]!, n[1]!], closed: true };
+    case 'pot':
+      return need(3) ?? { id, kind: 'pot', nodes: [n[0]!, n[1]!, n[2]!], ohms: 500e3, taper: 'log', position: 0.5 };
     case 'tube': {
       const typeName = spec.tubeType ?? '12AX7';
       let pentode: boolean;
-      try { pentode = tubeType(typeName).kind === 'pentode'; } catch (err) { return (err as Error).message; }
+      try {
+        pentode = tubeType(typeName).kind === 'pentode';
+      } catch (err) {
+        return (err as Error).message;
+      }
       const bad = need(pentode ? 4 : 3);
       if (bad) return `${bad}: ${pentode ? 'plate, grid, cathode and screen' : 'plate, grid and cathode'}`;
       const nodes: TubePart['nodes'] = pentode ? { plate: n[0]!, grid: n[1]!, cathode: n[2]!, screen: n[3]! } : { plate: n[0]!, grid: n[1]!, cathode: n[2]! };
@@ -128,7 +158,10 @@ const nodeName = (n: string): string | null => {
 /** Place a part (its nodes may be new ones). */
 export function addPart(d: Design, part: Part): EditResult {
   if (d.parts.some((p) => p.id === part.id) || RESERVED.has(part.id)) return { ok: false, reason: `part id "${part.id}" is already used` };
-  for (const t of terminalsOf(part)) { const bad = nodeName(t.node); if (bad) return { ok: false, reason: bad }; }
+  for (const t of terminalsOf(part)) {
+    const bad = nodeName(t.node);
+    if (bad) return { ok: false, reason: bad };
+  }
   return checked(d, { ...d, parts: [...d.parts, part] });
 }
 
@@ -139,7 +172,8 @@ export function removePart(d: Design, id: string): EditResult {
   if (d.parts.length === 1) return { ok: false, reason: `${id} is the only part: a design needs at least one (start an empty sheet instead)` };
   const parts = d.parts.filter((q) => q.id !== id);
   const still = new Set(parts.flatMap((q) => terminalsOf(q).map((t) => t.node)));
-  if (!still.has(d.output.node)) return { ok: false, reason: `removing ${id} would leave the output node "${d.output.node}" unconnected: move the output first` };
+  if (!still.has(d.output.node))
+    return { ok: false, reason: `removing ${id} would leave the output node "${d.output.node}" unconnected: move the output first` };
   return checked(d, withoutPosition({ ...d, parts }, id));
 }
 
@@ -211,7 +245,8 @@ export function insertAcross(d: Design, targetId: string, part: Part, terminals?
   if (part.kind === 'pot' || part.kind === 'tube') return { ok: false, reason: 'only a resistor, capacitor or switch can go across another part' };
   const ts = terminalsOf(target);
   const pick = terminals ?? (target.kind === 'tube' ? ['grid', 'cathode'] : target.kind === 'pot' ? ['0', '2'] : ['0', '1']);
-  const a = ts.find((t) => t.terminal === pick[0]), b = ts.find((t) => t.terminal === pick[1]);
+  const a = ts.find((t) => t.terminal === pick[0]),
+    b = ts.find((t) => t.terminal === pick[1]);
   if (!a || !b) return { ok: false, reason: `${targetId} has no terminals ${pick.join(' and ')}` };
   if (a.node === b.node) return { ok: false, reason: `${targetId}'s ${a.name} and ${b.name} are on the same node: nothing to go across` };
   return addPart(d, { ...part, nodes: [a.node, b.node] });
@@ -247,14 +282,28 @@ export function renameNode(d: Design, from: string, to: string): EditResult {
   const r = (n: string) => (n === from ? to : n);
   const parts = d.parts.map((p): Part => {
     switch (p.kind) {
-      case 'tube': return { ...p, nodes: { plate: r(p.nodes.plate), grid: r(p.nodes.grid), cathode: r(p.nodes.cathode), ...(p.nodes.screen !== undefined ? { screen: r(p.nodes.screen) } : {}) } };
-      case 'pot': return { ...p, nodes: [r(p.nodes[0]), r(p.nodes[1]), r(p.nodes[2])] };
-      default: return { ...p, nodes: [r(p.nodes[0]), r(p.nodes[1])] };
+      case 'tube':
+        return {
+          ...p,
+          nodes: {
+            plate: r(p.nodes.plate),
+            grid: r(p.nodes.grid),
+            cathode: r(p.nodes.cathode),
+            ...(p.nodes.screen !== undefined ? { screen: r(p.nodes.screen) } : {}),
+          },
+        };
+      case 'pot':
+        return { ...p, nodes: [r(p.nodes[0]), r(p.nodes[1]), r(p.nodes[2])] };
+      default:
+        return { ...p, nodes: [r(p.nodes[0]), r(p.nodes[1])] };
     }
   });
   return checked(d, {
-    ...d, parts,
-    input: { ...d.input, node: r(d.input.node) }, output: { ...d.output, node: r(d.output.node) }, supply: { ...d.supply, node: r(d.supply.node) },
+    ...d,
+    parts,
+    input: { ...d.input, node: r(d.input.node) },
+    output: { ...d.output, node: r(d.output.node) },
+    supply: { ...d.supply, node: r(d.supply.node) },
   });
 }
 
@@ -270,7 +319,8 @@ export function moveTerminalNode(d: Design, which: 'input' | 'output', node: str
   if (bad) return { ok: false, reason: bad };
   if (node === GROUND) return { ok: false, reason: `the ${which} cannot be on ground` };
   if (which === 'output') {
-    if (!designNodes({ ...d, output: { ...d.output, node: d.input.node } }).includes(node)) return { ok: false, reason: `there is no node "${node}" for the output` };
+    if (!designNodes({ ...d, output: { ...d.output, node: d.input.node } }).includes(node))
+      return { ok: false, reason: `there is no node "${node}" for the output` };
     return checked(d, { ...d, output: { ...d.output, node } });
   }
   return checked(d, { ...d, input: { ...d.input, node } });
@@ -283,7 +333,13 @@ export function replaceTubes(d: Design, userTubes: readonly unknown[]): EditResu
 
 /** Type names of the fitted tubes a design carries (files that do not read are left out). */
 export function fittedTubeNames(d: Design): string[] {
-  return (d.userTubes ?? []).flatMap((u, i) => { try { return [userTubeType(u, `userTubes[${i}]`).name]; } catch { return []; } });
+  return (d.userTubes ?? []).flatMap((u, i) => {
+    try {
+      return [userTubeType(u, `userTubes[${i}]`).name];
+    } catch {
+      return [];
+    }
+  });
 }
 
 /**
@@ -297,27 +353,58 @@ export function appendStage(d: Design, after: string = d.output.node, tubeTypeNa
   if (!designNodes(d).includes(after)) return { ok: false, reason: `there is no node "${after}"` };
   if (after === GROUND) return { ok: false, reason: 'a stage cannot follow ground' };
   let t: ReturnType<typeof tubeType>;
-  try { t = tubeType(tubeTypeName); } catch (err) { return { ok: false, reason: (err as Error).message }; }
+  try {
+    t = tubeType(tubeTypeName);
+  } catch (err) {
+    return { ok: false, reason: (err as Error).message };
+  }
   if (t.kind !== 'triode') return { ok: false, reason: `${tubeTypeName} is a ${t.kind}: the added stage is a triode stage` };
   const plates = new Set(d.parts.flatMap((p) => (p.kind === 'tube' ? [p.nodes.plate] : [])));
-  const load = d.parts.find((p) => p.kind === 'resistor' && (plates.has(p.nodes[0]) || plates.has(p.nodes[1])) && !(plates.has(p.nodes[0]) && plates.has(p.nodes[1])));
+  const load = d.parts.find(
+    (p) => p.kind === 'resistor' && (plates.has(p.nodes[0]) || plates.has(p.nodes[1])) && !(plates.has(p.nodes[0]) && plates.has(p.nodes[1])),
+  );
   const rail = load && load.kind === 'resistor' ? (plates.has(load.nodes[0]) ? load.nodes[1] : load.nodes[0]) : d.supply.node;
   const tube = nextPartId(d, 'tube');
   const k = tube.replace(/^V/, '');
   const taken = new Set(designNodes(d));
-  const node = (stem: string) => { let n = `${stem}${k}`, i = 2; while (taken.has(n)) n = `${stem}${k}_${i++}`; taken.add(n); return n; };
-  const g = node('g'), p = node('p'), kn = node('k'), o = node('o');
+  const node = (stem: string) => {
+    let n = `${stem}${k}`,
+      i = 2;
+    while (taken.has(n)) n = `${stem}${k}_${i++}`;
+    taken.add(n);
+    return n;
+  };
+  const g = node('g'),
+    p = node('p'),
+    kn = node('k'),
+    o = node('o');
   let x = d;
-  const add = (part: Part): string | null => { const r = addPart(x, part); if (!r.ok) return r.reason; x = r.design; return null; };
+  const add = (part: Part): string | null => {
+    const r = addPart(x, part);
+    if (!r.ok) return r.reason;
+    x = r.design;
+    return null;
+  };
   const steps: (() => Part)[] = [
     () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [after, g], farads: 22e-9, tolerance: 0.1, label: `${tube} input coupling` }),
     () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [g, GROUND], ohms: 1e6, tolerance: 0.05, label: `${tube} grid leak` }),
     () => ({ id: tube, kind: 'tube', type: tubeTypeName, sample: 1, nodes: { plate: p, grid: g, cathode: kn }, heaterVolts: 0, label: 'added stage' }),
     () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [rail, p], ohms: 100e3, tolerance: 0.05, label: `${tube} plate load` }),
     () => ({ id: nextPartId(x, 'resistor'), kind: 'resistor', nodes: [kn, GROUND], ohms: 1.5e3, tolerance: 0.05, label: `${tube} cathode` }),
-    () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [kn, GROUND], farads: 22e-6, tolerance: 0.2, polarized: true, label: `${tube} cathode bypass` }),
+    () => ({
+      id: nextPartId(x, 'capacitor'),
+      kind: 'capacitor',
+      nodes: [kn, GROUND],
+      farads: 22e-6,
+      tolerance: 0.2,
+      polarized: true,
+      label: `${tube} cathode bypass`,
+    }),
     () => ({ id: nextPartId(x, 'capacitor'), kind: 'capacitor', nodes: [p, o], farads: 22e-9, tolerance: 0.1, label: `${tube} output coupling` }),
   ];
-  for (const s of steps) { const bad = add(s()); if (bad) return { ok: false, reason: bad }; }
+  for (const s of steps) {
+    const bad = add(s());
+    if (bad) return { ok: false, reason: bad };
+  }
   return checked(d, { ...x, output: { ...x.output, node: o } });
 }

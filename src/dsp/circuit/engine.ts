@@ -162,19 +162,23 @@ export class ValueRangeError extends Error {
 }
 
 function checkValueRanges(circuit: EngineCircuit | Netlist): void {
-  const [rLo, rHi] = VALUE_RANGES.ohms, [cLo, cHi] = VALUE_RANGES.farads;
+  const [rLo, rHi] = VALUE_RANGES.ohms,
+    [cLo, cHi] = VALUE_RANGES.farads;
   const ohms = (what: string, x: number, zeroOk: boolean) => {
     if (zeroOk && x === 0) return;
-    if (!(x >= rLo && x <= rHi)) throw new ValueRangeError(`${what}: ${x} ohms is outside the range the engine simulates (${rLo} to ${rHi} ohms${zeroOk ? ', or 0' : ''})`);
+    if (!(x >= rLo && x <= rHi))
+      throw new ValueRangeError(`${what}: ${x} ohms is outside the range the engine simulates (${rLo} to ${rHi} ohms${zeroOk ? ', or 0' : ''})`);
   };
   ohms('input', circuit.input.ohms, true);
   for (const e of circuit.elements) {
     if (e.kind === 'resistor') ohms(e.id, e.ohms, false);
     else if (e.kind === 'switch') ohms(e.id, e.contactOhms, false);
     else if (e.kind === 'capacitor') {
-      if (!(e.farads >= cLo && e.farads <= cHi)) throw new ValueRangeError(`${e.id}: ${e.farads} farads is outside the range the engine simulates (${cLo} to ${cHi} F)`);
+      if (!(e.farads >= cLo && e.farads <= cHi))
+        throw new ValueRangeError(`${e.id}: ${e.farads} farads is outside the range the engine simulates (${cLo} to ${cHi} F)`);
     } else if (e.kind === 'dc-source') {
-      if (!(Math.abs(e.volts) <= VALUE_RANGES.volts)) throw new ValueRangeError(`${e.id}: ${e.volts} volts is beyond the ${VALUE_RANGES.volts} V the engine simulates`);
+      if (!(Math.abs(e.volts) <= VALUE_RANGES.volts))
+        throw new ValueRangeError(`${e.id}: ${e.volts} volts is beyond the ${VALUE_RANGES.volts} V the engine simulates`);
       ohms(e.id, e.ohms, true);
     }
   }
@@ -301,7 +305,11 @@ export class CircuitEngine {
     const idx = (name: string): number => {
       if (name === circuit.ground) return -1;
       let i = this.nodeIndex.get(name);
-      if (i === undefined) { i = names.length; names.push(name); this.nodeIndex.set(name, i); }
+      if (i === undefined) {
+        i = names.length;
+        names.push(name);
+        this.nodeIndex.set(name, i);
+      }
       return i;
     };
     const capFarads: number[] = [];
@@ -320,8 +328,10 @@ export class CircuitEngine {
       if (e.kind === 'dc-source') {
         this.sources.push({ id: e.id, branch: { a: idx(e.nodes[0]), b: idx(e.nodes[1]) }, ohms: e.ohms });
         sourceVolts.push(e.volts);
-      } else if (e.kind === 'resistor' || e.kind === 'switch') { idx(e.nodes[0]); idx(e.nodes[1]); }
-      else if (e.kind === 'triode' || e.kind === 'pentode') {
+      } else if (e.kind === 'resistor' || e.kind === 'switch') {
+        idx(e.nodes[0]);
+        idx(e.nodes[1]);
+      } else if (e.kind === 'triode' || e.kind === 'pentode') {
         const k = idx(e.nodes.cathode);
         const offset = this.nlPorts.length;
         this.nlPorts.push({ a: idx(e.nodes.grid), b: k }, { a: idx(e.nodes.plate), b: k });
@@ -338,9 +348,13 @@ export class CircuitEngine {
     this.nodeNames = names;
     this.capFarads = Float64Array.from(capFarads);
     this.sourceVolts = Float64Array.from(sourceVolts);
-    this.sources.forEach((src, j) => { if (!this.sourceIndex.has(src.id)) this.sourceIndex.set(src.id, j); });
+    this.sources.forEach((src, j) => {
+      if (!this.sourceIndex.has(src.id)) this.sourceIndex.set(src.id, j);
+    });
     // conductances in element order: resistors, and switches (open: OPEN_SWITCH_SIEMENS)
-    const condBranches: Branch[] = [], condOhms: number[] = [], condSiemens: number[] = [];
+    const condBranches: Branch[] = [],
+      condOhms: number[] = [],
+      condSiemens: number[] = [];
     const node = (n: string) => this.nodeIndex.get(n) ?? -1;
     for (const e of unique.values()) {
       let index = -1;
@@ -359,8 +373,12 @@ export class CircuitEngine {
     const nu = this.caps.length + this.sources.length;
     const sourcePorts = this.sources.map((x) => x.branch);
     const topology = (wavePorts: readonly Branch[], ohms: Float64Array) => ({
-      nodeCount: names.length, conductances: condBranches, wavePorts,
-      idealPorts: Array.from(ohms, (r) => r === 0), nonlinearPorts: this.nlPorts, gminSiemens: GMIN_SIEMENS,
+      nodeCount: names.length,
+      conductances: condBranches,
+      wavePorts,
+      idealPorts: Array.from(ohms, (r) => r === 0),
+      nonlinearPorts: this.nlPorts,
+      gminSiemens: GMIN_SIEMENS,
     });
     this.dcOhms = Float64Array.from(this.sources, (x) => x.ohms);
     this.trOhms = new Float64Array(nu);
@@ -376,7 +394,8 @@ export class CircuitEngine {
     this.capVPrev = new Float64Array(this.caps.length);
     // history source (the generated stage 1): trapezoidal w = v[n-1] + R i[n-1], BDF2 w = 4/3 v[n-1] - 1/3 v[n-2]
     this.u = new Float64Array(nu);
-    const m = this.nlPorts.length, nx = this.caps.length + 1 + m;
+    const m = this.nlPorts.length,
+      nx = this.caps.length + 1 + m;
     this.p = new Float64Array(m);
     this.invCapR = new Float64Array(this.caps.length);
     this.x = new Float64Array(nx);
@@ -436,8 +455,11 @@ export class CircuitEngine {
   get solverStats(): SolverStats {
     const av = this.averager;
     return {
-      solves: this.root.solves, iterations: this.root.iterationsTotal, failures: this.root.failures,
-      fallbacks: this.root.fallbacks + (av ? av.fallbacks[0]! : 0), interiorSolves: av ? av.interiorSolves[0]! : 0,
+      solves: this.root.solves,
+      iterations: this.root.iterationsTotal,
+      failures: this.root.failures,
+      fallbacks: this.root.fallbacks + (av ? av.fallbacks[0]! : 0),
+      interiorSolves: av ? av.interiorSolves[0]! : 0,
     };
   }
 
@@ -453,7 +475,8 @@ export class CircuitEngine {
 
   /** Recompile the transient matrices in place for the present values (allocation-free). */
   private compile(): void {
-    const T = 1 / this.sampleRateHz, nc = this.caps.length;
+    const T = 1 / this.sampleRateHz,
+      nc = this.caps.length;
     for (let j = 0; j < nc; j++) {
       const farads = this.capFarads[j]!;
       // port resistance T/(2C) (trapezoidal) or 2T/(3C) (BDF2)
@@ -481,7 +504,12 @@ export class CircuitEngine {
       this.capR[j] = ohms;
       this.trOhms[j] = ohms;
     }
-    tr.E.set(src.E); tr.F.set(src.F); tr.Pu.set(src.Pu); tr.Pi.set(src.Pi); tr.Zu.set(src.Zu); tr.Zi.set(src.Zi);
+    tr.E.set(src.E);
+    tr.F.set(src.F);
+    tr.Pu.set(src.Pu);
+    tr.Pi.set(src.Pi);
+    tr.Zu.set(src.Zu);
+    tr.Zi.set(src.Zi);
     this.packMaps();
     this.dcValid = false;
   }
@@ -495,7 +523,17 @@ export class CircuitEngine {
     const operatingPoint = this.operatingPoint();
     const t = this.tr;
     return {
-      matrices: { nodeCount: t.nodeCount, nu: t.nu, m: t.m, E: t.E.slice(), F: t.F.slice(), Pu: t.Pu.slice(), Pi: t.Pi.slice(), Zu: t.Zu.slice(), Zi: t.Zi.slice() },
+      matrices: {
+        nodeCount: t.nodeCount,
+        nu: t.nu,
+        m: t.m,
+        E: t.E.slice(),
+        F: t.F.slice(),
+        Pu: t.Pu.slice(),
+        Pi: t.Pi.slice(),
+        Zu: t.Zu.slice(),
+        Zi: t.Zi.slice(),
+      },
       operatingPoint,
       rootVolts: this.dcRoot.v.slice(),
     };
@@ -503,9 +541,16 @@ export class CircuitEngine {
 
   /** Dense per-sample maps from the compiled matrices (into preallocated storage). */
   private packMaps(): void {
-    const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, nd = nc + 1;
+    const tr = this.tr,
+      nu = tr.nu,
+      m = tr.m,
+      nc = this.caps.length,
+      nd = nc + 1;
     for (let j = 0; j < nc; j++) this.invCapR[j] = 1 / this.capR[j]!;
-    const nx = nd + m, Pd = this.Pd, Cd = this.Cd, Od = this.Od;
+    const nx = nd + m,
+      Pd = this.Pd,
+      Cd = this.Cd,
+      Od = this.Od;
     for (let r = 0; r < m; r++) for (let c = 0; c < nd; c++) Pd[r * nd + c] = tr.E[r * nu + c]!;
     for (let j = 0; j < nc; j++) {
       for (let c = 0; c < nd; c++) Cd[j * nx + c] = tr.Pu[j * nu + c]!;
@@ -522,7 +567,12 @@ export class CircuitEngine {
 
   /** Constant-source (dc-source) contributions, recomputed only when an EMF changes. */
   private updateConstants(): void {
-    const tr = this.tr, nu = tr.nu, m = tr.m, nc = this.caps.length, ns = this.sources.length, u = this.u;
+    const tr = this.tr,
+      nu = tr.nu,
+      m = tr.m,
+      nc = this.caps.length,
+      ns = this.sources.length,
+      u = this.u;
     for (let s = 1; s < ns; s++) u[nc + s] = this.sourceVolts[s]!;
     for (let r = 0; r < m; r++) {
       let acc = 0;
@@ -640,9 +690,13 @@ export class CircuitEngine {
     };
     let steps = 10;
     let its = solveAt(steps);
-    while (its < 0 && steps < 2000) { steps *= 4; its = solveAt(steps); }
+    while (its < 0 && steps < 2000) {
+      steps *= 4;
+      its = solveAt(steps);
+    }
     if (its < 0) throw new OperatingPointError('DC operating point did not converge even with fine supply stepping');
-    const v = this.dcRoot.v, i = this.dcRoot.i;
+    const v = this.dcRoot.v,
+      i = this.dcRoot.i;
     const nodes: Record<string, number> = {};
     this.nodeNames.forEach((name, n) => {
       let acc = 0;
@@ -655,11 +709,21 @@ export class CircuitEngine {
     for (const t of this.tubes) {
       const o = t.offset;
       const pent = t.el.kind === 'pentode';
-      const ig = i[o]!, ip = i[o + 1]!, is = pent ? i[o + 2]! : 0;
+      const ig = i[o]!,
+        ip = i[o + 1]!,
+        is = pent ? i[o + 2]! : 0;
       const vsk = pent ? v[o + 2]! : 0;
       tubes[t.el.id] = {
-        kind: t.el.kind, plateAmps: ip, plateWatts: ip * v[o + 1]!, gridAmps: ig, screenAmps: is, screenWatts: is * vsk,
-        cathodeAmps: ig + ip + is, vgk: v[o]!, vpk: v[o + 1]!, vsk,
+        kind: t.el.kind,
+        plateAmps: ip,
+        plateWatts: ip * v[o + 1]!,
+        gridAmps: ig,
+        screenAmps: is,
+        screenWatts: is * vsk,
+        cathodeAmps: ig + ip + is,
+        vgk: v[o]!,
+        vpk: v[o + 1]!,
+        vsk,
       };
     }
     this.op = { nodes, tubes, iterations: its, supplySteps: steps };
@@ -692,18 +756,23 @@ export class CircuitEngine {
     const op = this.op;
     if (!op) return;
     const rows = this.probeRows;
-    for (let k = 0; k < rows.length; k++) { const n = rows[k]!; this.probeBuf[k] = n < 0 ? 0 : op.nodes[this.nodeNames[n]!]!; }
+    for (let k = 0; k < rows.length; k++) {
+      const n = rows[k]!;
+      this.probeBuf[k] = n < 0 ? 0 : op.nodes[this.nodeNames[n]!]!;
+    }
     this.probesStale = false;
   }
 
   /** Choose node voltages to read after every sample (probeValues). */
   setProbes(nodeNames: readonly string[]): void {
-    this.probeRows = Int32Array.from(nodeNames.map((n) => {
-      if (n === this.circuit.ground) return -1;
-      const i = this.nodeIndex.get(n);
-      if (i === undefined) throw new Error(`no node "${n}" to probe`);
-      return i;
-    }));
+    this.probeRows = Int32Array.from(
+      nodeNames.map((n) => {
+        if (n === this.circuit.ground) return -1;
+        const i = this.nodeIndex.get(n);
+        if (i === undefined) throw new Error(`no node "${n}" to probe`);
+        return i;
+      }),
+    );
     this.probeBuf = new Float64Array(nodeNames.length);
     if (this.atRest) this.probesAtOperatingPoint();
     else this.probesStale = true;
@@ -723,7 +792,11 @@ export class CircuitEngine {
    */
   stepFrom(src: Float64Array, k: number, dst: Float64Array, j: number): void {
     if (this.constDirty) this.updateConstants();
-    const x = this.x, p = this.p, capV = this.capV, capI = this.capI, capVPrev = this.capVPrev;
+    const x = this.x,
+      p = this.p,
+      capV = this.capV,
+      capI = this.capI,
+      capVPrev = this.capVPrev;
     this.stage1(src, k, capV, capVPrev, capI, this.capR, this.Pd, this.pConst, x, p);
     const root = this.root;
     if (root.solve(p, TRANSIENT) < 0) {
@@ -748,7 +821,10 @@ export class CircuitEngine {
    * per-sample pass was ~60 multiply-adds of ~450).
    */
   get probeValues(): Float64Array {
-    if (this.probesStale) { this.writeProbes(); this.probesStale = false; }
+    if (this.probesStale) {
+      this.writeProbes();
+      this.probesStale = false;
+    }
     return this.probeBuf;
   }
 
@@ -757,8 +833,17 @@ export class CircuitEngine {
    * capacitor waves and the input are in x[0..nc] (stage 1), the other sources' EMFs in u.
    */
   private writeProbes(): void {
-    const tr = this.tr, nu = tr.nu, m = tr.m, u = this.u, x = this.x, nd = this.caps.length + 1, i = this.root.i, rows = this.probeRows, out = this.probeBuf;
-    const Zu = tr.Zu, Zi = tr.Zi;
+    const tr = this.tr,
+      nu = tr.nu,
+      m = tr.m,
+      u = this.u,
+      x = this.x,
+      nd = this.caps.length + 1,
+      i = this.root.i,
+      rows = this.probeRows,
+      out = this.probeBuf;
+    const Zu = tr.Zu,
+      Zi = tr.Zi;
     for (let k = 0; k < rows.length; k++) {
       const n = rows[k]!;
       let acc = 0;

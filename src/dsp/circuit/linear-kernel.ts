@@ -32,8 +32,18 @@ export interface LinearShape {
  * input sample is: no double crosses the call, see below), capV, capVPrev, capI, capR (capacitor
  * state and port resistances), Pd (m × (nc+1) row-major), pConst, x, p.
  */
-export type LinearStage1 = (src: Float64Array, k: number, capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, capR: Float64Array,
-  Pd: Float64Array, pConst: Float64Array, x: Float64Array, p: Float64Array) => void;
+export type LinearStage1 = (
+  src: Float64Array,
+  k: number,
+  capV: Float64Array,
+  capVPrev: Float64Array,
+  capI: Float64Array,
+  capR: Float64Array,
+  Pd: Float64Array,
+  pConst: Float64Array,
+  x: Float64Array,
+  p: Float64Array,
+) => void;
 
 /**
  * Stage 2: copies i into x[nc+1..], updates capV and, per rule, capI (trapezoidal) or capVPrev
@@ -44,8 +54,20 @@ export type LinearStage1 = (src: Float64Array, k: number, capV: Float64Array, ca
  * Inputs and outputs go through arrays, not number arguments or a number result: V8 boxes a
  * double that crosses a call it does not inline (16 bytes each), and these calls are not inlined.
  */
-export type LinearStage2 = (i: Float64Array, x: Float64Array, Cd: Float64Array, cConst: Float64Array, invCapR: Float64Array,
-  capV: Float64Array, capVPrev: Float64Array, capI: Float64Array, Od: Float64Array, oConst: Float64Array, dst: Float64Array, j: number) => void;
+export type LinearStage2 = (
+  i: Float64Array,
+  x: Float64Array,
+  Cd: Float64Array,
+  cConst: Float64Array,
+  invCapR: Float64Array,
+  capV: Float64Array,
+  capVPrev: Float64Array,
+  capI: Float64Array,
+  Od: Float64Array,
+  oConst: Float64Array,
+  dst: Float64Array,
+  j: number,
+) => void;
 
 function checkShape(s: LinearShape): void {
   if (!(Number.isInteger(s.nc) && s.nc >= 0 && s.nc <= 512 && Number.isInteger(s.m) && s.m >= 0 && s.m <= 64)) {
@@ -56,12 +78,12 @@ function checkShape(s: LinearShape): void {
 
 export function compileLinearStage1(s: LinearShape): LinearStage1 {
   checkShape(s);
-  const { nc, m } = s, nd = nc + 1, L: string[] = [];
+  const { nc, m } = s,
+    nd = nc + 1,
+    L: string[] = [];
   for (let j = 0; j < nc; j++) {
     // BDF2 history 4/3 v[n-1] - 1/3 v[n-2]; trapezoidal (WDF capacitor, b[n] = a[n-1]) v + R i
-    L.push(s.bdf2?.[j]
-      ? `const x${j} = ${4 / 3} * capV[${j}] - ${1 / 3} * capVPrev[${j}];`
-      : `const x${j} = capV[${j}] + capR[${j}] * capI[${j}];`);
+    L.push(s.bdf2?.[j] ? `const x${j} = ${4 / 3} * capV[${j}] - ${1 / 3} * capVPrev[${j}];` : `const x${j} = capV[${j}] + capR[${j}] * capI[${j}];`);
     L.push(`x[${j}] = x${j};`);
   }
   L.push(`const x${nc} = src[k]; x[${nc}] = x${nc};`);
@@ -71,13 +93,17 @@ export function compileLinearStage1(s: LinearShape): LinearStage1 {
     L.push(`p[${r}] = ${t.join(' + ')};`);
   }
   // a named function (profiles show it by name rather than as anonymous)
-  return generated<LinearStage1>(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`) ?? loopLinearStage1(s);
+  return (
+    generated<LinearStage1>(`return function linearStage1(src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) {\n${L.join('\n')}\n};`) ?? loopLinearStage1(s)
+  );
 }
 
 /** compileLinearStage1's computation as loops (no code generation, no allocation per call). */
 export function loopLinearStage1(s: LinearShape): LinearStage1 {
   checkShape(s);
-  const { nc, m } = s, nd = nc + 1, bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
+  const { nc, m } = s,
+    nd = nc + 1,
+    bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
   return (src, k, capV, capVPrev, capI, capR, Pd, pConst, x, p) => {
     for (let j = 0; j < nc; j++) x[j] = bdf2[j] ? (4 / 3) * capV[j]! - (1 / 3) * capVPrev[j]! : capV[j]! + capR[j]! * capI[j]!;
     x[nc] = src[k]!;
@@ -91,7 +117,10 @@ export function loopLinearStage1(s: LinearShape): LinearStage1 {
 
 export function compileLinearStage2(s: LinearShape): LinearStage2 {
   checkShape(s);
-  const { nc, m } = s, nd = nc + 1, nx = nd + m, L: string[] = [];
+  const { nc, m } = s,
+    nd = nc + 1,
+    nx = nd + m,
+    L: string[] = [];
   for (let c = 0; c < nd; c++) L.push(`const x${c} = x[${c}];`);
   for (let c = 0; c < m; c++) L.push(`const x${nd + c} = i[${c}]; x[${nd + c}] = x${nd + c};`);
   for (let j = 0; j < nc; j++) {
@@ -104,13 +133,19 @@ export function compileLinearStage2(s: LinearShape): LinearStage2 {
   for (let c = 0; c < nx; c++) o.push(`Od[${c}] * x${c}`);
   L.push(`const out = ${o.join(' + ')};`);
   L.push('dst[j] = out - out === 0 ? out : 0;');
-  return generated<LinearStage2>(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`) ?? loopLinearStage2(s);
+  return (
+    generated<LinearStage2>(`return function linearStage2(i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) {\n${L.join('\n')}\n};`) ??
+    loopLinearStage2(s)
+  );
 }
 
 /** compileLinearStage2's computation as loops (no code generation, no allocation per call). */
 export function loopLinearStage2(s: LinearShape): LinearStage2 {
   checkShape(s);
-  const { nc, m } = s, nd = nc + 1, nx = nd + m, bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
+  const { nc, m } = s,
+    nd = nc + 1,
+    nx = nd + m,
+    bdf2 = Uint8Array.from({ length: nc }, (_, j) => (s.bdf2?.[j] ? 1 : 0));
   return (i, x, Cd, cConst, invCapR, capV, capVPrev, capI, Od, oConst, dst, j) => {
     for (let c = 0; c < m; c++) x[nd + c] = i[c]!;
     for (let q = 0; q < nc; q++) {

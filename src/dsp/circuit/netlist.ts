@@ -5,19 +5,37 @@ import { parseGridCurrent, parsePlateModel } from '../tubes/registry.ts';
 
 export const NETLIST_SCHEMA = 'valvewright.netlist.v1';
 
-export interface NetResistor { readonly id: string; readonly kind: 'resistor'; readonly nodes: readonly [string, string]; readonly ohms: number }
-export interface NetCapacitor { readonly id: string; readonly kind: 'capacitor'; readonly nodes: readonly [string, string]; readonly farads: number }
-export interface NetDcSource { readonly id: string; readonly kind: 'dc-source'; readonly nodes: readonly [string, string]; readonly volts: number; readonly ohms: number }
+export interface NetResistor {
+  readonly id: string;
+  readonly kind: 'resistor';
+  readonly nodes: readonly [string, string];
+  readonly ohms: number;
+}
+export interface NetCapacitor {
+  readonly id: string;
+  readonly kind: 'capacitor';
+  readonly nodes: readonly [string, string];
+  readonly farads: number;
+}
+export interface NetDcSource {
+  readonly id: string;
+  readonly kind: 'dc-source';
+  readonly nodes: readonly [string, string];
+  readonly volts: number;
+  readonly ohms: number;
+}
 /** A grid-current law by netlist-v1 name ('dempwolf-zolzer' or 'initial-velocity'; tubes/grid-laws.ts). */
 export type NetGridCurrent = GridLaw;
 export interface NetTriode {
-  readonly id: string; readonly kind: 'triode';
+  readonly id: string;
+  readonly kind: 'triode';
   readonly nodes: { readonly plate: string; readonly grid: string; readonly cathode: string };
   readonly model: KorenTriodeParams & { readonly name: 'koren-triode' };
   readonly gridCurrent?: NetGridCurrent;
 }
 export interface NetPentode {
-  readonly id: string; readonly kind: 'pentode';
+  readonly id: string;
+  readonly kind: 'pentode';
   readonly nodes: { readonly plate: string; readonly screen: string; readonly grid: string; readonly cathode: string };
   readonly model: KorenPentodeParams & { readonly name: 'koren-pentode' };
   readonly gridCurrent?: NetGridCurrent;
@@ -43,7 +61,8 @@ const isObj = (x: unknown): x is Json => typeof x === 'object' && x !== null && 
 function num(o: Json, key: string, where: string, opts: { positive?: boolean; allowZero?: boolean } = {}): number {
   const v = o[key];
   if (typeof v !== 'number' || !Number.isFinite(v)) throw new NetlistError(`${where}: "${key}" must be a finite number`);
-  if (opts.positive && !(v > 0) && !(opts.allowZero && v === 0)) throw new NetlistError(`${where}: "${key}" must be ${opts.allowZero ? 'zero or positive' : 'positive'} (got ${v})`);
+  if (opts.positive && !(v > 0) && !(opts.allowZero && v === 0))
+    throw new NetlistError(`${where}: "${key}" must be ${opts.allowZero ? 'zero or positive' : 'positive'} (got ${v})`);
   return v;
 }
 
@@ -62,16 +81,27 @@ function twoNodes(o: Json, where: string): readonly [string, string] {
   return [n[0], n[1]];
 }
 
-const failNetlist = (message: string): never => { throw new NetlistError(message); };
+const failNetlist = (message: string): never => {
+  throw new NetlistError(message);
+};
 
 function element(e: unknown, index: number): NetElement {
   if (!isObj(e)) throw new NetlistError(`elements[${index}] must be an object`);
   const id = str(e, 'id', `elements[${index}]`);
   const where = `element ${id}`;
   switch (e.kind) {
-    case 'resistor': return { id, kind: 'resistor', nodes: twoNodes(e, where), ohms: num(e, 'ohms', where, { positive: true }) };
-    case 'capacitor': return { id, kind: 'capacitor', nodes: twoNodes(e, where), farads: num(e, 'farads', where, { positive: true }) };
-    case 'dc-source': return { id, kind: 'dc-source', nodes: twoNodes(e, where), volts: num(e, 'volts', where), ohms: num(e, 'ohms', where, { positive: true, allowZero: true }) };
+    case 'resistor':
+      return { id, kind: 'resistor', nodes: twoNodes(e, where), ohms: num(e, 'ohms', where, { positive: true }) };
+    case 'capacitor':
+      return { id, kind: 'capacitor', nodes: twoNodes(e, where), farads: num(e, 'farads', where, { positive: true }) };
+    case 'dc-source':
+      return {
+        id,
+        kind: 'dc-source',
+        nodes: twoNodes(e, where),
+        volts: num(e, 'volts', where),
+        ohms: num(e, 'ohms', where, { positive: true, allowZero: true }),
+      };
     case 'triode': {
       const n = e.nodes;
       if (!isObj(n)) throw new NetlistError(`${where}: nodes must name plate, grid and cathode`);
@@ -79,7 +109,8 @@ function element(e: unknown, index: number): NetElement {
       if (!isObj(m)) throw new NetlistError(`${where}: model.name must be "koren-triode"`);
       const gc = parseGridCurrent(e.gridCurrent, where, failNetlist);
       return {
-        id, kind: 'triode',
+        id,
+        kind: 'triode',
         nodes: { plate: str(n, 'plate', where), grid: str(n, 'grid', where), cathode: str(n, 'cathode', where) },
         model: parsePlateModel('triode', m, where, failNetlist),
         ...(gc ? { gridCurrent: gc } : {}),
@@ -92,7 +123,8 @@ function element(e: unknown, index: number): NetElement {
       if (!isObj(m)) throw new NetlistError(`${where}: model.name must be "koren-pentode"`);
       const gc = parseGridCurrent(e.gridCurrent, where, failNetlist);
       return {
-        id, kind: 'pentode',
+        id,
+        kind: 'pentode',
         nodes: { plate: str(n, 'plate', where), screen: str(n, 'screen', where), grid: str(n, 'grid', where), cathode: str(n, 'cathode', where) },
         model: parsePlateModel('pentode', m, where, failNetlist),
         ...(gc ? { gridCurrent: gc } : {}),
@@ -115,7 +147,11 @@ export function elementNodes(e: NetElement): string[] {
 export function parseNetlist(input: unknown): Netlist {
   let doc = input;
   if (typeof input === 'string') {
-    try { doc = JSON.parse(input); } catch (err) { throw new NetlistError(`netlist is not valid JSON: ${(err as Error).message}`); }
+    try {
+      doc = JSON.parse(input);
+    } catch (err) {
+      throw new NetlistError(`netlist is not valid JSON: ${(err as Error).message}`);
+    }
   }
   if (!isObj(doc)) throw new NetlistError('netlist must be a JSON object');
   if (doc.schema !== NETLIST_SCHEMA) throw new NetlistError(`netlist "schema" must be "${NETLIST_SCHEMA}" (got ${JSON.stringify(doc.schema)})`);

@@ -56,7 +56,13 @@ export function buildSlotPlan(design: Design, baseRateHz: number, factor: Oversa
   const { result: oc, keys } = recordTables(() => new OversampledCircuit(circuit, baseRateHz, factor, undefined, { tubeFunctions }));
   const engine = oc.engine.preparedState();
   return {
-    kind: SLOT_PLAN_KIND, design, baseRateHz, factor, tubeFunctions, circuit, engine,
+    kind: SLOT_PLAN_KIND,
+    design,
+    baseRateHz,
+    factor,
+    tubeFunctions,
+    circuit,
+    engine,
     outputDcVolts: engine.operatingPoint.nodes[oc.engine.outputNodeName] ?? 0,
     probes: probesOf(design),
     tables: exportTables(keys),
@@ -75,7 +81,8 @@ export function instantiateSlotPlan(plan: SlotPlan): OversampledCircuit {
 export function planTransferables(plan: SlotPlan): ArrayBuffer[] {
   const m = plan.engine.matrices;
   const out: ArrayBuffer[] = [];
-  for (const a of [m.E, m.F, m.Pu, m.Pi, m.Zu, m.Zi, plan.engine.rootVolts, ...plan.tables.map((t) => t.coefficients)]) if (a.buffer instanceof ArrayBuffer) out.push(a.buffer);
+  for (const a of [m.E, m.F, m.Pu, m.Pi, m.Zu, m.Zi, plan.engine.rootVolts, ...plan.tables.map((t) => t.coefficients)])
+    if (a.buffer instanceof ArrayBuffer) out.push(a.buffer);
   return out;
 }
 
@@ -102,7 +109,9 @@ const isRecord = (x: unknown): x is Record<string, unknown> => typeof x === 'obj
  * data): sizes of every array against the matrix dimensions. Throws with a one-line reason.
  */
 export function validateSlotPlan(x: unknown): SlotPlan {
-  const bad = (why: string): never => { throw new Error(`not a slot plan: ${why}`); };
+  const bad = (why: string): never => {
+    throw new Error(`not a slot plan: ${why}`);
+  };
   if (!isRecord(x) || x.kind !== SLOT_PLAN_KIND) return bad(`"kind" must be "${SLOT_PLAN_KIND}"`);
   if (!isRecord(x.design) || !isRecord(x.circuit) || !Array.isArray(x.circuit.elements)) return bad('design and circuit required');
   if (typeof x.baseRateHz !== 'number' || !(x.baseRateHz > 0)) return bad('baseRateHz must be positive');
@@ -113,14 +122,18 @@ export function validateSlotPlan(x: unknown): SlotPlan {
   const e = x.engine;
   if (!isRecord(e) || !isRecord(e.matrices) || !isRecord(e.operatingPoint) || !(e.rootVolts instanceof Float64Array)) return bad('engine state required');
   const m = e.matrices as Partial<RootMatrices>;
-  const N = m.nodeCount, nu = m.nu, k = m.m;
+  const N = m.nodeCount,
+    nu = m.nu,
+    k = m.m;
   if (typeof N !== 'number' || typeof nu !== 'number' || typeof k !== 'number') return bad('matrix sizes required');
   const sized = (a: unknown, n: number): boolean => a instanceof Float64Array && a.length === n && allFinite(a);
-  if (!sized(m.E, k * nu) || !sized(m.F, k * k) || !sized(m.Pu, nu * nu) || !sized(m.Pi, nu * k) || !sized(m.Zu, N * nu) || !sized(m.Zi, N * k)) return bad('matrix arrays of the wrong size or not finite');
+  if (!sized(m.E, k * nu) || !sized(m.F, k * k) || !sized(m.Pu, nu * nu) || !sized(m.Pi, nu * k) || !sized(m.Zu, N * nu) || !sized(m.Zi, N * k))
+    return bad('matrix arrays of the wrong size or not finite');
   if (!sized(e.rootVolts, k)) return bad('root state of the wrong size');
   if (!Array.isArray(x.tables)) return bad('tables must be an array');
   for (const t of x.tables as unknown[]) {
-    if (!isRecord(t) || typeof t.key !== 'string' || typeof t.intervals !== 'number' || typeof t.x0 !== 'number' || typeof t.x1 !== 'number' || !(t.x1 > t.x0)) return bad('a table without key, range or size');
+    if (!isRecord(t) || typeof t.key !== 'string' || typeof t.intervals !== 'number' || typeof t.x0 !== 'number' || typeof t.x1 !== 'number' || !(t.x1 > t.x0))
+      return bad('a table without key, range or size');
     if (!sized(t.coefficients, 4 * t.intervals)) return bad(`table ${t.key}: coefficients of the wrong size or not finite`);
   }
   const op = e.operatingPoint as Partial<OperatingPoint>;

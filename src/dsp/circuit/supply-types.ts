@@ -33,4 +33,3 @@ export interface SecondarySpec {
    */
   readonly windingOhms?: number;
 }
-

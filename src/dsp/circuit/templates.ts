@@ -1,7 +1,10 @@
 // Starting designs of our own. They are ordinary designs (data), compiled like any other.
 import { DESIGN_SCHEMA, type Design, type Part } from './design.ts';
 
-const k = 1e3, M = 1e6, n = 1e-9, u = 1e-6;
+const k = 1e3,
+  M = 1e6,
+  n = 1e-9,
+  u = 1e-6;
 
 /** Shared back half: direct-coupled triode with bypassed cathode, then treble cut and volume. */
 function secondStageAndTone(firstPlate: string, rk2Ohms: number, rp2Ohms: number): Part[] {

@@ -6,11 +6,15 @@ export class NodeSets {
   private readonly parent = new Map<string, string>();
   find(x: string): string {
     let p = this.parent.get(x) ?? x;
-    if (p !== x) { p = this.find(p); this.parent.set(x, p); }
+    if (p !== x) {
+      p = this.find(p);
+      this.parent.set(x, p);
+    }
     return p;
   }
   union(a: string, b: string): void {
-    const ra = this.find(a), rb = this.find(b);
+    const ra = this.find(a),
+      rb = this.find(b);
     if (ra !== rb) this.parent.set(ra, rb);
   }
   same(a: string, b: string): boolean {
@@ -33,7 +37,11 @@ export function dcConnectivity(elements: readonly EngineElement[], input: { node
 }
 
 /** Control grids with no DC path to ground (so also none to their cathode's return). */
-export function gridsWithoutDcPath(elements: readonly EngineElement[], input: { node: string; ohms: number }, ground: string): { tube: string; grid: string }[] {
+export function gridsWithoutDcPath(
+  elements: readonly EngineElement[],
+  input: { node: string; ohms: number },
+  ground: string,
+): { tube: string; grid: string }[] {
   const sets = dcConnectivity(elements, input, ground);
   const out: { tube: string; grid: string }[] = [];
   for (const e of elements) {

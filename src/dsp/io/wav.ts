@@ -146,9 +146,7 @@ function parseFmt(bytes: Uint8Array, o: number, size: number): FmtInfo {
   }
   const expectedAlign = channelCount * (bitDepth / 8);
   if (blockAlign !== expectedAlign) {
-    throw new WavError(
-      `block align ${blockAlign} does not match ${channelCount} channels x ${bitDepth / 8} bytes = ${expectedAlign}`,
-    );
+    throw new WavError(`block align ${blockAlign} does not match ${channelCount} channels x ${bitDepth / 8} bytes = ${expectedAlign}`);
   }
   return { formatCode: tag, format, channelCount, sampleRate, blockAlign, bitDepth, validBits };
 }
@@ -180,9 +178,7 @@ export function parseWavHeader(bytes: Uint8Array, fileByteLength: number = bytes
       if (dataOffset >= 0) throw new WavError('more than one data chunk');
       const available = fileByteLength - body;
       if (size > available) {
-        throw new WavError(
-          `truncated file: data chunk declares ${size} bytes but only ${available} follow (${size - available} bytes missing)`,
-        );
+        throw new WavError(`truncated file: data chunk declares ${size} bytes but only ${available} follow (${size - available} bytes missing)`);
       }
       dataOffset = body;
       dataSize = size;
@@ -260,7 +256,7 @@ export function decodeFrameBlock(
       for (let i = outOffset; i < end; i++, p += align) dst[i] = view.getInt16(p, true) / 32768;
     } else if (header.bitDepth === 24) {
       for (let i = outOffset; i < end; i++, p += align) {
-        const v = ((block[p] ?? 0) | ((block[p + 1] ?? 0) << 8) | ((block[p + 2] ?? 0) << 16)) << 8 >> 8;
+        const v = (((block[p] ?? 0) | ((block[p + 1] ?? 0) << 8) | ((block[p + 2] ?? 0) << 16)) << 8) >> 8;
         dst[i] = v / 8388608;
       }
     } else if (header.bitDepth === 32) {
@@ -407,7 +403,8 @@ export function encodeFrameBlock(
     for (let i = startFrame; i < endFrame; i++, p += align) {
       const x = src[i] ?? 0;
       let q = Math.round(x * full);
-      if (!(q >= -full)) q = x > 0 ? max : x < 0 ? -full : 0; // NaN or -big
+      if (!(q >= -full))
+        q = x > 0 ? max : x < 0 ? -full : 0; // NaN or -big
       else if (q > max) q = max;
       if (bps === 2) view.setInt16(p, q, true);
       else if (bps === 3) {
@@ -420,11 +417,7 @@ export function encodeFrameBlock(
   return n * align;
 }
 
-export function encodeWav(
-  channels: readonly Float32Array[] | readonly Float64Array[],
-  sampleRate: number,
-  format: WavEncodeFormat,
-): Uint8Array {
+export function encodeWav(channels: readonly Float32Array[] | readonly Float64Array[], sampleRate: number, format: WavEncodeFormat): Uint8Array {
   const float = format.float === true;
   checkEncodeArgs(sampleRate, channels.length, format.bitDepth, float);
   const frameCount = channels[0]?.length ?? 0;

@@ -142,7 +142,7 @@ function kaiserHalfbandTaps(M: number, beta: number): number[] {
   for (let k = -half; k <= half; k += 2) {
     const r = k / half;
     const window = besselI0(beta * Math.sqrt(Math.max(0, 1 - r * r))) / i0Beta;
-    const value = (0.5 * Math.sin((Math.PI * k) / 2)) / ((Math.PI * k) / 2) * window;
+    const value = ((0.5 * Math.sin((Math.PI * k) / 2)) / ((Math.PI * k) / 2)) * window;
     taps[k + half] = value;
     oddSum += value;
   }

@@ -132,7 +132,10 @@ export class Oversampler {
     if (out.length < this.factor) throw new Error(`Oversampler.upsample: out has ${out.length} samples, needs ${this.factor}`);
     const stages = this.stages;
     const count = stages.length;
-    if (count === 0) { out[0] = this.one[0]!; return; }
+    if (count === 0) {
+      out[0] = this.one[0]!;
+      return;
+    }
     // Ping-pong between scratch and out so that the last stage writes into out.
     let from: Float64Array = (count - 1) % 2 === 0 ? out : this.scratch;
     (stages[0] as HalfbandStage).upsampleBlock(this.one, 1, from);

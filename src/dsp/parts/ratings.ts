@@ -3,24 +3,15 @@
 // (check-values.md, "Power supply and ratings").
 
 /** Common capacitor DC voltage ratings, volts (common practice). */
-export const CAPACITOR_VOLTAGE_RATINGS_VOLTS: readonly number[] = [
-  16, 25, 35, 50, 63, 100, 160, 200, 250, 350, 400, 450, 500, 630, 1000,
-];
+export const CAPACITOR_VOLTAGE_RATINGS_VOLTS: readonly number[] = [16, 25, 35, 50, 63, 100, 160, 200, 250, 350, 400, 450, 500, 630, 1000];
 
 /** Common resistor power ratings, watts (common practice). */
 export const RESISTOR_WATTAGE_RATINGS_WATTS: readonly number[] = [0.125, 0.25, 0.5, 1, 2, 3, 5, 10];
 
 export type RatingResult =
-  | { readonly ok: true; readonly rating: number; /** stress / rating */ readonly usedFraction: number }
-  | { readonly ok: false; readonly reason: string };
+  { readonly ok: true; readonly rating: number; /** stress / rating */ readonly usedFraction: number } | { readonly ok: false; readonly reason: string };
 
-function nextRating(
-  stress: number,
-  derate: number,
-  list: readonly number[],
-  what: string,
-  unitSymbol: string,
-): RatingResult {
+function nextRating(stress: number, derate: number, list: readonly number[], what: string, unitSymbol: string): RatingResult {
   if (!Number.isFinite(stress) || stress < 0) {
     return { ok: false, reason: `${what}: stress must be a finite number ≥ 0, got ${String(stress)}` };
   }

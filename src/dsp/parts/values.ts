@@ -5,9 +5,7 @@
 
 export type ValueUnit = 'ohms' | 'farads' | 'volts' | 'amperes' | 'watts' | 'hertz';
 
-export type ParseResult =
-  | { readonly ok: true; readonly value: number; readonly note?: string }
-  | { readonly ok: false; readonly reason: string };
+export type ParseResult = { readonly ok: true; readonly value: number; readonly note?: string } | { readonly ok: false; readonly reason: string };
 
 export interface ParseOptions {
   /** Accept exactly zero (e.g. a 0 V node). Default false. */
@@ -44,7 +42,6 @@ const UNITS: Readonly<Record<ValueUnit, UnitInfo>> = {
   watts: { noun: 'power', symbol: 'W', rkmLetter: 'W', minAbs: 1e-6, maxAbs: 1e4, rangeText: '1 µW to 10 kW' },
   hertz: { noun: 'frequency', symbol: 'Hz', rkmLetter: null, minAbs: 1e-3, maxAbs: 1e8, rangeText: '1 mHz to 100 MHz' },
 };
-
 
 /** SI prefixes plus builders' habits: K = kilo, U/u = micro, N = nano. */
 const PREFIXES: Readonly<Record<string, number>> = {

@@ -21,8 +21,15 @@
 // pre-allocated), and CircuitEngine.setValues recompiles its matrices in place (tests/
 // engine-alloc.test.ts counts the collections during a glide: none).
 import {
-  partValueUpdates, potResistors, validateDesign, withPart, DesignError,
-  type Design, type Part, type PotPart, type TubePart,
+  partValueUpdates,
+  potResistors,
+  validateDesign,
+  withPart,
+  DesignError,
+  type Design,
+  type Part,
+  type PotPart,
+  type TubePart,
 } from '../circuit/design.ts';
 import type { ValueUpdate } from '../circuit/engine.ts';
 import { buildSlotPlan, instantiateSlotPlan, validateSlotPlan, type SlotPlan } from '../circuit/plan.ts';
@@ -122,20 +129,35 @@ const tubesOf = (d: Design): TubePart[] => d.parts.filter((p): p is TubePart => 
 export const planModel: ModelFactory = (plan) => {
   const oc = instantiateSlotPlan(plan);
   // solver counters from the last reset on (a warm-up's are not reported)
-  let fallbacks0 = 0, failed0 = 0;
+  let fallbacks0 = 0,
+    failed0 = 0;
   const dc = plan.outputDcVolts;
   return {
     processSample: (v) => oc.processSample(v),
     processRange: (src, dst, off, len) => oc.processRange(src, dst, off, len),
-    get latencySamples() { return oc.latencySamples; },
-    get outputDcVolts() { return dc; },
-    get probeValues() { return oc.engine.probeValues; },
+    get latencySamples() {
+      return oc.latencySamples;
+    },
+    get outputDcVolts() {
+      return dc;
+    },
+    get probeValues() {
+      return oc.engine.probeValues;
+    },
     setValues: (u) => oc.engine.setValues(u),
     setSwitch: (id, closed) => oc.engine.setSwitch(id, closed),
     setTubeSample: (id, s) => oc.engine.setTubeSample(id, s),
-    reset: () => { oc.reset(); fallbacks0 = oc.engine.fallbackSamples; failed0 = oc.engine.failedSamples; },
-    get fallbackSamples() { return oc.engine.fallbackSamples - fallbacks0; },
-    get failedSamples() { return oc.engine.failedSamples - failed0; },
+    reset: () => {
+      oc.reset();
+      fallbacks0 = oc.engine.fallbackSamples;
+      failed0 = oc.engine.failedSamples;
+    },
+    get fallbackSamples() {
+      return oc.engine.fallbackSamples - fallbacks0;
+    },
+    get failedSamples() {
+      return oc.engine.failedSamples - failed0;
+    },
   };
 };
 
@@ -148,16 +170,29 @@ class Ramp {
   target: number;
   private inc = 0;
   private left = 0;
-  constructor(v: number) { this.value = v; this.target = v; }
+  constructor(v: number) {
+    this.value = v;
+    this.target = v;
+  }
   to(target: number, samples: number): void {
     this.target = target;
     const n = Math.max(0, Math.round(samples));
-    if (n === 0 || target === this.value) { this.value = target; this.left = 0; return; }
+    if (n === 0 || target === this.value) {
+      this.value = target;
+      this.left = 0;
+      return;
+    }
     this.inc = (target - this.value) / n;
     this.left = n;
   }
-  jump(v: number): void { this.value = v; this.target = v; this.left = 0; }
-  get moving(): boolean { return this.left > 0; }
+  jump(v: number): void {
+    this.value = v;
+    this.target = v;
+    this.left = 0;
+  }
+  get moving(): boolean {
+    return this.left > 0;
+  }
   /**
    * Advance len samples, multiplying buf[0 … len-1] by the ramp's value at each. One call per
    * segment, no double returned per sample (V8 boxes a double returned from a call it does not
@@ -171,9 +206,13 @@ class Ramp {
       return;
     }
     let v = this.value;
-    const inc = this.inc, target = this.target;
+    const inc = this.inc,
+      target = this.target;
     for (let q = 0; q < len; q++) {
-      if (left > 0) { left--; v = left === 0 ? target : v + inc; }
+      if (left > 0) {
+        left--;
+        v = left === 0 ? target : v + inc;
+      }
       buf[q] = buf[q]! * v;
     }
     this.left = left;
@@ -182,16 +221,24 @@ class Ramp {
 }
 
 type Mutable<T> = { -readonly [K in keyof T]: T[K] };
-interface MutableUpdate { id: string; value: number }
+interface MutableUpdate {
+  id: string;
+  value: number;
+}
 
 /** A part value gliding from `from` to `to` between sample clocks start and start+total. */
 interface Glide {
   readonly partId: string;
   readonly kind: 'resistor' | 'capacitor' | 'pot' | 'tube';
-  from: number; to: number; value: number;
+  from: number;
+  to: number;
+  value: number;
   /** Pots: ohms glide (geometric) besides the position. */
-  fromOhms: number; toOhms: number;
-  start: number; total: number; active: boolean;
+  fromOhms: number;
+  toOhms: number;
+  start: number;
+  total: number;
+  active: boolean;
   readonly updates: MutableUpdate[];
   readonly pot: Mutable<PotPart> | null;
 }
@@ -225,7 +272,9 @@ class SlotState {
     this.warmChunk = 1;
     this.warmBlocks = 0;
   }
-  get warmed(): boolean { return this.warm !== null && this.warmDone >= WARM_BASE_SAMPLES; }
+  get warmed(): boolean {
+    return this.warm !== null && this.warmDone >= WARM_BASE_SAMPLES;
+  }
   glides: Glide[] = [];
   glideById = new Map<string, Glide>();
   allUpdates: MutableUpdate[] = [];
@@ -323,9 +372,21 @@ export class DualSlotEngine {
   /** Meter accumulators [input peak volts, output peak, busy ms, budget ms] (stores never box). */
   private readonly meterAcc = new Float64Array(4);
   private readonly report: Mutable<MeterReport> & { plateVolts: number[]; slotTraces: [SlotTrace | null, SlotTrace | null] } = {
-    type: 'meter', inputPeakVolts: 0, outputPeakDbfs: SILENT_DBFS, gridVolts: 0, plateVolts: [], loadFraction: 0,
-    limiterReductionDb: 0, limiterOn: true, traceSlot: null, slotTraces: [null, null],
-    solverFallbackSamples: 0, solverFailedSamples: 0, matchOffsetDb: null, matchGainDb: 0, outputLufs: null,
+    type: 'meter',
+    inputPeakVolts: 0,
+    outputPeakDbfs: SILENT_DBFS,
+    gridVolts: 0,
+    plateVolts: [],
+    loadFraction: 0,
+    limiterReductionDb: 0,
+    limiterOn: true,
+    traceSlot: null,
+    slotTraces: [null, null],
+    solverFallbackSamples: 0,
+    solverFailedSamples: 0,
+    matchOffsetDb: null,
+    matchGainDb: 0,
+    outputLufs: null,
   };
   /** Live A/B loudness match, measured from the slots' own sound (analysis/loudness-match.ts). */
   private readonly match: LoudnessMatch;
@@ -362,18 +423,28 @@ export class DualSlotEngine {
     for (const m of options.initial ?? []) this.apply(m, true);
   }
 
-  get factor(): OversamplingFactor { return this.factorNow; }
-  get monitor(): Monitor { return this.monitorTarget; }
-  get limiterOn(): boolean { return this.live || this.limiterWanted; }
+  get factor(): OversamplingFactor {
+    return this.factorNow;
+  }
+  get monitor(): Monitor {
+    return this.monitorTarget;
+  }
+  get limiterOn(): boolean {
+    return this.live || this.limiterWanted;
+  }
   /** Delay of the dry path, base samples (the rounded oversampling latency). */
-  get dryDelaySamples(): number { return this.dryDelay; }
+  get dryDelaySamples(): number {
+    return this.dryDelay;
+  }
   /** The design a slot plays (or will play after a pending load), with every edit applied. */
   design(slot: Slot): Design | null {
     const s = this.slot(slot);
     return s.pending ?? s.design;
   }
 
-  private slot(s: Slot): SlotState { return s === 'A' ? this.slots[0] : this.slots[1]; }
+  private slot(s: Slot): SlotState {
+    return s === 'A' ? this.slots[0] : this.slots[1];
+  }
 
   /** Dry-path delay at factor f (memoised: designing the half-bands is not work for process()). */
   private readonly latencies = new Map<OversamplingFactor, number>();
@@ -405,7 +476,9 @@ export class DualSlotEngine {
   }
 
   /** The factor the slots will run at once pending changes are applied. */
-  private get targetFactor(): OversamplingFactor { return this.pendingFactor ?? this.factorNow; }
+  private get targetFactor(): OversamplingFactor {
+    return this.pendingFactor ?? this.factorNow;
+  }
 
   /** A received plan checked against this processor (or one built here for `design`). */
   private planFor(design: Design, plan: unknown, factor: OversamplingFactor): SlotPlan {
@@ -422,7 +495,10 @@ export class DualSlotEngine {
   /** A slot to be swapped to `design` from `plan` at the next block boundary (or at once). */
   private schedule(s: SlotState, design: Design, plan: SlotPlan, immediate: boolean, requestId: number | undefined): void {
     s.pendingClear = false;
-    if (immediate) { this.build(s, design, plan, requestId); return; }
+    if (immediate) {
+      this.build(s, design, plan, requestId);
+      return;
+    }
     s.setPending(design, plan);
     s.pendingRequest = requestId;
   }
@@ -549,8 +625,14 @@ export class DualSlotEngine {
     const next = withPart(base, part);
     validateDesign(next);
     const retyped = part.kind === 'tube' && old.kind === 'tube' && old.type !== part.type;
-    if (retyped) { this.schedule(s, next, this.planFor(next, plan, this.targetFactor), immediate, requestId); return; }
-    if (s.pending) { s.pending = next; return; }
+    if (retyped) {
+      this.schedule(s, next, this.planFor(next, plan, this.targetFactor), immediate, requestId);
+      return;
+    }
+    if (s.pending) {
+      s.pending = next;
+      return;
+    }
     s.design = next;
     const model = s.model;
     if (!model) return;
@@ -591,7 +673,8 @@ export class DualSlotEngine {
   private stepGlides(s: SlotState, n: number, force: boolean): void {
     const model = s.model;
     if (!model) return;
-    let any = false, finishing = false;
+    let any = false,
+      finishing = false;
     const t = this.clock + n / 2;
     for (const g of s.glides) {
       if (!g.active) continue;
@@ -630,7 +713,14 @@ export class DualSlotEngine {
    * Swap a slot to a model instantiated from `plan` (no compile, no DC solve). If `design` has
    * values the plan was not built with (edits since), they are applied as a value change.
    */
-  private build(s: SlotState, d: Design, plan: SlotPlan, requestId: number | undefined, announce = true, warmed?: { model: SlotModel; design: Design }): boolean {
+  private build(
+    s: SlotState,
+    d: Design,
+    plan: SlotPlan,
+    requestId: number | undefined,
+    announce = true,
+    warmed?: { model: SlotModel; design: Design },
+  ): boolean {
     let model: SlotModel;
     try {
       model = warmed ? warmed.model : this.createModel(plan);
@@ -654,8 +744,18 @@ export class DualSlotEngine {
       const updates: MutableUpdate[] = p.kind === 'tube' ? [] : partValueUpdates(p).map((u) => ({ id: u.id, value: u.value }));
       const value = p.kind === 'resistor' ? p.ohms : p.kind === 'capacitor' ? p.farads : p.kind === 'pot' ? p.position : p.sample;
       const g: Glide = {
-        partId: p.id, kind: p.kind, from: value, to: value, value, fromOhms: p.kind === 'pot' ? p.ohms : 0, toOhms: p.kind === 'pot' ? p.ohms : 0,
-        start: 0, total: 0, active: false, updates, pot: p.kind === 'pot' ? { ...p } : null,
+        partId: p.id,
+        kind: p.kind,
+        from: value,
+        to: value,
+        value,
+        fromOhms: p.kind === 'pot' ? p.ohms : 0,
+        toOhms: p.kind === 'pot' ? p.ohms : 0,
+        start: 0,
+        total: 0,
+        active: false,
+        updates,
+        pot: p.kind === 'pot' ? { ...p } : null,
       };
       s.glides.push(g);
       s.glideById.set(p.id, g);
@@ -665,7 +765,14 @@ export class DualSlotEngine {
     s.tubeIds = tubes.map((t) => t.id);
     s.plateVolts = tubes.map(() => 0);
     if (announce) {
-      const loaded: FromProcessor = { type: 'loaded', slot: s.name, designName: d.name, factor: this.factorNow, latencySamples: model.latencySamples, tubeIds: s.tubeIds.slice() };
+      const loaded: FromProcessor = {
+        type: 'loaded',
+        slot: s.name,
+        designName: d.name,
+        factor: this.factorNow,
+        latencySamples: model.latencySamples,
+        tubeIds: s.tubeIds.slice(),
+      };
       this.post(requestId === undefined ? loaded : { ...loaded, requestId });
     }
     return true;
@@ -695,7 +802,10 @@ export class DualSlotEngine {
     this.pendingFactor = null;
     this.pendingReset = false;
     for (const s of this.slots) {
-      const d = s.pending, plan = s.pendingPlan, warm = s.warm, warmDesign = s.warmDesign;
+      const d = s.pending,
+        plan = s.pendingPlan,
+        warm = s.warm,
+        warmDesign = s.warmDesign;
       s.setPending(null, null);
       if (d && plan) this.build(s, d, plan, s.pendingRequest, true, warm && warmDesign ? { model: warm, design: warmDesign } : undefined);
       s.pendingRequest = undefined;
@@ -707,14 +817,18 @@ export class DualSlotEngine {
    * values applied; false (and the slot emptied) if that fails.
    */
   private recover(s: SlotState): boolean {
-    const plan = s.plan, d = s.design;
+    const plan = s.plan,
+      d = s.design;
     if (!s.model || !plan || !d) return true;
     try {
       const model = this.createModel(plan);
       applyDesignValues(model, plan.design, d);
       s.model = model;
       s.dc = model.outputDcVolts;
-      for (const g of s.glides) { g.active = false; g.from = g.to = g.value; }
+      for (const g of s.glides) {
+        g.active = false;
+        g.from = g.to = g.value;
+      }
       return true;
     } catch (e) {
       this.error(`slot ${s.name}: operating point lost (${errMsg(e)}); the slot was emptied`);
@@ -733,7 +847,8 @@ export class DualSlotEngine {
    * until WARM_BASE_SAMPLES, then reset to its operating point. True once it is ready to swap in.
    */
   private prepare(s: SlotState, mayMake: boolean): boolean {
-    const plan = s.pendingPlan, d = s.pending;
+    const plan = s.pendingPlan,
+      d = s.pending;
     if (!plan || !d) return true;
     if (!s.warm) {
       if (!mayMake) return false;
@@ -770,7 +885,8 @@ export class DualSlotEngine {
   /** Block-boundary work: pending loads, quality changes, resets (plans instantiated and warmed, nothing compiled). */
   private boundary(): void {
     const gf = this.globalFade;
-    let made = false, ready = true;
+    let made = false,
+      ready = true;
     for (const s of this.slots) {
       const had = s.warm !== null;
       if (!this.prepare(s, !made)) ready = false;
@@ -790,8 +906,12 @@ export class DualSlotEngine {
         if (s.fade.value === 0 && !s.fade.moving) {
           if (s.pendingClear) this.clear(s);
           else if (s.pending && s.pendingPlan && s.warm && s.warmDesign) {
-            const d = s.pending, plan = s.pendingPlan, id = s.pendingRequest, warmed = { model: s.warm, design: s.warmDesign };
-            s.setPending(null, null); s.pendingRequest = undefined;
+            const d = s.pending,
+              plan = s.pendingPlan,
+              id = s.pendingRequest,
+              warmed = { model: s.warm, design: s.warmDesign };
+            s.setPending(null, null);
+            s.pendingRequest = undefined;
             this.build(s, d, plan, id, true, warmed);
           }
           s.fade.to(1, this.audible(s) ? this.xfadeSamples : 0);
@@ -807,7 +927,8 @@ export class DualSlotEngine {
   process(input: ArrayLike<number> | null, output: { [k: number]: number; length: number }, n: number): void {
     const t0 = this.nowMs();
     this.boundary();
-    const A = this.slots[0], B = this.slots[1];
+    const A = this.slots[0],
+      B = this.slots[1];
     this.faultA = false;
     this.faultB = false;
     for (let off = 0; off < n; off += SMOOTHING_STEP_SAMPLES) {
@@ -837,7 +958,10 @@ export class DualSlotEngine {
 
   /** Live input only: mute the output when it has been held in the limiter too long (see SAFETY_LIMIT_DB). */
   private safetyCheck(n: number): void {
-    if (!this.safetyMute || !this.live || !(this.limiter.gain < this.safetyLimitGain)) { this.limitedSamples = 0; return; }
+    if (!this.safetyMute || !this.live || !(this.limiter.gain < this.safetyLimitGain)) {
+      this.limitedSamples = 0;
+      return;
+    }
     this.limitedSamples += n;
     if (this.limitedSamples < SAFETY_SUSTAIN_SECONDS * this.sampleRateHz) return;
     this.limitedSamples = 0;
@@ -857,28 +981,50 @@ export class DualSlotEngine {
   private readonly gainOut = new Float64Array(SMOOTHING_STEP_SAMPLES);
 
   private segment(input: ArrayLike<number> | null, output: { [k: number]: number }, off: number, len: number): void {
-    const A = this.slots[0], B = this.slots[1];
-    const mA = A.model, mB = B.model;
-    const dcA = A.dc, dcB = B.dc;
-    const ring = this.dryRing, mask = DRY_DELAY_CAPACITY - 1, delay = this.dryDelay;
-    const limit = this.limiterOn, lim = this.limiter;
+    const A = this.slots[0],
+      B = this.slots[1];
+    const mA = A.model,
+      mB = B.model;
+    const dcA = A.dc,
+      dcB = B.dc;
+    const ring = this.dryRing,
+      mask = DRY_DELAY_CAPACITY - 1,
+      delay = this.dryDelay;
+    const limit = this.limiterOn,
+      lim = this.limiter;
     const meterAcc = this.meterAcc;
-    let pos = this.dryPos, inPeak = meterAcc[0]!, outPeak = meterAcc[1]!;
-    let faultA = false, faultB = false;
-    const vinBuf = this.vinBuf, dryBuf = this.dryBuf, yA = this.yBufA, yB = this.yBufB;
-    const gainA = this.gainA, gainB = this.gainB, gainOut = this.gainOut;
+    let pos = this.dryPos,
+      inPeak = meterAcc[0]!,
+      outPeak = meterAcc[1]!;
+    let faultA = false,
+      faultB = false;
+    const vinBuf = this.vinBuf,
+      dryBuf = this.dryBuf,
+      yA = this.yBufA,
+      yB = this.yBufB;
+    const gainA = this.gainA,
+      gainB = this.gainB,
+      gainOut = this.gainOut;
     // Gains for the whole segment first (Ramp.scaleInto: no number returned per sample).
     vinBuf.fill(1, 0, len);
     this.inCal.scaleInto(vinBuf, len);
-    const lvlA = this.lvlA, lvlB = this.lvlB, matchGain = this.matchGain;
-    lvlA.fill(1, 0, len); A.outScale.scaleInto(lvlA, len);
-    lvlB.fill(1, 0, len); B.outScale.scaleInto(lvlB, len);
+    const lvlA = this.lvlA,
+      lvlB = this.lvlB,
+      matchGain = this.matchGain;
+    lvlA.fill(1, 0, len);
+    A.outScale.scaleInto(lvlA, len);
+    lvlB.fill(1, 0, len);
+    B.outScale.scaleInto(lvlB, len);
     gainA.fill(1, 0, len);
-    A.fade.scaleInto(gainA, len); this.gA.scaleInto(gainA, len);
+    A.fade.scaleInto(gainA, len);
+    this.gA.scaleInto(gainA, len);
     gainB.fill(1, 0, len);
-    B.fade.scaleInto(gainB, len); this.gB.scaleInto(gainB, len);
+    B.fade.scaleInto(gainB, len);
+    this.gB.scaleInto(gainB, len);
     gainOut.fill(1, 0, len);
-    this.master.scaleInto(gainOut, len); this.mute.scaleInto(gainOut, len); this.globalFade.scaleInto(gainOut, len);
+    this.master.scaleInto(gainOut, len);
+    this.mute.scaleInto(gainOut, len);
+    this.globalFade.scaleInto(gainOut, len);
     // Pass 1: calibrated input volts and the delayed dry signal.
     for (let q = 0; q < len; q++) {
       let x = input ? input[off + q]! : 0;
@@ -898,16 +1044,24 @@ export class DualSlotEngine {
     // Pass 3: each slot levelled (output scale), measured for the A/B loudness match; then fades,
     // B's match gain and the monitor mix into yA, then the limiter over the segment.
     for (let q = 0; q < len; q++) {
-      let a = 0, b = 0;
+      let a = 0,
+        b = 0;
       if (mA) {
         a = (yA[q]! - dcA) * lvlA[q]!;
-        if (!(a > -FINITE_LIMIT && a < FINITE_LIMIT)) { faultA = true; a = 0; }
+        if (!(a > -FINITE_LIMIT && a < FINITE_LIMIT)) {
+          faultA = true;
+          a = 0;
+        }
       }
       if (mB) {
         b = (yB[q]! - dcB) * lvlB[q]!;
-        if (!(b > -FINITE_LIMIT && b < FINITE_LIMIT)) { faultB = true; b = 0; }
+        if (!(b > -FINITE_LIMIT && b < FINITE_LIMIT)) {
+          faultB = true;
+          b = 0;
+        }
       }
-      lvlA[q] = a; lvlB[q] = b;
+      lvlA[q] = a;
+      lvlB[q] = b;
     }
     this.match.measure(lvlA, lvlB, len, matchGain);
     for (let q = 0; q < len; q++) yA[q] = (lvlA[q]! * gainA[q]! + lvlB[q]! * matchGain[q]! * gainB[q]! + dryBuf[q]!) * gainOut[q]!;
@@ -932,7 +1086,10 @@ export class DualSlotEngine {
     let bad = fault;
     const pv = m.probeValues;
     for (let i = 0; i < pv.length; i++) if (!Number.isFinite(pv[i]!)) bad = true;
-    if (!bad) { s.faultReported = false; return; }
+    if (!bad) {
+      s.faultReported = false;
+      return;
+    }
     for (let k = 0; k < n; k++) output[k] = 0;
     this.meterAcc[1] = 0;
     const wasReported = s.faultReported;
@@ -953,18 +1110,26 @@ export class DualSlotEngine {
     r.loadFraction = acc[3]! > 0 ? acc[2]! / acc[3]! : 0;
     r.limiterReductionDb = this.limiter.minGain < 1 ? -20 * Math.log10(this.limiter.minGain) : 0;
     r.limiterOn = this.limiterOn;
-    const off = this.match.offsetDb, lo = this.match.out.lufs;
+    const off = this.match.offsetDb,
+      lo = this.match.out.lufs;
     r.matchOffsetDb = off === off ? off : null;
     r.matchGainDb = this.match.gainDb;
     r.outputLufs = lo > -200 ? lo : null;
     const traces = r.slotTraces;
-    let fallbacks = 0, failed = 0;
+    let fallbacks = 0,
+      failed = 0;
     for (let k = 0; k < 2; k++) {
-      const s = this.slots[k]!, m = s.model;
-      if (!m) { traces[k] = null; continue; }
+      const s = this.slots[k]!,
+        m = s.model;
+      if (!m) {
+        traces[k] = null;
+        continue;
+      }
       fallbacks += m.fallbackSamples ?? 0;
       failed += m.failedSamples ?? 0;
-      const pv = m.probeValues, pl = s.plateVolts, t = s.trace;
+      const pv = m.probeValues,
+        pl = s.plateVolts,
+        t = s.trace;
       for (let i = 0; i < pl.length; i++) pl[i] = pv[i + 1] ?? 0;
       t.gridVolts = pv[0] ?? 0;
       t.plateVolts = pl;

@@ -11,44 +11,50 @@ export type Monitor = Slot | 'dry';
  * Every message may carry a request id; the processor's reply to it ('loaded', or 'error' when
  * it is refused) carries the same id, so the main thread matches replies by id, never by text.
  */
-export interface Request { readonly requestId?: number }
+export interface Request {
+  readonly requestId?: number;
+}
 
 /** Plans (circuit/plan.ts) compiled off the audio thread, one per slot. */
-export interface SlotPlans { readonly A?: SlotPlan; readonly B?: SlotPlan }
+export interface SlotPlans {
+  readonly A?: SlotPlan;
+  readonly B?: SlotPlan;
+}
 
-export type ToProcessor = Request & (
+export type ToProcessor = Request &
   /**
    * Replace a slot's design (faded out and in at a block boundary; the slot starts at its
    * operating point). `plan` is the design compiled off the audio thread at the processor's rate
    * and factor; without one the processor compiles it in its message handler (tools and tests
    * only: that stalls the audio thread).
    */
-  | { readonly type: 'load-design'; readonly slot: Slot; readonly design: Design; readonly plan?: SlotPlan }
-  /** Empty a slot (it outputs silence and costs nothing). */
-  | { readonly type: 'clear-slot'; readonly slot: Slot }
-  /** New value of one part (resistor, capacitor, pot position/value, switch, tube sample): smoothed, the circuit keeps its state. A tube type change swaps in `plan` (the edited design compiled off the audio thread). */
-  | { readonly type: 'set-part'; readonly slot: Slot; readonly part: Part; readonly plan?: SlotPlan }
-  | { readonly type: 'set-tube-sample'; readonly slot: Slot; readonly tubeId: string; readonly sample: number }
-  /** Oversampling factor of both slots (both are swapped for `plans` at the new factor behind a short fade). */
-  | { readonly type: 'set-quality'; readonly factor: OversamplingFactor; readonly plans?: SlotPlans }
-  /** What is heard: slot A, slot B or the dry input; crossfaded over a few milliseconds. */
-  | { readonly type: 'monitor'; readonly target: Monitor }
-  /** Input samples at full scale stand for this many volts at the circuit input (peak). */
-  | { readonly type: 'set-input-calibration'; readonly voltsAtFullScale: number }
-  /** Output volts (deviation from the operating point) that map to full scale, per slot (loudness matching sets these). */
-  | { readonly type: 'set-output-scale'; readonly slot: Slot; readonly voltsAtFullScale: number }
-  /** Master output level in dB (applied before the safety limiter). */
-  | { readonly type: 'set-output-level'; readonly db: number }
-  /** Safety limiter wanted (ignored while live input is on: then it is always on). */
-  | { readonly type: 'set-limiter'; readonly enabled: boolean }
-  /** Live input forces the safety limiter on; files may bypass it. */
-  | { readonly type: 'set-live-input'; readonly live: boolean }
-  | { readonly type: 'set-mute'; readonly muted: boolean }
-  /** Live A/B loudness match on or off: B's gain follows its measured loudness against A's (analysis/loudness-match.ts). */
-  | { readonly type: 'set-loudness-match'; readonly on: boolean }
-  /** Both slots back to their operating points (behind a short fade): `plans` for the present designs. */
-  | { readonly type: 'reset'; readonly plans?: SlotPlans }
-);
+  (
+    | { readonly type: 'load-design'; readonly slot: Slot; readonly design: Design; readonly plan?: SlotPlan }
+    /** Empty a slot (it outputs silence and costs nothing). */
+    | { readonly type: 'clear-slot'; readonly slot: Slot }
+    /** New value of one part (resistor, capacitor, pot position/value, switch, tube sample): smoothed, the circuit keeps its state. A tube type change swaps in `plan` (the edited design compiled off the audio thread). */
+    | { readonly type: 'set-part'; readonly slot: Slot; readonly part: Part; readonly plan?: SlotPlan }
+    | { readonly type: 'set-tube-sample'; readonly slot: Slot; readonly tubeId: string; readonly sample: number }
+    /** Oversampling factor of both slots (both are swapped for `plans` at the new factor behind a short fade). */
+    | { readonly type: 'set-quality'; readonly factor: OversamplingFactor; readonly plans?: SlotPlans }
+    /** What is heard: slot A, slot B or the dry input; crossfaded over a few milliseconds. */
+    | { readonly type: 'monitor'; readonly target: Monitor }
+    /** Input samples at full scale stand for this many volts at the circuit input (peak). */
+    | { readonly type: 'set-input-calibration'; readonly voltsAtFullScale: number }
+    /** Output volts (deviation from the operating point) that map to full scale, per slot (loudness matching sets these). */
+    | { readonly type: 'set-output-scale'; readonly slot: Slot; readonly voltsAtFullScale: number }
+    /** Master output level in dB (applied before the safety limiter). */
+    | { readonly type: 'set-output-level'; readonly db: number }
+    /** Safety limiter wanted (ignored while live input is on: then it is always on). */
+    | { readonly type: 'set-limiter'; readonly enabled: boolean }
+    /** Live input forces the safety limiter on; files may bypass it. */
+    | { readonly type: 'set-live-input'; readonly live: boolean }
+    | { readonly type: 'set-mute'; readonly muted: boolean }
+    /** Live A/B loudness match on or off: B's gain follows its measured loudness against A's (analysis/loudness-match.ts). */
+    | { readonly type: 'set-loudness-match'; readonly on: boolean }
+    /** Both slots back to their operating points (behind a short fade): `plans` for the present designs. */
+    | { readonly type: 'reset'; readonly plans?: SlotPlans }
+  );
 
 export interface MeterReport {
   readonly type: 'meter';
@@ -102,7 +108,10 @@ export interface SlotTrace {
 export type FromProcessor =
   | { readonly type: 'ready'; readonly sampleRateHz: number; readonly factor: OversamplingFactor }
   | {
-      readonly type: 'loaded'; readonly slot: Slot; readonly designName: string; readonly factor: OversamplingFactor;
+      readonly type: 'loaded';
+      readonly slot: Slot;
+      readonly designName: string;
+      readonly factor: OversamplingFactor;
       /** The request that asked for this design (load-design, or set-part changing a tube type). */
       readonly requestId?: number;
       /** Round-trip latency of the oversampling filters, base-rate samples (the dry path is delayed by its rounded value). */

@@ -10,10 +10,7 @@ export const TAKE_CHUNK_SAMPLES = 4800;
 /** Chunks in the pool: the main thread may fall this far behind (1.6 s at 48 kHz) before samples drop. */
 export const TAKE_POOL_CHUNKS = 16;
 
-export type TakeToProcessor =
-  | { readonly type: 'buffers'; readonly buffers: readonly Float32Array[] }
-  | { readonly type: 'start' }
-  | { readonly type: 'stop' };
+export type TakeToProcessor = { readonly type: 'buffers'; readonly buffers: readonly Float32Array[] } | { readonly type: 'start' } | { readonly type: 'stop' };
 
 export type TakeFromProcessor =
   /** A chunk holding `length` samples (the last one of a take may be partial). */

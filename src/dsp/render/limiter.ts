@@ -37,8 +37,11 @@ export class PeakLimiter {
 
   /** The limiter over buf[0 … len-1] in place (the audio path: no number crosses a call). */
   processInPlace(buf: Float64Array, len: number): void {
-    const st = this.state, c = this.ceiling, rel = this.releaseCoeff;
-    let gain = st[0]!, minGain = st[1]!;
+    const st = this.state,
+      c = this.ceiling,
+      rel = this.releaseCoeff;
+    let gain = st[0]!,
+      minGain = st[1]!;
     for (let q = 0; q < len; q++) {
       const x = buf[q]!;
       const a = Math.abs(x);

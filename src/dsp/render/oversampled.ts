@@ -78,9 +78,14 @@ export class OversampledCircuit {
 
   /** src[k] (input volts) to dst[j] (output volts), arrays only: the audio path's entry (no boxing). */
   processAt(src: Float64Array, k: number, dst: Float64Array, j: number): void {
-    const f = this.factor, e = this.engine;
-    if (f === 1) { e.stepFrom(src, k, dst, j); return; }
-    const hi = this.hi, hiOut = this.hiOut;
+    const f = this.factor,
+      e = this.engine;
+    if (f === 1) {
+      e.stepFrom(src, k, dst, j);
+      return;
+    }
+    const hi = this.hi,
+      hiOut = this.hiOut;
     this.up.upsampleFrom(src, k, hi);
     for (let q = 0; q < f; q++) e.stepFrom(hi, q, hiOut, q);
     this.down.downsampleInto(hiOut, dst, j);

@@ -82,9 +82,14 @@ export function planPairGains(measured: readonly [PairLoudness, PairLoudness], o
   const gainsDb = [commonLufs - ma.integratedLufs, commonLufs - mb.integratedLufs] as const;
   const ceilingReductionDb = requestedLufs - commonLufs;
   return {
-    commonLufs, requestedLufs, reference: options.targetLufs === undefined ? 'quieter' : 'target',
-    gainsDb, gains: [10 ** (gainsDb[0] / 20), 10 ** (gainsDb[1] / 20)],
-    ceilingBound: ceilingReductionDb > 1e-9, ceilingReductionDb: Math.max(0, ceilingReductionDb), ceilingDbtp,
+    commonLufs,
+    requestedLufs,
+    reference: options.targetLufs === undefined ? 'quieter' : 'target',
+    gainsDb,
+    gains: [10 ** (gainsDb[0] / 20), 10 ** (gainsDb[1] / 20)],
+    ceilingBound: ceilingReductionDb > 1e-9,
+    ceilingReductionDb: Math.max(0, ceilingReductionDb),
+    ceilingDbtp,
   };
 }
 
@@ -122,14 +127,19 @@ export function correctPairGains(plan: PairGainPlan, final: readonly [PairLoudne
   ] as const;
   const ceilingReductionDb = Math.max(0, plan.requestedLufs - commonLufs);
   return {
-    ...plan, commonLufs, gainsDb, gains: [10 ** (gainsDb[0] / 20), 10 ** (gainsDb[1] / 20)],
-    ceilingBound: plan.ceilingBound || over > 0, ceilingReductionDb,
+    ...plan,
+    commonLufs,
+    gainsDb,
+    gains: [10 ** (gainsDb[0] / 20), 10 ** (gainsDb[1] / 20)],
+    ceilingBound: plan.ceilingBound || over > 0,
+    ceilingReductionDb,
   };
 }
 
 /** One sentence for the sheet on how the pair was levelled. */
 export function describePlan(plan: PairGainPlan, labels: readonly [string, string]): string {
-  const asked = plan.reference === 'target' ? `the target ${plan.requestedLufs.toFixed(1)} LUFS` : `the quieter file's loudness (${plan.requestedLufs.toFixed(2)} LUFS)`;
+  const asked =
+    plan.reference === 'target' ? `the target ${plan.requestedLufs.toFixed(1)} LUFS` : `the quieter file's loudness (${plan.requestedLufs.toFixed(2)} LUFS)`;
   const g = `gains ${labels[0]} ${fmtDb(plan.gainsDb[0])} dB, ${labels[1]} ${fmtDb(plan.gainsDb[1])} dB`;
   if (!plan.ceilingBound) return `Both files brought to ${asked}; the ${plan.ceilingDbtp} dBTP ceiling did not bind; ${g}; no limiting.`;
   return `Both files were to go to ${asked}, but that would put a true peak over the ${plan.ceilingDbtp} dBTP ceiling, so both were lowered by the same ${plan.ceilingReductionDb.toFixed(2)} dB to ${plan.commonLufs.toFixed(2)} LUFS and still match; ${g}; no limiting.`;
@@ -197,7 +207,8 @@ export class AlignedRender {
   nonFiniteSamples = 0;
 
   constructor(circuit: EngineCircuit | Netlist, sampleRateHz: number, factor: OversamplingFactor, inputVoltsAtFullScale: number) {
-    if (!(inputVoltsAtFullScale > 0 && Number.isFinite(inputVoltsAtFullScale))) throw new Error(`input volts at full scale must be positive (got ${inputVoltsAtFullScale})`);
+    if (!(inputVoltsAtFullScale > 0 && Number.isFinite(inputVoltsAtFullScale)))
+      throw new Error(`input volts at full scale must be positive (got ${inputVoltsAtFullScale})`);
     this.model = new OversampledCircuit(circuit, sampleRateHz, factor);
     this.latencySamples = this.model.latencySamples;
     this.advanceSamples = Math.round(this.latencySamples);
@@ -241,8 +252,12 @@ export class AlignedRender {
 
 /** Whole-signal version of AlignedRender (output length = input length). */
 export function renderAligned(
-  circuit: EngineCircuit | Netlist, input: ArrayLike<number>, sampleRateHz: number, factor: OversamplingFactor,
-  inputVoltsAtFullScale: number, onProgress?: (fraction: number) => void,
+  circuit: EngineCircuit | Netlist,
+  input: ArrayLike<number>,
+  sampleRateHz: number,
+  factor: OversamplingFactor,
+  inputVoltsAtFullScale: number,
+  onProgress?: (fraction: number) => void,
 ): { samples: Float32Array; render: AlignedRender } {
   const r = new AlignedRender(circuit, sampleRateHz, factor, inputVoltsAtFullScale);
   const out = new Float32Array(input.length);
@@ -267,7 +282,12 @@ export function renderAligned(
 
 /** Lower-case ASCII words joined by hyphens ("Hearthstone (pentode front)" -> "hearthstone-pentode-front"). */
 export function slugify(name: string): string {
-  const s = name.normalize('NFKD').replace(/[\u0300-\u036f]/g, '').toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '');
+  const s = name
+    .normalize('NFKD')
+    .replace(/[\u0300-\u036f]/g, '')
+    .toLowerCase()
+    .replace(/[^a-z0-9]+/g, '-')
+    .replace(/^-+|-+$/g, '');
   return s.slice(0, 60).replace(/-+$/, '') || 'untitled';
 }
 
@@ -334,7 +354,9 @@ export interface PartBuyEntry {
 
 function worstOf(c: { warm: number | null; cold?: number; maxInput: number | null }, withCold: boolean): { v: number; c: MarginCondition } | null {
   let best: { v: number; c: MarginCondition } | null = null;
-  const consider = (v: number | null | undefined, cond: MarginCondition) => { if (v !== null && v !== undefined && Number.isFinite(v) && (!best || v > best.v)) best = { v, c: cond }; };
+  const consider = (v: number | null | undefined, cond: MarginCondition) => {
+    if (v !== null && v !== undefined && Number.isFinite(v) && (!best || v > best.v)) best = { v, c: cond };
+  };
   consider(c.warm, 'warm');
   consider(c.maxInput, 'max-input');
   if (withCold) consider(c.cold, 'cold');
@@ -366,8 +388,22 @@ export function ratingMargins(sheet: RatingsSheet): RatingMargin[] {
 
 export function partBuyEntries(sheet: RatingsSheet): PartBuyEntry[] {
   return [
-    ...sheet.capacitors.map((c): PartBuyEntry => ({ part: c.id, quantity: 'capacitor voltage', worst: c.worstVolts, unit: 'V', condition: c.worstCondition, buy: c.buyVolts })),
-    ...sheet.resistors.map((r): PartBuyEntry => ({ part: r.id, quantity: 'resistor power', worst: r.worstWatts, unit: 'W', condition: r.worstCondition, buy: r.buyWatts })),
+    ...sheet.capacitors.map((c): PartBuyEntry => ({
+      part: c.id,
+      quantity: 'capacitor voltage',
+      worst: c.worstVolts,
+      unit: 'V',
+      condition: c.worstCondition,
+      buy: c.buyVolts,
+    })),
+    ...sheet.resistors.map((r): PartBuyEntry => ({
+      part: r.id,
+      quantity: 'resistor power',
+      worst: r.worstWatts,
+      unit: 'W',
+      condition: r.worstCondition,
+      buy: r.buyWatts,
+    })),
   ];
 }
 
@@ -395,13 +431,34 @@ export function componentEntries(design: Design): ComponentEntry[] {
   return design.parts.map((p): ComponentEntry => {
     const base = { id: p.id, kind: p.kind, ...(p.label ? { label: p.label } : {}) };
     switch (p.kind) {
-      case 'resistor': return { ...base, nodes: p.nodes, value: fv(p.ohms, 'ohms'), ...(p.tolerance !== undefined ? { detail: `±${+(p.tolerance * 100).toFixed(2)} %` } : {}) };
-      case 'capacitor': return { ...base, nodes: p.nodes, value: fv(p.farads, 'farads'), ...(p.tolerance !== undefined || p.polarized ? { detail: [p.tolerance !== undefined ? `±${+(p.tolerance * 100).toFixed(2)} %` : '', p.polarized ? 'polarized' : ''].filter(Boolean).join(', ') } : {}) };
-      case 'pot': return { ...base, nodes: p.nodes, value: fv(p.ohms, 'ohms'), detail: `${p.taper} taper at ${+(p.position * 100).toFixed(1)} %` };
-      case 'switch': return { ...base, nodes: p.nodes, value: p.closed ? 'closed' : 'open' };
+      case 'resistor':
+        return {
+          ...base,
+          nodes: p.nodes,
+          value: fv(p.ohms, 'ohms'),
+          ...(p.tolerance !== undefined ? { detail: `±${+(p.tolerance * 100).toFixed(2)} %` } : {}),
+        };
+      case 'capacitor':
+        return {
+          ...base,
+          nodes: p.nodes,
+          value: fv(p.farads, 'farads'),
+          ...(p.tolerance !== undefined || p.polarized
+            ? { detail: [p.tolerance !== undefined ? `±${+(p.tolerance * 100).toFixed(2)} %` : '', p.polarized ? 'polarized' : ''].filter(Boolean).join(', ') }
+            : {}),
+        };
+      case 'pot':
+        return { ...base, nodes: p.nodes, value: fv(p.ohms, 'ohms'), detail: `${p.taper} taper at ${+(p.position * 100).toFixed(1)} %` };
+      case 'switch':
+        return { ...base, nodes: p.nodes, value: p.closed ? 'closed' : 'open' };
       case 'tube': {
         const nodes = [p.nodes.plate, p.nodes.grid, p.nodes.cathode, ...(p.nodes.screen ? [p.nodes.screen] : [])];
-        return { ...base, nodes, value: p.type, detail: `sample ${p.sample}${p.heaterVolts !== undefined ? `, heater at ${p.heaterVolts} V` : ''} (nodes plate, grid, cathode${p.nodes.screen ? ', screen' : ''})` };
+        return {
+          ...base,
+          nodes,
+          value: p.type,
+          detail: `sample ${p.sample}${p.heaterVolts !== undefined ? `, heater at ${p.heaterVolts} V` : ''} (nodes plate, grid, cathode${p.nodes.screen ? ', screen' : ''})`,
+        };
       }
     }
   });
@@ -411,10 +468,23 @@ export function componentEntries(design: Design): ComponentEntry[] {
 export function designSheetEntry(design: Design, ref: string, op: OperatingPoint, ratings: RatingsSheet = ratingsSheet(design, { op })): DesignSheetEntry {
   const tubes: Record<string, TubeOpEntry> = {};
   for (const [id, t] of Object.entries(op.tubes)) {
-    tubes[id] = { kind: t.kind, plateAmps: t.plateAmps, plateWatts: t.plateWatts, gridAmps: t.gridAmps, screenAmps: t.screenAmps, screenWatts: t.screenWatts, cathodeAmps: t.cathodeAmps, vgk: t.vgk, vpk: t.vpk, vsk: t.vsk };
+    tubes[id] = {
+      kind: t.kind,
+      plateAmps: t.plateAmps,
+      plateWatts: t.plateWatts,
+      gridAmps: t.gridAmps,
+      screenAmps: t.screenAmps,
+      screenWatts: t.screenWatts,
+      cathodeAmps: t.cathodeAmps,
+      vgk: t.vgk,
+      vpk: t.vpk,
+      vsk: t.vsk,
+    };
   }
   return {
-    name: design.name, ref, ...(design.description ? { description: design.description } : {}),
+    name: design.name,
+    ref,
+    ...(design.description ? { description: design.description } : {}),
     supply: { volts: fv(design.supply.volts, 'volts'), ohms: fv(design.supply.ohms, 'ohms'), filterFarads: fv(design.supply.filterFarads, 'farads') },
     input: { node: design.input.node, ohms: fv(design.input.ohms, 'ohms') },
     output: { node: design.output.node, loadOhms: fv(design.output.loadOhms, 'ohms') },
@@ -452,18 +522,34 @@ export interface PairSheet {
   readonly caution: string;
   readonly commandLine?: string;
   readonly input: {
-    readonly file: string; readonly sampleRateHz: number; readonly channelCount: number; readonly frames: number; readonly seconds: number;
-    readonly integratedLufs: number | null; readonly truePeakDbtp: number | null; readonly loudnessRangeLu: number | null;
+    readonly file: string;
+    readonly sampleRateHz: number;
+    readonly channelCount: number;
+    readonly frames: number;
+    readonly seconds: number;
+    readonly integratedLufs: number | null;
+    readonly truePeakDbtp: number | null;
+    readonly loudnessRangeLu: number | null;
     readonly mixedToMono: boolean;
   };
   readonly render: {
-    readonly oversample: number; readonly inputVoltsAtFullScale: number; readonly format: string;
-    readonly latencyCompensation: string; readonly limiter: 'none';
+    readonly oversample: number;
+    readonly inputVoltsAtFullScale: number;
+    readonly format: string;
+    readonly latencyCompensation: string;
+    readonly limiter: 'none';
   };
   readonly matching: {
-    readonly reference: 'target' | 'quieter'; readonly requestedLufs: number; readonly commonLufs: number;
-    readonly ceilingDbtp: number; readonly ceilingBound: boolean; readonly ceilingReductionDb: number;
-    readonly differenceLu: number; readonly underCeiling: boolean; readonly passes: number; readonly note: string;
+    readonly reference: 'target' | 'quieter';
+    readonly requestedLufs: number;
+    readonly commonLufs: number;
+    readonly ceilingDbtp: number;
+    readonly ceilingBound: boolean;
+    readonly ceilingReductionDb: number;
+    readonly differenceLu: number;
+    readonly underCeiling: boolean;
+    readonly passes: number;
+    readonly note: string;
   };
   readonly files: readonly PairFileEntry[];
   readonly designs: readonly DesignSheetEntry[];
@@ -479,7 +565,13 @@ export interface PairSideInfo {
 
 export interface PairSheetInput {
   readonly commandLine?: string;
-  readonly input: { readonly file: string; readonly sampleRateHz: number; readonly channelCount: number; readonly frames: number; readonly loudness: LoudnessReport | null };
+  readonly input: {
+    readonly file: string;
+    readonly sampleRateHz: number;
+    readonly channelCount: number;
+    readonly frames: number;
+    readonly loudness: LoudnessReport | null;
+  };
   readonly oversample: number;
   readonly inputVoltsAtFullScale: number;
   readonly format: PairOutputFormat;
@@ -495,11 +587,18 @@ const finiteOrNull = (x: number): number | null => (Number.isFinite(x) ? x : nul
 export function buildPairSheet(s: PairSheetInput): PairSheet {
   const check = checkPair(s.plan, [s.sides[0].final, s.sides[1].final]);
   const files = s.sides.map((side, i): PairFileEntry => ({
-    variant: side.variant, file: side.file, source: side.source,
-    gainDb: s.plan.gainsDb[i] ?? 0, gain: s.plan.gains[i] ?? 1,
-    integratedLufs: side.final.integratedLufs, truePeakDbtp: side.final.truePeakDbtp, loudnessRangeLu: side.final.loudnessRangeLu,
-    samplePeakDbfs: side.final.samplePeakDbfs, shortTermMaxLufs: side.final.shortTermMaxLufs,
-    renderedIntegratedLufs: side.rendered.integratedLufs, renderedTruePeakDbtp: side.rendered.truePeakDbtp,
+    variant: side.variant,
+    file: side.file,
+    source: side.source,
+    gainDb: s.plan.gainsDb[i] ?? 0,
+    gain: s.plan.gains[i] ?? 1,
+    integratedLufs: side.final.integratedLufs,
+    truePeakDbtp: side.final.truePeakDbtp,
+    loudnessRangeLu: side.final.loudnessRangeLu,
+    samplePeakDbfs: side.final.samplePeakDbfs,
+    shortTermMaxLufs: side.final.shortTermMaxLufs,
+    renderedIntegratedLufs: side.rendered.integratedLufs,
+    renderedTruePeakDbtp: side.rendered.truePeakDbtp,
   }));
   const L = s.input.loudness;
   return {
@@ -507,20 +606,33 @@ export function buildPairSheet(s: PairSheetInput): PairSheet {
     caution: HIGH_VOLTAGE_CAUTION,
     ...(s.commandLine !== undefined ? { commandLine: s.commandLine } : {}),
     input: {
-      file: s.input.file, sampleRateHz: s.input.sampleRateHz, channelCount: s.input.channelCount, frames: s.input.frames,
+      file: s.input.file,
+      sampleRateHz: s.input.sampleRateHz,
+      channelCount: s.input.channelCount,
+      frames: s.input.frames,
       seconds: s.input.frames / s.input.sampleRateHz,
-      integratedLufs: L ? finiteOrNull(L.integratedLufs) : null, truePeakDbtp: L ? finiteOrNull(L.truePeakDbtp) : null,
-      loudnessRangeLu: L ? finiteOrNull(L.loudnessRangeLu) : null, mixedToMono: s.input.channelCount > 1,
+      integratedLufs: L ? finiteOrNull(L.integratedLufs) : null,
+      truePeakDbtp: L ? finiteOrNull(L.truePeakDbtp) : null,
+      loudnessRangeLu: L ? finiteOrNull(L.loudnessRangeLu) : null,
+      mixedToMono: s.input.channelCount > 1,
     },
     render: {
-      oversample: s.oversample, inputVoltsAtFullScale: s.inputVoltsAtFullScale,
+      oversample: s.oversample,
+      inputVoltsAtFullScale: s.inputVoltsAtFullScale,
       format: s.format.float ? '32-bit float WAV, mono' : '24-bit PCM WAV (rounded, clamped), mono',
-      latencyCompensation: s.latencyCompensation, limiter: 'none',
+      latencyCompensation: s.latencyCompensation,
+      limiter: 'none',
     },
     matching: {
-      reference: s.plan.reference, requestedLufs: s.plan.requestedLufs, commonLufs: s.plan.commonLufs,
-      ceilingDbtp: s.plan.ceilingDbtp, ceilingBound: s.plan.ceilingBound, ceilingReductionDb: s.plan.ceilingReductionDb,
-      differenceLu: check.differenceLu, underCeiling: check.underCeiling, passes: s.passes,
+      reference: s.plan.reference,
+      requestedLufs: s.plan.requestedLufs,
+      commonLufs: s.plan.commonLufs,
+      ceilingDbtp: s.plan.ceilingDbtp,
+      ceilingBound: s.plan.ceilingBound,
+      ceilingReductionDb: s.plan.ceilingReductionDb,
+      differenceLu: check.differenceLu,
+      underCeiling: check.underCeiling,
+      passes: s.passes,
       note: describePlan(s.plan, [s.sides[0].variant, s.sides[1].variant]),
     },
     files,
@@ -547,17 +659,25 @@ export function pairSheetMarkdown(sheet: PairSheet): string {
   const m = sheet.matching;
   L.push('## Loudness matching (ITU-R BS.1770-4, true peak 4x)', '');
   L.push(`- ${m.note}`);
-  L.push(`- measured difference ${m.differenceLu.toFixed(3)} LU; ${m.underCeiling ? 'both true peaks at or under' : 'A TRUE PEAK IS OVER'} the ${m.ceilingDbtp} dBTP ceiling; ${m.passes} write pass${m.passes === 1 ? '' : 'es'}`, '');
+  L.push(
+    `- measured difference ${m.differenceLu.toFixed(3)} LU; ${m.underCeiling ? 'both true peaks at or under' : 'A TRUE PEAK IS OVER'} the ${m.ceilingDbtp} dBTP ceiling; ${m.passes} write pass${m.passes === 1 ? '' : 'es'}`,
+    '',
+  );
   L.push('| variant | file | source | gain dB | integrated LUFS | true peak dBTP | LRA LU | rendered LUFS | rendered dBTP |');
   L.push('|---|---|---|---|---|---|---|---|---|');
   for (const f of sheet.files) {
-    L.push(`| ${f.variant} | ${f.file} | ${f.source} | ${fmtDb(f.gainDb)} | ${n1(f.integratedLufs)} | ${n1(f.truePeakDbtp)} | ${n1(f.loudnessRangeLu)} | ${n1(f.renderedIntegratedLufs)} | ${n1(f.renderedTruePeakDbtp)} |`);
+    L.push(
+      `| ${f.variant} | ${f.file} | ${f.source} | ${fmtDb(f.gainDb)} | ${n1(f.integratedLufs)} | ${n1(f.truePeakDbtp)} | ${n1(f.loudnessRangeLu)} | ${n1(f.renderedIntegratedLufs)} | ${n1(f.renderedTruePeakDbtp)} |`,
+    );
   }
   L.push('');
   for (const d of sheet.designs) {
     L.push(`## Design: ${d.name} (\`${d.ref}\`)`, '');
     if (d.description) L.push(d.description, '');
-    L.push(`Supply ${d.supply.volts} through ${d.supply.ohms}, filter ${d.supply.filterFarads}; input node ${d.input.node} (source ${d.input.ohms}); output node ${d.output.node} into ${d.output.loadOhms}.`, '');
+    L.push(
+      `Supply ${d.supply.volts} through ${d.supply.ohms}, filter ${d.supply.filterFarads}; input node ${d.input.node} (source ${d.input.ohms}); output node ${d.output.node} into ${d.output.loadOhms}.`,
+      '',
+    );
     L.push('| part | kind | value | nodes | detail | label |', '|---|---|---|---|---|---|');
     for (const c of d.components) L.push(`| ${c.id} | ${c.kind} | ${c.value} | ${c.nodes.join(', ')} | ${c.detail ?? ''} | ${c.label ?? ''} |`);
     L.push('', 'Operating point (DC, capacitors open, input at 0 V):', '', '| node | volts |', '|---|---|');
@@ -565,16 +685,28 @@ export function pairSheetMarkdown(sheet: PairSheet): string {
     L.push('', '| tube | plate mA | plate W | Vpk V | Vgk V | grid µA | screen mA | screen W | cathode mA |', '|---|---|---|---|---|---|---|---|---|');
     for (const [id, t] of Object.entries(d.operatingPoint.tubes)) {
       const pent = t.kind === 'pentode';
-      L.push(`| ${id} | ${(t.plateAmps * 1e3).toFixed(3)} | ${t.plateWatts.toFixed(3)} | ${t.vpk.toFixed(1)} | ${t.vgk.toFixed(3)} | ${(t.gridAmps * 1e6).toFixed(3)} | ${pent ? (t.screenAmps * 1e3).toFixed(3) : '-'} | ${pent ? t.screenWatts.toFixed(3) : '-'} | ${(t.cathodeAmps * 1e3).toFixed(3)} |`);
+      L.push(
+        `| ${id} | ${(t.plateAmps * 1e3).toFixed(3)} | ${t.plateWatts.toFixed(3)} | ${t.vpk.toFixed(1)} | ${t.vgk.toFixed(3)} | ${(t.gridAmps * 1e6).toFixed(3)} | ${pent ? (t.screenAmps * 1e3).toFixed(3) : '-'} | ${pent ? t.screenWatts.toFixed(3) : '-'} | ${(t.cathodeAmps * 1e3).toFixed(3)} |`,
+      );
     }
-    L.push('', `Rating margins (${d.ratingMarginsSource}):`, '', '| tube | quantity | worst | when | rating | used | margin |', '|---|---|---|---|---|---|---|');
+    L.push(
+      '',
+      `Rating margins (${d.ratingMarginsSource}):`,
+      '',
+      '| tube | quantity | worst | when | rating | used | margin |',
+      '|---|---|---|---|---|---|---|',
+    );
     for (const r of d.ratingMargins) {
       const v = (x: number) => (r.unit === 'A' ? `${(x * 1e3).toFixed(3)} mA` : `${x.toFixed(r.unit === 'W' ? 3 : 1)} ${r.unit}`);
-      L.push(`| ${r.part} (${r.type}) | ${r.quantity} | ${v(r.value)} | ${r.condition} | ${v(r.rating)} | ${(r.fractionOfRating * 100).toFixed(1)} % | ${v(r.margin)} |`);
+      L.push(
+        `| ${r.part} (${r.type}) | ${r.quantity} | ${v(r.value)} | ${r.condition} | ${v(r.rating)} | ${(r.fractionOfRating * 100).toFixed(1)} % | ${v(r.margin)} |`,
+      );
     }
     L.push('', '| part | stress | worst | when | buy at least |', '|---|---|---|---|---|');
     for (const b of d.partRatings) {
-      L.push(`| ${b.part} | ${b.quantity} | ${b.worst.toPrecision(3)} ${b.unit} | ${b.condition} | ${b.buy === null ? 'none large enough' : `${b.buy} ${b.unit}`} |`);
+      L.push(
+        `| ${b.part} | ${b.quantity} | ${b.worst.toPrecision(3)} ${b.unit} | ${b.condition} | ${b.buy === null ? 'none large enough' : `${b.buy} ${b.unit}`} |`,
+      );
     }
     if (d.ratingFindings.length > 0) {
       L.push('', 'Findings:', '');
@@ -614,7 +746,10 @@ const MAX_PASSES = 4;
  * until within PAIR_AIM_LU (at most MAX_PASSES). Returns the files and the final plan.
  */
 export function matchPairInMemory(
-  sides: readonly [PackSide, PackSide], sampleRateHz: number, format: PairOutputFormat, options: PairMatchOptions = {},
+  sides: readonly [PackSide, PackSide],
+  sampleRateHz: number,
+  format: PairOutputFormat,
+  options: PairMatchOptions = {},
 ): { files: [PackFile, PackFile]; plan: PairGainPlan; passes: number; check: PairCheck } {
   const rendered = [measureLoudness([sides[0].samples], sampleRateHz), measureLoudness([sides[1].samples], sampleRateHz)] as const;
   let plan = planPairGains(rendered, options);
@@ -632,8 +767,12 @@ export function matchPairInMemory(
     if (passes < MAX_PASSES) plan = correctPairGains(plan, finals);
   }
   const files = sides.map((s, i): PackFile => ({
-    name: pairFileName(s.name, s.variant, sampleRateHz, format), variant: s.variant, samples: out[i as 0 | 1], format,
-    rendered: rendered[i as 0 | 1], final: finals[i as 0 | 1],
+    name: pairFileName(s.name, s.variant, sampleRateHz, format),
+    variant: s.variant,
+    samples: out[i as 0 | 1],
+    format,
+    rendered: rendered[i as 0 | 1],
+    final: finals[i as 0 | 1],
   })) as [PackFile, PackFile];
   return { files, plan, passes, check: check ?? checkPair(plan, finals) };
 }
@@ -664,10 +803,26 @@ export function buildPairPack(args: {
   const m = matchPairInMemory(args.sides, args.sampleRateHz, format, args.options);
   const sheet = buildPairSheet({
     ...(args.commandLine !== undefined ? { commandLine: args.commandLine } : {}),
-    input: { file: args.input.file, sampleRateHz: args.sampleRateHz, channelCount: args.input.channelCount, frames: args.sides[0].samples.length, loudness: args.input.loudness },
-    oversample: args.oversample, inputVoltsAtFullScale: args.inputVoltsAtFullScale, format, latencyCompensation: args.latencyCompensation,
-    plan: m.plan, passes: m.passes,
-    sides: [0, 1].map((i) => ({ variant: m.files[i as 0 | 1].variant, file: m.files[i as 0 | 1].name, source: args.sides[i as 0 | 1].name, rendered: m.files[i as 0 | 1].rendered, final: m.files[i as 0 | 1].final })) as [PairSideInfo, PairSideInfo],
+    input: {
+      file: args.input.file,
+      sampleRateHz: args.sampleRateHz,
+      channelCount: args.input.channelCount,
+      frames: args.sides[0].samples.length,
+      loudness: args.input.loudness,
+    },
+    oversample: args.oversample,
+    inputVoltsAtFullScale: args.inputVoltsAtFullScale,
+    format,
+    latencyCompensation: args.latencyCompensation,
+    plan: m.plan,
+    passes: m.passes,
+    sides: [0, 1].map((i) => ({
+      variant: m.files[i as 0 | 1].variant,
+      file: m.files[i as 0 | 1].name,
+      source: args.sides[i as 0 | 1].name,
+      rendered: m.files[i as 0 | 1].rendered,
+      final: m.files[i as 0 | 1].final,
+    })) as [PairSideInfo, PairSideInfo],
     designs: args.designs.map((d) => designSheetEntry(d.design, d.ref, d.operatingPoint)),
   });
   return { files: m.files, sheet, sheetMarkdown: pairSheetMarkdown(sheet), sheetJson: JSON.stringify(sheet, jsonReplacer, 2) };

@@ -2,17 +2,7 @@
 // closed-box speaker low end, Butterworth upper roll-off, cone break-up peaks, open-back
 // rear-wave cancellation, microphone off-axis low-pass, direct delay and a floor reflection.
 
-import {
-  type Biquad,
-  analogHighpass2,
-  analogLowpass1,
-  analogLowpass2,
-  analogPeak,
-  bilinear,
-  biquadResponse,
-  butterworthQs,
-  runBiquad,
-} from './biquad.ts';
+import { type Biquad, analogHighpass2, analogLowpass1, analogLowpass2, analogPeak, bilinear, biquadResponse, butterworthQs, runBiquad } from './biquad.ts';
 
 /** Speed of sound in air at about 20 C (common practice). */
 export const SPEED_OF_SOUND_METRES_PER_SECOND = 343;
@@ -59,9 +49,15 @@ export function validateCabinet(p: CabinetParams, sampleRateHz: number): void {
   check(Number.isFinite(sampleRateHz) && sampleRateHz >= 16000, `sample rate must be at least 16000 Hz (got ${sampleRateHz})`);
   check(p.coneResonanceHz > 10 && p.coneResonanceHz < 500, `cabinet "${p.name}": cone resonance must be 10-500 Hz (got ${p.coneResonanceHz})`);
   check(p.coneResonanceQ > 0.3 && p.coneResonanceQ < 10, `cabinet "${p.name}": cone resonance Q must be 0.3-10 (got ${p.coneResonanceQ})`);
-  check(p.upperRolloffHz > 500 && p.upperRolloffHz < 0.45 * sampleRateHz, `cabinet "${p.name}": upper roll-off must be from 500 Hz to 0.45 fs (got ${p.upperRolloffHz})`);
+  check(
+    p.upperRolloffHz > 500 && p.upperRolloffHz < 0.45 * sampleRateHz,
+    `cabinet "${p.name}": upper roll-off must be from 500 Hz to 0.45 fs (got ${p.upperRolloffHz})`,
+  );
   for (const b of p.breakupPeaks) {
-    check(b.centreHz > 100 && b.centreHz < 0.45 * sampleRateHz && b.q > 0 && Number.isFinite(b.gainDb), `cabinet "${p.name}": bad break-up peak at ${b.centreHz} Hz`);
+    check(
+      b.centreHz > 100 && b.centreHz < 0.45 * sampleRateHz && b.q > 0 && Number.isFinite(b.gainDb),
+      `cabinet "${p.name}": bad break-up peak at ${b.centreHz} Hz`,
+    );
   }
   check(p.micLowpassHz > 500 && p.micLowpassHz < nyq * 0.9, `cabinet "${p.name}": mic low-pass must be from 500 Hz to 0.45 fs (got ${p.micLowpassHz})`);
   check(p.micDistanceMetres > 0 && p.micDistanceMetres < 10, `cabinet "${p.name}": mic distance must be 0-10 m (got ${p.micDistanceMetres})`);

@@ -108,12 +108,7 @@ export function pickupLoadFilter(p: PickupParams, sampleRateHz: number): Biquad 
  * from f = c / (2 L) (Mersenne/Taylor, handbook), c = 2 L_scale f_open, so D does not change
  * with the fret, only with the string.
  */
-export function pickupCombDelaySamples(
-  p: PickupParams,
-  scaleLengthMetres: number,
-  openStringHz: number,
-  sampleRateHz: number,
-): number {
+export function pickupCombDelaySamples(p: PickupParams, scaleLengthMetres: number, openStringHz: number, sampleRateHz: number): number {
   if (!Number.isFinite(scaleLengthMetres) || scaleLengthMetres <= p.distanceFromBridgeMetres) {
     throw new Error(`scale length ${scaleLengthMetres} m must exceed the pickup distance ${p.distanceFromBridgeMetres} m`);
   }

@@ -2,13 +2,7 @@
 // the result to a file with a known volts-per-full-scale calibration.
 
 import { runBiquad } from './biquad.ts';
-import {
-  type PickupParams,
-  applyPickupComb,
-  pickupCombDelaySamples,
-  pickupLoadFilter,
-  validatePickup,
-} from './pickup.ts';
+import { type PickupParams, applyPickupComb, pickupCombDelaySamples, pickupLoadFilter, validatePickup } from './pickup.ts';
 import { designStringLoop, pluckExcitation, renderPluckedString } from './string.ts';
 
 export interface NoteEvent {
@@ -159,10 +153,7 @@ export function resolveNotes(riff: Riff): ResolvedNote[] {
 export function renderNoteVolts(riff: Riff, resolved: ResolvedNote, sampleRateHz: number, maxSamples: number): Float64Array {
   const instrument = riff.instrument ?? STANDARD_GUITAR;
   const { note, frequencyHz, stringNumber } = resolved;
-  const length = Math.max(
-    1,
-    Math.min(maxSamples, Math.round((resolved.releaseSeconds - note.startSeconds + TAIL_AFTER_RELEASE_SECONDS) * sampleRateHz)),
-  );
+  const length = Math.max(1, Math.min(maxSamples, Math.round((resolved.releaseSeconds - note.startSeconds + TAIL_AFTER_RELEASE_SECONDS) * sampleRateHz)));
   const decayHighHz = Math.min(0.45 * sampleRateHz, Math.max(DECAY_HIGH_REFERENCE_HZ, 2.5 * frequencyHz));
   const design = designStringLoop(
     frequencyHz,

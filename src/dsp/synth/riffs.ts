@@ -25,9 +25,19 @@ function strum(
 
 const EIGHTH = 0.3;
 const stepLine: ReadonlyArray<readonly [midiNote: number, eighths: number, velocity: number]> = [
-  [45, 1, 0.55], [48, 1, 0.45], [50, 1, 0.6], [52, 1, 0.5],
-  [55, 1, 0.6], [52, 1, 0.45], [50, 1, 0.55], [57, 2, 0.7],
-  [55, 1, 0.5], [52, 1, 0.6], [50, 1, 0.4], [48, 1, 0.5], [45, 3, 0.65],
+  [45, 1, 0.55],
+  [48, 1, 0.45],
+  [50, 1, 0.6],
+  [52, 1, 0.5],
+  [55, 1, 0.6],
+  [52, 1, 0.45],
+  [50, 1, 0.55],
+  [57, 2, 0.7],
+  [55, 1, 0.5],
+  [52, 1, 0.6],
+  [50, 1, 0.4],
+  [48, 1, 0.5],
+  [45, 3, 0.65],
 ];
 
 function line(): NoteEvent[] {
@@ -51,11 +61,31 @@ export const SLATE_STEPS: Riff = {
   notes: line(),
 };
 
-const E5 = [[40, 6], [47, 5], [52, 4]] as const;
-const G5 = [[43, 6], [50, 5], [55, 4]] as const;
-const A5 = [[45, 6], [52, 5], [57, 4]] as const;
-const C5 = [[48, 5], [55, 4], [60, 3]] as const;
-const B5 = [[47, 5], [54, 4], [59, 3]] as const;
+const E5 = [
+  [40, 6],
+  [47, 5],
+  [52, 4],
+] as const;
+const G5 = [
+  [43, 6],
+  [50, 5],
+  [55, 4],
+] as const;
+const A5 = [
+  [45, 6],
+  [52, 5],
+  [57, 4],
+] as const;
+const C5 = [
+  [48, 5],
+  [55, 4],
+  [60, 3],
+] as const;
+const B5 = [
+  [47, 5],
+  [54, 4],
+  [59, 3],
+] as const;
 const MUTED: Partial<NoteEvent> = { decayLowSeconds: 0.35, decayHighSeconds: 0.08, pickHardness: 0.8, pluckPosition: 0.08 };
 const OPEN: Partial<NoteEvent> = { pickHardness: 0.8, pluckPosition: 0.12 };
 const Q = 0.25;
@@ -84,8 +114,21 @@ export const BOILER_FIFTHS: Riff = {
   ],
 };
 
-const E_OPEN = [[40, 6], [47, 5], [52, 4], [56, 3], [59, 2], [64, 1]] as const;
-const A_SUS2 = [[45, 5], [52, 4], [57, 3], [59, 2], [64, 1]] as const;
+const E_OPEN = [
+  [40, 6],
+  [47, 5],
+  [52, 4],
+  [56, 3],
+  [59, 2],
+  [64, 1],
+] as const;
+const A_SUS2 = [
+  [45, 5],
+  [52, 4],
+  [57, 3],
+  [59, 2],
+  [64, 1],
+] as const;
 
 /** Two open chords left to ring, neck pickup. */
 export const HARBOUR_LANTERN: Riff = {

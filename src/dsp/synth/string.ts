@@ -95,7 +95,6 @@ export function loopPhaseDelaySamples(design: StringLoopDesign, frequencyHz: num
   );
 }
 
-
 /** Pick contact time (s): a hard pick releases the string in tens of microseconds, flesh in about a millisecond (by ear). */
 export function pickContactSeconds(pickHardness: number, velocity: number): number {
   return (1.2e-3 * (1 - pickHardness) ** 1.5 + 3e-5) * (1.25 - 0.5 * velocity);
@@ -117,7 +116,10 @@ export function pluckExcitation(
   seed: number,
 ): Float64Array {
   check(Number.isFinite(periodSamples) && periodSamples >= 2, `string period must be at least 2 samples (got ${periodSamples})`);
-  check(Number.isFinite(pluckPosition) && pluckPosition > 0 && pluckPosition <= 0.5, `pluck position must be a fraction in (0, 0.5] of the string (got ${pluckPosition})`);
+  check(
+    Number.isFinite(pluckPosition) && pluckPosition > 0 && pluckPosition <= 0.5,
+    `pluck position must be a fraction in (0, 0.5] of the string (got ${pluckPosition})`,
+  );
   check(Number.isFinite(pickHardness) && pickHardness >= 0 && pickHardness <= 1, `pick hardness must be from 0 to 1 (got ${pickHardness})`);
   check(Number.isFinite(velocity) && velocity >= 0 && velocity <= 1, `velocity must be from 0 to 1 (got ${velocity})`);
   const m = Math.round(periodSamples);

@@ -76,10 +76,16 @@ const scratchOut = new Float64Array(2);
 
 /** Grid current of any law at Vgk into `out` (amps, dVgk; other slopes 0). For analyses, not the audio path. */
 export function gridCurrentAt(g: DeviceGridLaw, vgk: number, out: CurrentAndSlopes): void {
-  if (!isInitialVelocity(g)) { dempwolfZolzerGrid(g, vgk, out); return; }
+  if (!isInitialVelocity(g)) {
+    dempwolfZolzerGrid(g, vgk, out);
+    return;
+  }
   scratchIn[0] = vgk;
   initialVelocityGridInto(compileInitialVelocity(g), scratchIn, 0, scratchOut, 0);
-  out.amps = scratchOut[0]!; out.dVgk = scratchOut[1]!; out.dVpk = 0; out.dVsk = 0;
+  out.amps = scratchOut[0]!;
+  out.dVgk = scratchOut[1]!;
+  out.dVpk = 0;
+  out.dVsk = 0;
 }
 
 /**
@@ -105,7 +111,8 @@ const softplusSpice = (z: string) => `(max(${z},0)+ln(1+exp(-abs(${z}))))`;
 /** SPICE behavioural expression of the grid current, grid to cathode, for the voltage expression `vgk`. */
 export function gridSpiceExpression(g: GridLaw, vgk: string): string {
   if (g.name === 'dempwolf-zolzer') return `${fmt(g.gg)}*pwr(${softplusSpice(`${fmt(g.cg)}*${vgk}`)}/${fmt(g.cg)},${fmt(g.xi)})+${fmt(g.ig0)}`;
-  const vt = BOLTZMANN_VOLTS_PER_KELVIN * g.cathodeKelvin, xv = g.xi * vt;
+  const vt = BOLTZMANN_VOLTS_PER_KELVIN * g.cathodeKelvin,
+    xv = g.xi * vt;
   const u = `(${vgk}-(${fmt(g.onsetVolts)}))`;
   const a = g.gg * Math.pow(xv, g.xi);
   return `(${u}>0)?(${fmt(g.gg)}*pwr(${u}+${fmt(xv)},${fmt(g.xi)})):(${fmt(a)}*exp(${u}/${fmt(vt)}))`;
@@ -113,7 +120,10 @@ export function gridSpiceExpression(g: GridLaw, vgk: string): string {
 
 /** Sane parameter ranges of the initial-velocity law (checks shared by the netlist reader and the fitter). */
 export const INITIAL_VELOCITY_BOUNDS = {
-  gg: [1e-7, 1e-1], xi: [1, 2.5], cathodeKelvin: [700, 1500], onsetVolts: [-3, 1],
+  gg: [1e-7, 1e-1],
+  xi: [1, 2.5],
+  cathodeKelvin: [700, 1500],
+  onsetVolts: [-3, 1],
 } as const;
 
 type Json = Record<string, unknown>;
@@ -126,7 +136,10 @@ export function parseGridLaw(g: Json, where: string, fail: (message: string) => 
     return v as number;
   };
   if (g.name === 'dempwolf-zolzer') {
-    const gg = num('gg'), cg = num('cg'), xi = num('xi'), ig0 = num('ig0');
+    const gg = num('gg'),
+      cg = num('cg'),
+      xi = num('xi'),
+      ig0 = num('ig0');
     if (!(gg >= 0)) fail(`${where}: "gg" must be zero or positive (got ${gg})`);
     if (!(cg > 0)) fail(`${where}: "cg" must be positive (got ${cg})`);
     if (!(xi > 0)) fail(`${where}: "xi" must be positive (got ${xi})`);

@@ -17,11 +17,20 @@ export function logistic(z: number): number {
 
 /** softplus(z) and its derivative logistic(z) from one exponential; result in out[0], out[1]. */
 export function softplusAndLogistic(z: number, out: Float64Array): void {
-  if (z > 35) { out[0] = z; out[1] = 1; return; }
+  if (z > 35) {
+    out[0] = z;
+    out[1] = 1;
+    return;
+  }
   const e = Math.exp(-Math.abs(z));
   const l = Math.log1p(e);
-  if (z >= 0) { out[0] = z + l; out[1] = 1 / (1 + e); }
-  else { out[0] = l; out[1] = e / (1 + e); }
+  if (z >= 0) {
+    out[0] = z + l;
+    out[1] = 1 / (1 + e);
+  } else {
+    out[0] = l;
+    out[1] = e / (1 + e);
+  }
 }
 
 const spl = new Float64Array(2);
@@ -77,16 +86,21 @@ export function newSlopes(): CurrentAndSlopes {
 export function korenTriode(p: KorenTriodeParams, vgk: number, vpk: number, scale: number, out: CurrentAndSlopes): void {
   out.dVsk = 0;
   if (!(vpk > 0)) {
-    out.amps = 0; out.dVgk = 0; out.dVpk = 0;
+    out.amps = 0;
+    out.dVgk = 0;
+    out.dVpk = 0;
     return;
   }
   const s = Math.sqrt(p.kvb + vpk * vpk);
   const z = p.kp * (1 / p.mu + vgk / s);
   softplusAndLogistic(z, spl);
-  const sp = spl[0]!, sig = spl[1]!;
+  const sp = spl[0]!,
+    sig = spl[1]!;
   const e1 = (vpk / p.kp) * sp;
   if (!(e1 > 0)) {
-    out.amps = 0; out.dVgk = 0; out.dVpk = 0;
+    out.amps = 0;
+    out.dVgk = 0;
+    out.dVpk = 0;
     return;
   }
   const k = (2 * scale) / p.kg1;
@@ -105,15 +119,22 @@ export function korenTriode(p: KorenTriodeParams, vgk: number, vpk: number, scal
  */
 export function korenPentodePlate(p: KorenPentodeParams, vgk: number, vpk: number, vsk: number, scale: number, out: CurrentAndSlopes): void {
   if (!(vsk > 0) || !(vpk > 0)) {
-    out.amps = 0; out.dVgk = 0; out.dVpk = 0; out.dVsk = 0;
+    out.amps = 0;
+    out.dVgk = 0;
+    out.dVpk = 0;
+    out.dVsk = 0;
     return;
   }
   const z = p.kp * (1 / p.mu + vgk / vsk);
   softplusAndLogistic(z, spl);
-  const sp = spl[0]!, sig = spl[1]!;
+  const sp = spl[0]!,
+    sig = spl[1]!;
   const e1 = (vsk / p.kp) * sp;
   if (!(e1 > 0)) {
-    out.amps = 0; out.dVgk = 0; out.dVpk = 0; out.dVsk = 0;
+    out.amps = 0;
+    out.dVgk = 0;
+    out.dVpk = 0;
+    out.dVsk = 0;
     return;
   }
   const k = (2 * scale) / p.kg1;
@@ -125,7 +146,7 @@ export function korenPentodePlate(p: KorenPentodeParams, vgk: number, vpk: numbe
   const dIdE = k * p.ex * pw * at;
   out.dVgk = dIdE * sig;
   out.dVsk = dIdE * (sp / p.kp - (sig * vgk) / vsk);
-  out.dVpk = (base / p.kvb) / (1 + r * r);
+  out.dVpk = base / p.kvb / (1 + r * r);
 }
 
 /** Koren pentode screen current (netlist-v1): Is = (Vgk + Vsk/mu)^ex / kg2 when the base is positive. */
@@ -133,7 +154,9 @@ export function korenPentodeScreen(p: KorenPentodeParams, vgk: number, vsk: numb
   out.dVpk = 0;
   const base = vgk + vsk / p.mu;
   if (!(base > 0)) {
-    out.amps = 0; out.dVgk = 0; out.dVsk = 0;
+    out.amps = 0;
+    out.dVgk = 0;
+    out.dVsk = 0;
     return;
   }
   const pw = powPositive(base, p.ex - 1);
@@ -148,12 +171,14 @@ export function korenPentodeScreen(p: KorenPentodeParams, vgk: number, vsk: numb
  * simulations", DAFx-11, 2011): Ig = gg·(softplus(cg·Vgk)/cg)^xi + ig0, grid to cathode.
  */
 export function dempwolfZolzerGrid(p: GridCurrentParams, vgk: number, out: CurrentAndSlopes): void {
-  out.dVpk = 0; out.dVsk = 0;
+  out.dVpk = 0;
+  out.dVsk = 0;
   const z = p.cg * vgk;
   softplusAndLogistic(z, spl);
   const x = spl[0]! / p.cg;
   if (!(x > 0)) {
-    out.amps = p.ig0; out.dVgk = 0;
+    out.amps = p.ig0;
+    out.dVgk = 0;
     return;
   }
   const pw = powPositive(x, p.xi - 1);
@@ -178,16 +203,29 @@ export function dempwolfZolzerGrid(p: GridCurrentParams, vgk: number, out: Curre
  * scale (sample factor). Out: out[o] = Ip, out[o+1] = dIp/dVgk, out[o+2] = dIp/dVpk.
  */
 export function korenTriodeInto(p: KorenTriodeParams, x: Float64Array, xo: number, out: Float64Array, o: number): void {
-  const vgk = x[xo]!, vpk = x[xo + 1]!, scale = x[xo + 2]!;
-  let ip = 0, dg = 0, dp = 0;
+  const vgk = x[xo]!,
+    vpk = x[xo + 1]!,
+    scale = x[xo + 2]!;
+  let ip = 0,
+    dg = 0,
+    dp = 0;
   if (vpk > 0) {
     const s = Math.sqrt(p.kvb + vpk * vpk);
     const z = p.kp * (1 / p.mu + vgk / s);
     let sp: number, sig: number;
-    if (z > 35) { sp = z; sig = 1; } else {
+    if (z > 35) {
+      sp = z;
+      sig = 1;
+    } else {
       const e = Math.exp(-Math.abs(z));
       const l = Math.log1p(e);
-      if (z >= 0) { sp = z + l; sig = 1 / (1 + e); } else { sp = l; sig = e / (1 + e); }
+      if (z >= 0) {
+        sp = z + l;
+        sig = 1 / (1 + e);
+      } else {
+        sp = l;
+        sig = e / (1 + e);
+      }
     }
     const e1 = (vpk / p.kp) * sp;
     if (e1 > 0) {
@@ -210,23 +248,40 @@ export function korenTriodeInto(p: KorenTriodeParams, x: Float64Array, xo: numbe
  * out[o+3] = dIp/dVsk, out[o+4..o+6] = Is, dIs/dVgk, dIs/dVsk.
  */
 export function korenPentodeInto(p: KorenPentodeParams, x: Float64Array, xo: number, out: Float64Array, o: number): void {
-  const vgk = x[xo]!, vpk = x[xo + 1]!, vsk = x[xo + 2]!, scale = x[xo + 3]!;
+  const vgk = x[xo]!,
+    vpk = x[xo + 1]!,
+    vsk = x[xo + 2]!,
+    scale = x[xo + 3]!;
   const base = vgk + vsk / p.mu;
-  let is = 0, dsg = 0, dss = 0;
+  let is = 0,
+    dsg = 0,
+    dss = 0;
   if (base > 0) {
     const pw = Math.exp((p.ex - 1) * Math.log(base));
     is = (scale * pw * base) / p.kg2;
     dsg = (scale * p.ex * pw) / p.kg2;
     dss = dsg / p.mu;
   }
-  let ip = 0, dg = 0, dp = 0, ds = 0;
+  let ip = 0,
+    dg = 0,
+    dp = 0,
+    ds = 0;
   if (vsk > 0 && vpk > 0) {
     const z = p.kp * (1 / p.mu + vgk / vsk);
     let sp: number, sig: number;
-    if (z > 35) { sp = z; sig = 1; } else {
+    if (z > 35) {
+      sp = z;
+      sig = 1;
+    } else {
       const e = Math.exp(-Math.abs(z));
       const l = Math.log1p(e);
-      if (z >= 0) { sp = z + l; sig = 1 / (1 + e); } else { sp = l; sig = e / (1 + e); }
+      if (z >= 0) {
+        sp = z + l;
+        sig = 1 / (1 + e);
+      } else {
+        sp = l;
+        sig = e / (1 + e);
+      }
     }
     const e1 = (vsk / p.kp) * sp;
     if (e1 > 0) {
@@ -238,12 +293,17 @@ export function korenPentodeInto(p: KorenPentodeParams, x: Float64Array, xo: num
       const dIdE = k * p.ex * pw * at;
       ip = b * at;
       dg = dIdE * sig;
-      dp = (b / p.kvb) / (1 + r * r);
+      dp = b / p.kvb / (1 + r * r);
       ds = dIdE * (sp / p.kp - (sig * vgk) / vsk);
     }
   }
-  out[o] = ip; out[o + 1] = dg; out[o + 2] = dp; out[o + 3] = ds;
-  out[o + 4] = is; out[o + 5] = dsg; out[o + 6] = dss;
+  out[o] = ip;
+  out[o + 1] = dg;
+  out[o + 2] = dp;
+  out[o + 3] = ds;
+  out[o + 4] = is;
+  out[o + 5] = dsg;
+  out[o + 6] = dss;
 }
 
 /** Below this cg·Vgk the grid law is evaluated by its series form (dempwolfZolzerGridInto). */
@@ -252,7 +312,8 @@ const GRID_SERIES_BELOW = -10;
 /** Dempwolf-Zolzer grid current (see dempwolfZolzerGrid). In: x[xo] = Vgk. Out: out[o] = Ig, out[o+1] = dIg/dVgk. */
 export function dempwolfZolzerGridInto(p: GridCurrentParams, x: Float64Array, xo: number, out: Float64Array, o: number): void {
   const z = p.cg * x[xo]!;
-  let ig = 0, dig = 0;
+  let ig = 0,
+    dig = 0;
   if (z < GRID_SERIES_BELOW && p.cg > 0) {
     // Below cut-in (the usual case: a grid biased negative), with e = exp(z) < 4.6e-5 the
     // Taylor series ln(1+e) = e - e^2/2 + e^3/3 - e^4/4 and ln(ln(1+e)/e) = -e/2 + 5e^2/24 - e^3/8
@@ -266,10 +327,19 @@ export function dempwolfZolzerGridInto(p: GridCurrentParams, x: Float64Array, xo
     dig = p.gg * p.xi * pw * (e / (1 + e));
   } else {
     let sp: number, sig: number;
-    if (z > 35) { sp = z; sig = 1; } else {
+    if (z > 35) {
+      sp = z;
+      sig = 1;
+    } else {
       const e = Math.exp(-Math.abs(z));
       const l = Math.log1p(e);
-      if (z >= 0) { sp = z + l; sig = 1 / (1 + e); } else { sp = l; sig = e / (1 + e); }
+      if (z >= 0) {
+        sp = z + l;
+        sig = 1 / (1 + e);
+      } else {
+        sp = l;
+        sig = e / (1 + e);
+      }
     }
     const x = sp / p.cg;
     if (x > 0) {

@@ -6,8 +6,13 @@
 import { TriodeDevice, PentodeDevice, type TubeFunctions } from './devices.ts';
 import { gridCurrentAt, gridSpiceExpression, parseGridLaw, type GridLaw } from './grid-laws.ts';
 import {
-  korenPentodePlate, korenPentodeScreen, korenTriode, newSlopes,
-  type CurrentAndSlopes, type KorenPentodeParams, type KorenTriodeParams,
+  korenPentodePlate,
+  korenPentodeScreen,
+  korenTriode,
+  newSlopes,
+  type CurrentAndSlopes,
+  type KorenPentodeParams,
+  type KorenTriodeParams,
 } from './models.ts';
 
 export type PlateModelName = 'koren-triode' | 'koren-pentode';
@@ -32,7 +37,12 @@ type Json = Record<string, unknown>;
 /** Parse and check a tube element's "model" object for a section kind. */
 export function parsePlateModel(kind: 'triode', m: Json, where: string, fail: (msg: string) => never): KorenTriodeParams & { readonly name: 'koren-triode' };
 export function parsePlateModel(kind: 'pentode', m: Json, where: string, fail: (msg: string) => never): KorenPentodeParams & { readonly name: 'koren-pentode' };
-export function parsePlateModel(kind: SectionKind, m: Json, where: string, fail: (msg: string) => never): (KorenTriodeParams & { readonly name: 'koren-triode' }) | (KorenPentodeParams & { readonly name: 'koren-pentode' }) {
+export function parsePlateModel(
+  kind: SectionKind,
+  m: Json,
+  where: string,
+  fail: (msg: string) => never,
+): (KorenTriodeParams & { readonly name: 'koren-triode' }) | (KorenPentodeParams & { readonly name: 'koren-pentode' }) {
   const name = PLATE_MODEL_OF[kind];
   if (m.name !== name) fail(`${where}: model.name must be "${name}"`);
   const num = (key: string, allowZero = false): number => {
@@ -59,7 +69,11 @@ export function tubeDevice(t: TubeModelElement, functions: TubeFunctions = 'exac
 }
 
 /** Currents and slopes of every electrode. */
-export interface TubeCurrents { readonly plate: CurrentAndSlopes; readonly screen: CurrentAndSlopes; readonly grid: CurrentAndSlopes }
+export interface TubeCurrents {
+  readonly plate: CurrentAndSlopes;
+  readonly screen: CurrentAndSlopes;
+  readonly grid: CurrentAndSlopes;
+}
 
 export function newTubeCurrents(): TubeCurrents {
   return { plate: newSlopes(), screen: newSlopes(), grid: newSlopes() };
@@ -69,13 +83,21 @@ export function newTubeCurrents(): TubeCurrents {
 export function tubeCurrents(t: TubeModelElement, vgk: number, vpk: number, vsk: number, out: TubeCurrents): void {
   if (t.kind === 'triode') {
     korenTriode(t.model, vgk, vpk, 1, out.plate);
-    out.screen.amps = 0; out.screen.dVgk = 0; out.screen.dVpk = 0; out.screen.dVsk = 0;
+    out.screen.amps = 0;
+    out.screen.dVgk = 0;
+    out.screen.dVpk = 0;
+    out.screen.dVsk = 0;
   } else {
     korenPentodePlate(t.model, vgk, vpk, vsk, 1, out.plate);
     korenPentodeScreen(t.model, vgk, vsk, 1, out.screen);
   }
   if (t.gridCurrent) gridCurrentAt(t.gridCurrent, vgk, out.grid);
-  else { out.grid.amps = 0; out.grid.dVgk = 0; out.grid.dVpk = 0; out.grid.dVsk = 0; }
+  else {
+    out.grid.amps = 0;
+    out.grid.dVgk = 0;
+    out.grid.dVpk = 0;
+    out.grid.dVsk = 0;
+  }
 }
 
 const sp = (z: string) => `(max(${z},0)+ln(1+exp(-abs(${z}))))`;

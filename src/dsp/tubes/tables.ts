@@ -27,7 +27,9 @@ export class HermiteTable {
   /** f and its derivative df on [x0, x1] with `intervals` equal steps (or `coefficients` of toData()). */
   constructor(f: ((x: number) => number) | null, df: ((x: number) => number) | null, x0: number, x1: number, intervals: number, coefficients?: Float64Array) {
     if (!(x1 > x0) || !(intervals >= 1)) throw new Error(`table range [${x0}, ${x1}] with ${intervals} intervals is empty`);
-    this.x0 = x0; this.x1 = x1; this.intervals = intervals;
+    this.x0 = x0;
+    this.x1 = x1;
+    this.intervals = intervals;
     const h = (x1 - x0) / intervals;
     this.invH = 1 / h;
     if (coefficients) {
@@ -37,15 +39,18 @@ export class HermiteTable {
     }
     if (!f || !df) throw new Error('a table needs its function and derivative');
     this.c = new Float64Array(4 * intervals);
-    let fa = f(x0), ma = df(x0) * h;
+    let fa = f(x0),
+      ma = df(x0) * h;
     for (let k = 0; k < intervals; k++) {
       const xb = k + 1 === intervals ? x1 : x0 + (k + 1) * h;
-      const fb = f(xb), mb = df(xb) * h;
+      const fb = f(xb),
+        mb = df(xb) * h;
       this.c[4 * k] = fa;
       this.c[4 * k + 1] = ma;
       this.c[4 * k + 2] = 3 * (fb - fa) - 2 * ma - mb;
       this.c[4 * k + 3] = 2 * (fa - fb) + ma + mb;
-      fa = fb; ma = mb;
+      fa = fb;
+      ma = mb;
     }
   }
 
@@ -72,8 +77,12 @@ export class HermiteTable {
     if (!(s >= 0 && s <= this.intervals)) return false;
     let k = s | 0;
     if (k === this.intervals) k--;
-    const t = s - k, c = this.c, b = 4 * k;
-    const c1 = c[b + 1]!, c2 = c[b + 2]!, c3 = c[b + 3]!;
+    const t = s - k,
+      c = this.c,
+      b = 4 * k;
+    const c1 = c[b + 1]!,
+      c2 = c[b + 2]!,
+      c3 = c[b + 3]!;
     out[o] = ((c3 * t + c2) * t + c1) * t + c[b]!;
     out[o + 1] = ((3 * c3 * t + 2 * c2) * t + c1) * this.invH;
     return true;
@@ -96,7 +105,10 @@ let recorder: Set<string> | null = null;
 function cached(key: string, make: () => HermiteTable): HermiteTable {
   recorder?.add(key);
   let t = cache.get(key);
-  if (!t) { t = make(); cache.set(key, t); }
+  if (!t) {
+    t = make();
+    cache.set(key, t);
+  }
   return t;
 }
 
@@ -115,7 +127,10 @@ export function recordTables<T>(fn: () => T): { result: T; keys: string[] } {
 
 /** Copies of the cached tables under `keys`. */
 export function exportTables(keys: readonly string[]): TableData[] {
-  return keys.flatMap((k) => { const t = cache.get(k); return t ? [t.toData(k)] : []; });
+  return keys.flatMap((k) => {
+    const t = cache.get(k);
+    return t ? [t.toData(k)] : [];
+  });
 }
 
 /** Put tables built elsewhere into this thread's cache (no function evaluation; existing keys are kept). */
@@ -136,25 +151,36 @@ export type FusedLaw1D = (x: Float64Array, xo: number, out: Float64Array, o: num
  */
 export function lawTable(key: string, law: FusedLaw1D, x0: number, x1: number, intervals: number): HermiteTable {
   return cached(key, () => {
-    const xin = new Float64Array(4), out = new Float64Array(2);
-    const at = (v: number, k: 0 | 1): number => { xin[0] = v; law(xin, 0, out, 0); return out[k]!; };
-    return new HermiteTable((v) => at(v, 0), (v) => at(v, 1), x0, x1, intervals);
+    const xin = new Float64Array(4),
+      out = new Float64Array(2);
+    const at = (v: number, k: 0 | 1): number => {
+      xin[0] = v;
+      law(xin, 0, out, 0);
+      return out[k]!;
+    };
+    return new HermiteTable(
+      (v) => at(v, 0),
+      (v) => at(v, 1),
+      x0,
+      x1,
+      intervals,
+    );
   });
 }
 
 /** x^y and its derivative for x ≥ 0 (0 at 0 for y > 1). */
 function powFn(y: number, k: number): [(x: number) => number, (x: number) => number] {
-  return [
-    (x) => (x > 0 ? k * Math.exp(y * Math.log(x)) : 0),
-    (x) => (x > 0 ? k * y * Math.exp((y - 1) * Math.log(x)) : 0),
-  ];
+  return [(x) => (x > 0 ? k * Math.exp(y * Math.log(x)) : 0), (x) => (x > 0 ? k * y * Math.exp((y - 1) * Math.log(x)) : 0)];
 }
 
 /** G(z) = softplus(z)^ex and its derivative. */
 function softplusPow(ex: number): [(z: number) => number, (z: number) => number] {
   return [
     (z) => Math.exp(ex * Math.log(softplus(z))),
-    (z) => { const sp = softplus(z); return ex * Math.exp((ex - 1) * Math.log(sp)) * logistic(z); },
+    (z) => {
+      const sp = softplus(z);
+      return ex * Math.exp((ex - 1) * Math.log(sp)) * logistic(z);
+    },
   ];
 }
 
@@ -168,8 +194,14 @@ const W_FROM_VOLTS = 4;
 const S_FROM_VOLTS = 1;
 const Z_RANGE = 60;
 
-export interface TriodeTables { readonly w: HermiteTable; readonly g: HermiteTable }
-export interface PentodeTables extends TriodeTables { readonly a: HermiteTable; readonly s: HermiteTable }
+export interface TriodeTables {
+  readonly w: HermiteTable;
+  readonly g: HermiteTable;
+}
+export interface PentodeTables extends TriodeTables {
+  readonly a: HermiteTable;
+  readonly s: HermiteTable;
+}
 
 const cache = new Map<string, HermiteTable>();
 
@@ -179,7 +211,10 @@ function wgTables(p: KorenTriodeParams): TriodeTables {
     const [f, df] = powFn(p.ex, (2 / p.kg1) * Math.exp(-p.ex * Math.log(p.kp)));
     return new HermiteTable(f, df, W_FROM_VOLTS, TABLE_MAX_VOLTS, (TABLE_MAX_VOLTS - W_FROM_VOLTS) * 4);
   });
-  const g = cached(`sp:${p.ex}`, () => { const [f, df] = softplusPow(p.ex); return new HermiteTable(f, df, -Z_RANGE, Z_RANGE, Z_RANGE * 64); });
+  const g = cached(`sp:${p.ex}`, () => {
+    const [f, df] = softplusPow(p.ex);
+    return new HermiteTable(f, df, -Z_RANGE, Z_RANGE, Z_RANGE * 64);
+  });
   return { w, g };
 }
 
@@ -188,8 +223,21 @@ export function triodeTables(p: KorenTriodeParams): TriodeTables {
 }
 
 export function pentodeTables(p: KorenPentodeParams): PentodeTables {
-  const a = cached(`a:${p.kvb}`, () => new HermiteTable((x) => Math.atan(x / p.kvb), (x) => 1 / p.kvb / (1 + (x / p.kvb) ** 2), 0, TABLE_MAX_VOLTS, TABLE_MAX_VOLTS * 4));
-  const s = cached(`s:${p.ex},${p.kg2}`, () => { const [f, df] = powFn(p.ex, 1 / p.kg2); return new HermiteTable(f, df, S_FROM_VOLTS, 256, (256 - S_FROM_VOLTS) * 16); });
+  const a = cached(
+    `a:${p.kvb}`,
+    () =>
+      new HermiteTable(
+        (x) => Math.atan(x / p.kvb),
+        (x) => 1 / p.kvb / (1 + (x / p.kvb) ** 2),
+        0,
+        TABLE_MAX_VOLTS,
+        TABLE_MAX_VOLTS * 4,
+      ),
+  );
+  const s = cached(`s:${p.ex},${p.kg2}`, () => {
+    const [f, df] = powFn(p.ex, 1 / p.kg2);
+    return new HermiteTable(f, df, S_FROM_VOLTS, 256, (256 - S_FROM_VOLTS) * 16);
+  });
   return { ...wgTables(p), a, s };
 }
 

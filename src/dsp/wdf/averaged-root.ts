@@ -121,7 +121,12 @@ export class RootAverager {
    * transient root's result for p). The start is the previous call's end. Writes iMean.
    */
   step(p: Float64Array, v1: Float64Array, i1: Float64Array): void {
-    const m = this.m, n = this.n, nodeV = this.nodeV, nodeI = this.nodeI, w = this.weight, iMean = this.iMean;
+    const m = this.m,
+      n = this.n,
+      nodeV = this.nodeV,
+      nodeI = this.nodeI,
+      w = this.weight,
+      iMean = this.iMean;
     if (!this.valid) {
       iMean.set(i1);
       this.iBefore.set(i1);
@@ -131,7 +136,9 @@ export class RootAverager {
       this.valid = true;
       return;
     }
-    const iBefore = this.iBefore, p0 = this.p0, tol = this.opts.toleranceVolts;
+    const iBefore = this.iBefore,
+      p0 = this.p0,
+      tol = this.opts.toleranceVolts;
     // smooth in time: corrected trapezoid, no node (and the end goes straight to the start)
     let e2 = 0;
     for (let r = 0; r < m; r++) {
@@ -140,14 +147,22 @@ export class RootAverager {
     }
     if (e2 < tol) {
       for (let r = 0; r < m; r++) {
-        const i0 = nodeI[r]!, ie = i1[r]!, ib = iBefore[r]!;
+        const i0 = nodeI[r]!,
+          ie = i1[r]!,
+          ib = iBefore[r]!;
         iMean[r] = 0.5 * (i0 + ie) - (ie - 2 * i0 + ib) / 12;
-        iBefore[r] = i0; nodeI[r] = ie; nodeV[r] = v1[r]!; p0[r] = p[r]!;
+        iBefore[r] = i0;
+        nodeI[r] = ie;
+        nodeV[r] = v1[r]!;
+        p0[r] = p[r]!;
       }
       return;
     }
     const end = n * m;
-    for (let r = 0; r < m; r++) { nodeV[end + r] = v1[r]!; nodeI[end + r] = i1[r]!; }
+    for (let r = 0; r < m; r++) {
+      nodeV[end + r] = v1[r]!;
+      nodeI[end + r] = i1[r]!;
+    }
     this.failed = false;
     this.adaptiveSimpson(p);
     if (this.failed) {
@@ -155,19 +170,38 @@ export class RootAverager {
       this.fallbacks[0] = this.fallbacks[0]! + 1;
     }
     // the end becomes the next start
-    for (let r = 0; r < m; r++) { iBefore[r] = nodeI[r]!; nodeI[r] = nodeI[end + r]!; nodeV[r] = nodeV[end + r]!; p0[r] = p[r]!; }
+    for (let r = 0; r < m; r++) {
+      iBefore[r] = nodeI[r]!;
+      nodeI[r] = nodeI[end + r]!;
+      nodeV[r] = nodeV[end + r]!;
+      p0[r] = p[r]!;
+    }
   }
 
   private adaptiveSimpson(p: Float64Array): void {
-    const m = this.m, n = this.n, nodeV = this.nodeV, nodeI = this.nodeI, w = this.weight, iMean = this.iMean;
-    const p0 = this.p0, pMid = this.pMid, guess = this.guess, stack = this.stack, scratch = this.scratch;
+    const m = this.m,
+      n = this.n,
+      nodeV = this.nodeV,
+      nodeI = this.nodeI,
+      w = this.weight,
+      iMean = this.iMean;
+    const p0 = this.p0,
+      pMid = this.pMid,
+      guess = this.guess,
+      stack = this.stack,
+      scratch = this.scratch;
     const tol = this.opts.toleranceVolts;
     iMean.fill(0);
     let top = 0;
-    stack[top++] = 0; stack[top++] = n;
+    stack[top++] = 0;
+    stack[top++] = n;
     while (top > 0) {
-      const b = stack[--top]!, a = stack[--top]!;
-      const mid = (a + b) >> 1, oa = a * m, ob = b * m, om = mid * m;
+      const b = stack[--top]!,
+        a = stack[--top]!;
+      const mid = (a + b) >> 1,
+        oa = a * m,
+        ob = b * m,
+        om = mid * m;
       const tau = mid / n;
       for (let r = 0; r < m; r++) {
         pMid[r] = p0[r]! + tau * (p[r]! - p0[r]!);
@@ -177,25 +211,41 @@ export class RootAverager {
       this.interiorSolves[0] = this.interiorSolves[0]! + 1;
       if (scratch.solve(pMid, INTERIOR) < 0) {
         // by continuation from the panel's start (a converged node) to its middle
-        const pA = this.pA, vA = this.vA, ta = a / n;
-        for (let r = 0; r < m; r++) { pA[r] = p0[r]! + ta * (p[r]! - p0[r]!); vA[r] = nodeV[oa + r]!; }
-        if (scratch.continueFrom(pA, vA, pMid, INTERIOR, INTERIOR_HOMOTOPY_DEPTH) < 0) { this.failed = true; return; }
+        const pA = this.pA,
+          vA = this.vA,
+          ta = a / n;
+        for (let r = 0; r < m; r++) {
+          pA[r] = p0[r]! + ta * (p[r]! - p0[r]!);
+          vA[r] = nodeV[oa + r]!;
+        }
+        if (scratch.continueFrom(pA, vA, pMid, INTERIOR, INTERIOR_HOMOTOPY_DEPTH) < 0) {
+          this.failed = true;
+          return;
+        }
       }
-      const sv = scratch.v, si = scratch.i;
-      for (let r = 0; r < m; r++) { nodeV[om + r] = sv[r]!; nodeI[om + r] = si[r]!; }
+      const sv = scratch.v,
+        si = scratch.i;
+      for (let r = 0; r < m; r++) {
+        nodeV[om + r] = sv[r]!;
+        nodeI[om + r] = si[r]!;
+      }
       // Simpson against trapezoid on [a, b]: the panel's mean, in volts at the ports
       const h = (b - a) / n;
       let err = 0;
       for (let r = 0; r < m; r++) {
-        const ia = nodeI[oa + r]!, ib = nodeI[ob + r]!, im = nodeI[om + r]!;
+        const ia = nodeI[oa + r]!,
+          ib = nodeI[ob + r]!,
+          im = nodeI[om + r]!;
         const e = w[r]! * Math.abs((ia + 4 * im + ib) / 6 - 0.5 * (ia + ib));
         if (e > err) err = e;
       }
       if (err < tol || b - a <= 2) {
         for (let r = 0; r < m; r++) iMean[r]! += (h * (nodeI[oa + r]! + 4 * nodeI[om + r]! + nodeI[ob + r]!)) / 6;
       } else {
-        stack[top++] = mid; stack[top++] = b;
-        stack[top++] = a; stack[top++] = mid;
+        stack[top++] = mid;
+        stack[top++] = b;
+        stack[top++] = a;
+        stack[top++] = mid;
       }
     }
   }

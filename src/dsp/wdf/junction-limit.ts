@@ -42,7 +42,8 @@ const POWER_LAW_FROM = 2;
  * allocation per call; DEVELOPERS.md, "Allocation on the audio path").
  */
 export function limitExponent(a: Float64Array): void {
-  const aOld = a[0]!, aNew = a[1]!;
+  const aOld = a[0]!,
+    aNew = a[1]!;
   if (aNew > aOld + FREE_RISE && aOld < POWER_LAW_FROM && aNew > 0) {
     const base = Math.max(aOld, 0);
     a[1] = base + Math.log(1 + (aNew - base));
@@ -60,15 +61,23 @@ export class GridLawLimiter implements StepLimiter {
    * @param k exponent units per volt
    * @param onsetVolts where the exponential tail meets the power law
    */
-  constructor(private readonly gridPort: number, private readonly k: number, private readonly onsetVolts = 0) {}
+  constructor(
+    private readonly gridPort: number,
+    private readonly k: number,
+    private readonly onsetVolts = 0,
+  ) {}
 
   limit(v: Float64Array, delta: Float64Array, s: Float64Array): void {
-    const g = this.gridPort, k = this.k, scale = s[0]!;
+    const g = this.gridPort,
+      k = this.k,
+      scale = s[0]!;
     const dv = scale * delta[g]!;
     if (k * dv > FREE_RISE) {
-      const aOld = k * (v[g]! - this.onsetVolts), aNew = aOld + k * dv;
+      const aOld = k * (v[g]! - this.onsetVolts),
+        aNew = aOld + k * dv;
       const a = this.a;
-      a[0] = aOld; a[1] = aNew;
+      a[0] = aOld;
+      a[1] = aNew;
       limitExponent(a);
       const aLim = a[1]!;
       if (aLim < aNew) s[0] = (scale * (aLim - aOld)) / (aNew - aOld);
@@ -88,21 +97,35 @@ export class PlateLawLimiter implements StepLimiter {
    * @param pentode s = Vsk instead of sqrt(kvb + Vpk^2)
    */
   constructor(
-    private readonly gridPort: number, private readonly sPort: number, private readonly pentode: boolean,
-    private readonly kp: number, private readonly mu: number, private readonly kvb: number, private readonly ex: number,
+    private readonly gridPort: number,
+    private readonly sPort: number,
+    private readonly pentode: boolean,
+    private readonly kp: number,
+    private readonly mu: number,
+    private readonly kvb: number,
+    private readonly ex: number,
   ) {}
 
   limit(v: Float64Array, delta: Float64Array, s: Float64Array): void {
-    const g = this.gridPort, sp = this.sPort, kp = this.kp, ex = this.ex, scale = s[0]!;
+    const g = this.gridPort,
+      sp = this.sPort,
+      kp = this.kp,
+      ex = this.ex,
+      scale = s[0]!;
     const dg = scale * delta[g]!;
     if (!(dg > 0)) return;
-    const vs = v[sp]!, vsNew = vs + scale * delta[sp]!;
-    const sOld = this.pentode ? vs : Math.sqrt(this.kvb + vs * vs), sNew = this.pentode ? vsNew : Math.sqrt(this.kvb + vsNew * vsNew);
+    const vs = v[sp]!,
+      vsNew = vs + scale * delta[sp]!;
+    const sOld = this.pentode ? vs : Math.sqrt(this.kvb + vs * vs),
+      sNew = this.pentode ? vsNew : Math.sqrt(this.kvb + vsNew * vsNew);
     if (!(sNew > 0) || !(sOld > 0)) return;
-    const vgOld = v[g]!, vgNew = vgOld + dg;
-    const aOld = ex * kp * (1 / this.mu + vgOld / sOld), aNew = ex * kp * (1 / this.mu + vgNew / sNew);
+    const vgOld = v[g]!,
+      vgNew = vgOld + dg;
+    const aOld = ex * kp * (1 / this.mu + vgOld / sOld),
+      aNew = ex * kp * (1 / this.mu + vgNew / sNew);
     const a = this.a;
-    a[0] = aOld; a[1] = aNew;
+    a[0] = aOld;
+    a[1] = aNew;
     limitExponent(a);
     const aLim = a[1]!;
     if (!(aLim < aNew)) return;

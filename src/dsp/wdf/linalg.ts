@@ -12,14 +12,21 @@ export function luFactor(a: Float64Array, n: number, piv: Int32Array = new Int32
     let max = Math.abs(a[k * n + k]!);
     for (let i = k + 1; i < n; i++) {
       const v = Math.abs(a[i * n + k]!);
-      if (v > max) { max = v; p = i; }
+      if (v > max) {
+        max = v;
+        p = i;
+      }
     }
     if (!(max > 1e-300)) throw new SingularMatrixError(`matrix is singular at column ${k}`);
     if (p !== k) {
       for (let j = 0; j < n; j++) {
-        const t = a[k * n + j]!; a[k * n + j] = a[p * n + j]!; a[p * n + j] = t;
+        const t = a[k * n + j]!;
+        a[k * n + j] = a[p * n + j]!;
+        a[p * n + j] = t;
       }
-      const t = piv[k]!; piv[k] = piv[p]!; piv[p] = t;
+      const t = piv[k]!;
+      piv[k] = piv[p]!;
+      piv[p] = t;
     }
     const d = a[k * n + k]!;
     for (let i = k + 1; i < n; i++) {
@@ -52,10 +59,7 @@ export function luSolve(lu: Float64Array, piv: Int32Array, n: number, b: Float64
  * only the columns j with columns[j] !== 0 are written (the others are left as they are).
  * Throws SingularMatrixError.
  */
-export function invertInto(
-  a: Float64Array, n: number, inv: Float64Array, piv: Int32Array, col: Float64Array, tmp: Float64Array,
-  columns?: Uint8Array,
-): void {
+export function invertInto(a: Float64Array, n: number, inv: Float64Array, piv: Int32Array, col: Float64Array, tmp: Float64Array, columns?: Uint8Array): void {
   luFactor(a, n, piv);
   for (let j = 0; j < n; j++) {
     if (columns !== undefined && columns[j] === 0) continue;
@@ -78,13 +82,20 @@ export function luFactorInPlace(a: Float64Array, n: number, piv: Int32Array): bo
     let max = Math.abs(a[kn + k]!);
     for (let i = k + 1; i < n; i++) {
       const v = Math.abs(a[i * n + k]!);
-      if (v > max) { max = v; p = i; }
+      if (v > max) {
+        max = v;
+        p = i;
+      }
     }
     if (!(max > 1e-300)) return false;
     piv[k] = p;
     if (p !== k) {
       const pn = p * n;
-      for (let c = 0; c < n; c++) { const t = a[kn + c]!; a[kn + c] = a[pn + c]!; a[pn + c] = t; }
+      for (let c = 0; c < n; c++) {
+        const t = a[kn + c]!;
+        a[kn + c] = a[pn + c]!;
+        a[pn + c] = t;
+      }
     }
     const inv = 1 / a[kn + k]!;
     for (let i = k + 1; i < n; i++) {
@@ -102,7 +113,11 @@ export function luFactorInPlace(a: Float64Array, n: number, piv: Int32Array): bo
 export function luSolveInPlace(lu: Float64Array, piv: Int32Array, n: number, b: Float64Array): void {
   for (let k = 0; k < n; k++) {
     const p = piv[k]!;
-    if (p !== k) { const t = b[k]!; b[k] = b[p]!; b[p] = t; }
+    if (p !== k) {
+      const t = b[k]!;
+      b[k] = b[p]!;
+      b[p] = t;
+    }
   }
   for (let i = 1; i < n; i++) {
     let s = b[i]!;

@@ -68,7 +68,11 @@ export const PIVOT_RATIO = 1e-3;
 export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Array): NewtonStepKernel {
   if (!(Number.isInteger(m) && m >= 0 && m <= 32)) throw new Error(`compileNewtonStep: root size must be 0-32, got ${m}`);
   if (nzRow.length !== nzCol.length) throw new Error('compileNewtonStep: pattern rows and columns differ in length');
-  if (m === 0) return (_F, _p, _v, _i, _d, r) => { r[0] = 0; return true; };
+  if (m === 0)
+    return (_F, _p, _v, _i, _d, r) => {
+      r[0] = 0;
+      return true;
+    };
   const L: string[] = [];
   for (let c = 0; c < m; c++) L.push(`const i${c} = i[${c}];`);
   for (let z = 0; z < nzRow.length; z++) L.push(`const d${z} = d[${z}];`);
@@ -78,7 +82,7 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
     for (let c = 0; c < m; c++) terms.push(`F[${row * m + c}] * i${c}`);
     L.push(`let r${row} = ${terms.join(' + ')};`);
   }
-  L.push(`r[${m}] = ${Array.from({ length: m }, (_, k) => `r${k} * r${k}`).join(" + ")};`);
+  L.push(`r[${m}] = ${Array.from({ length: m }, (_, k) => `r${k} * r${k}`).join(' + ')};`);
   // J[row][c] = [row == c] - sum over pattern entries z in column c of F[row][nzRow[z]] · d_z
   for (let row = 0; row < m; row++) {
     for (let c = 0; c < m; c++) {
@@ -116,7 +120,10 @@ export function compileNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Arra
 
 /** compileNewtonStep's computation as loops over preallocated scratch (no code generation, no allocation per call). */
 export function loopNewtonStep(m: number, nzRow: Int32Array, nzCol: Int32Array): NewtonStepKernel {
-  const a = new Float64Array(m * m), x = new Float64Array(m), q = new Float64Array(m), nnz = nzRow.length;
+  const a = new Float64Array(m * m),
+    x = new Float64Array(m),
+    q = new Float64Array(m),
+    nnz = nzRow.length;
   return (F, p, v, i, d, r) => {
     let g = 0;
     for (let row = 0; row < m; row++) {

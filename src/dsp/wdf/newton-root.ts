@@ -171,14 +171,20 @@ export class NewtonRoot {
     this.dOffsets = new Int32Array(devices.length);
     this.maxStep = new Float64Array(m);
     const knees: number[] = [];
-    const rows: number[] = [], cols: number[] = [];
+    const rows: number[] = [],
+      cols: number[] = [];
     let o = 0;
     devices.forEach((d, k) => {
       this.offsets[k] = o;
       this.dOffsets[k] = rows.length;
-      d.maxStepVolts.forEach((s, j) => { this.maxStep[o + j] = s; });
+      d.maxStepVolts.forEach((s, j) => {
+        this.maxStep[o + j] = s;
+      });
       for (const j of d.kneePorts ?? []) knees.push(o + j);
-      for (const [r, c] of d.jacobianPattern) { rows.push(o + r); cols.push(o + c); }
+      for (const [r, c] of d.jacobianPattern) {
+        rows.push(o + r);
+        cols.push(o + c);
+      }
       o += d.portCount;
     });
     this.kneePorts = Int32Array.from(knees);
@@ -214,7 +220,8 @@ export class NewtonRoot {
   /** New F (m x m, row-major); copied into preallocated storage, no allocation. */
   setF(F: Float64Array): void {
     this.F = F;
-    const m = this.m, FT = this.FT;
+    const m = this.m,
+      FT = this.FT;
     for (let r = 0; r < m; r++) for (let c = 0; c < m; c++) FT[c * m + r] = F[r * m + c]!;
   }
 
@@ -241,7 +248,9 @@ export class NewtonRoot {
 
   /** Evaluate all devices at `v` (fills `i` and the d i/d v values). */
   private evaluate(): void {
-    const devices = this.devices, offsets = this.offsets, dOffsets = this.dOffsets;
+    const devices = this.devices,
+      offsets = this.offsets,
+      dOffsets = this.dOffsets;
     for (let k = 0; k < devices.length; k++) devices[k]!.evaluate(this.v, offsets[k]!, this.i, this.d, dOffsets[k]!);
   }
 
@@ -257,21 +266,36 @@ export class NewtonRoot {
   solve(p: Float64Array, opts: NewtonOptions): number {
     const m = this.m;
     const v = this.v;
-    const vPrev = this.vPrev, vPrev2 = this.vPrev2, vPrev3 = this.vPrev3;
+    const vPrev = this.vPrev,
+      vPrev2 = this.vPrev2,
+      vPrev3 = this.vPrev3;
     if (opts.extrapolate) {
-      const order = this.order, pL = this.predL, pQ = this.predQ, pC = this.predC;
+      const order = this.order,
+        pL = this.predL,
+        pQ = this.predQ,
+        pC = this.predC;
       for (let k = 0; k < m; k++) {
-        const a = v[k]!, b = vPrev[k]!, c = vPrev2[k]!;
+        const a = v[k]!,
+          b = vPrev[k]!,
+          c = vPrev2[k]!;
         // linear, quadratic and cubic extrapolation through the last 2, 3, 4 solutions
-        const l = 2 * a - b, q = 3 * (a - b) + c, cu = 4 * (a + c) - 6 * b - vPrev3[k]!;
-        pL[k] = l; pQ[k] = q; pC[k] = cu;
+        const l = 2 * a - b,
+          q = 3 * (a - b) + c,
+          cu = 4 * (a + c) - 6 * b - vPrev3[k]!;
+        pL[k] = l;
+        pQ[k] = q;
+        pC[k] = cu;
         v[k] = order === 3 ? cu : order === 2 ? q : l;
         vPrev3[k] = c;
         vPrev2[k] = b;
         vPrev[k] = a;
       }
     } else {
-      for (let k = 0; k < m; k++) { vPrev3[k] = vPrev2[k]!; vPrev2[k] = vPrev[k]!; vPrev[k] = v[k]!; }
+      for (let k = 0; k < m; k++) {
+        vPrev3[k] = vPrev2[k]!;
+        vPrev2[k] = vPrev[k]!;
+        vPrev[k] = v[k]!;
+      }
     }
     this.solves++;
     if (opts.quadraticAccept === true) {
@@ -316,15 +340,27 @@ export class NewtonRoot {
 
   /** Record the converged solution at p (the start of a later continuation). */
   private remember(p: Float64Array): void {
-    const m = this.m, v = this.v, pl = this.pLast, vl = this.vLast;
-    for (let k = 0; k < m; k++) { pl[k] = p[k]!; vl[k] = v[k]!; }
+    const m = this.m,
+      v = this.v,
+      pl = this.pLast,
+      vl = this.vLast;
+    for (let k = 0; k < m; k++) {
+      pl[k] = p[k]!;
+      vl[k] = v[k]!;
+    }
     this.hasLast = true;
   }
 
   /** Restart the extrapolation from v rather than from a trajectory that led nowhere. */
   private restartHistory(): void {
-    const m = this.m, v = this.v;
-    for (let k = 0; k < m; k++) { const x = v[k]!; this.vPrev[k] = x; this.vPrev2[k] = x; this.vPrev3[k] = x; }
+    const m = this.m,
+      v = this.v;
+    for (let k = 0; k < m; k++) {
+      const x = v[k]!;
+      this.vPrev[k] = x;
+      this.vPrev2[k] = x;
+      this.vPrev3[k] = x;
+    }
     this.order = 1;
   }
 
@@ -338,18 +374,26 @@ export class NewtonRoot {
    * undefined: the caller restores it). Allocates nothing.
    */
   continueFrom(p0: Float64Array, v0: Float64Array, p1: Float64Array, opts: NewtonOptions, depth: number): number {
-    const m = this.m, v = this.v, pT = this.pT, vA = this.vA;
+    const m = this.m,
+      v = this.v,
+      pT = this.pT,
+      vA = this.vA;
     // v0 may alias vLast: copy before anything writes
     for (let k = 0; k < m; k++) vA[k] = v0[k]!;
     const hMin = Math.pow(0.5, depth);
     const sub = this.subOptions;
     sub.toleranceVolts = opts.toleranceVolts;
     sub.maxIterations = Math.min(opts.maxIterations, SUB_MAX_ITERATIONS);
-    let lam = 0, h = 0.5, total = 0;
+    let lam = 0,
+      h = 0.5,
+      total = 0;
     this.continuationIterations = 0;
     while (lam < 1) {
       const t = Math.min(1, lam + h);
-      for (let k = 0; k < m; k++) { pT[k] = p0[k]! + t * (p1[k]! - p0[k]!); v[k] = vA[k]!; }
+      for (let k = 0; k < m; k++) {
+        pT[k] = p0[k]! + t * (p1[k]! - p0[k]!);
+        v[k] = vA[k]!;
+      }
       const n = this.iterate(pT, sub, sub.maxIterations);
       total += n >= 0 ? n : sub.maxIterations;
       this.continuationSteps++;
@@ -359,7 +403,10 @@ export class NewtonRoot {
         h = Math.min(2 * h, 1);
       } else {
         h *= 0.5;
-        if (h < hMin) { this.continuationIterations = total; return -1; }
+        if (h < hMin) {
+          this.continuationIterations = total;
+          return -1;
+        }
       }
     }
     this.continuationIterations = total;
@@ -378,10 +425,18 @@ export class NewtonRoot {
   private iterate(p: Float64Array, opts: NewtonOptions, maxIt: number): number {
     const m = this.m;
     const F = this.F;
-    const v = this.v, i = this.i, r = this.r, d = this.d;
-    const knees = this.kneePorts, limiters = this.limiters, maxStep = this.maxStep, maxStepFloor = this.maxStepFloor;
-    const tol = opts.toleranceVolts, quadratic = opts.quadraticAccept === true;
-    const vOld = this.vOld, dOld = this.lastDelta;
+    const v = this.v,
+      i = this.i,
+      r = this.r,
+      d = this.d;
+    const knees = this.kneePorts,
+      limiters = this.limiters,
+      maxStep = this.maxStep,
+      maxStepFloor = this.maxStepFloor;
+    const tol = opts.toleranceVolts,
+      quadratic = opts.quadraticAccept === true;
+    const vOld = this.vOld,
+      dOld = this.lastDelta;
     let lastStep = 0;
     let gOld = Infinity;
     let sOld = 0;
@@ -391,7 +446,12 @@ export class NewtonRoot {
       if (!this.kernel(F, p, v, i, d, r)) {
         this.pivotedSteps++;
         if (!this.pivotedStep(p)) {
-          if (it > 1 && sOld > MIN_BACKTRACK) { sOld *= 0.5; this.scaleBox[0] = sOld; this.backtrack(); continue; }
+          if (it > 1 && sOld > MIN_BACKTRACK) {
+            sOld *= 0.5;
+            this.scaleBox[0] = sOld;
+            this.backtrack();
+            continue;
+          }
           return -1;
         }
       }
@@ -430,7 +490,8 @@ export class NewtonRoot {
       if (!finite) return -1;
       let scale = 1;
       for (let k = 0; k < m; k++) {
-        const dk = Math.abs(r[k]!), lim = maxStep[k]!;
+        const dk = Math.abs(r[k]!),
+          lim = maxStep[k]!;
         if (dk > lim && lim / dk < scale) scale = lim / dk;
       }
       // Knee limiting (in the spirit of SPICE's junction and FET voltage limiting, Nagel,
@@ -439,7 +500,9 @@ export class NewtonRoot {
       // Without it Newton cycles there between the flat and the steep side: measured on
       // single-pentode, 2 V + 0.5 V peak at 1x, 2037 of 12000 solves failed.
       for (let q = 0; q < knees.length; q++) {
-        const k = knees[q]!, vk = v[k]!, to = vk + scale * r[k]!;
+        const k = knees[q]!,
+          vk = v[k]!,
+          to = vk + scale * r[k]!;
         if (vk > KNEE_VOLTS && to < 0.25 * vk) scale = (0.75 * vk) / -r[k]!;
       }
       // junction limiting of the exponential tails (wdf/junction-limit.ts)
@@ -449,7 +512,12 @@ export class NewtonRoot {
         for (let q = 0; q < limiters.length; q++) limiters[q]!.limit(v, r, sc);
         scale = sc[0]!;
       }
-      for (let k = 0; k < m; k++) { const dv = r[k]!; vOld[k] = v[k]!; dOld[k] = dv; v[k] = vOld[k]! + scale * dv; }
+      for (let k = 0; k < m; k++) {
+        const dv = r[k]!;
+        vOld[k] = v[k]!;
+        dOld[k] = dv;
+        v[k] = vOld[k]! + scale * dv;
+      }
       gOld = g;
       sOld = scale;
       dOldMax = maxDelta;
@@ -460,7 +528,11 @@ export class NewtonRoot {
 
   /** Retake the last step shortened: v = vOld + h·dOld, h = scaleBox[0] (no double crosses the call). */
   private backtrack(): void {
-    const m = this.m, v = this.v, vOld = this.vOld, dOld = this.lastDelta, h = this.scaleBox[0]!;
+    const m = this.m,
+      v = this.v,
+      vOld = this.vOld,
+      dOld = this.lastDelta,
+      h = this.scaleBox[0]!;
     for (let k = 0; k < m; k++) v[k] = vOld[k]! + h * dOld[k]!;
     this.backtracks++;
   }
@@ -473,11 +545,19 @@ export class NewtonRoot {
    * 34/2.98/1.73/1.32: cubic overshoots at 1x and Newton then fails).
    */
   private scorePredictors(): void {
-    const m = this.m, v = this.v, pL = this.predL, pQ = this.predQ, pC = this.predC;
-    let eL = 0, eQ = 0, eC = 0;
+    const m = this.m,
+      v = this.v,
+      pL = this.predL,
+      pQ = this.predQ,
+      pC = this.predC;
+    let eL = 0,
+      eQ = 0,
+      eC = 0;
     for (let k = 0; k < m; k++) {
       const x = v[k]!;
-      eL += Math.abs(x - pL[k]!); eQ += Math.abs(x - pQ[k]!); eC += Math.abs(x - pC[k]!);
+      eL += Math.abs(x - pL[k]!);
+      eQ += Math.abs(x - pQ[k]!);
+      eC += Math.abs(x - pC[k]!);
     }
     // capped: what counts is how often a start lands close enough for one Newton step, not the
     // size of the rare large miss at a sharp corner
@@ -486,18 +566,34 @@ export class NewtonRoot {
     // ~50 minor collections per million solves, none with Math.min; counted with a gc
     // PerformanceObserver, see tests/engine-alloc.test.ts)
     const cap = PREDICTOR_ERROR_CAP_VOLTS;
-    eL = Math.min(eL, cap); eQ = Math.min(eQ, cap); eC = Math.min(eC, cap);
+    eL = Math.min(eL, cap);
+    eQ = Math.min(eQ, cap);
+    eC = Math.min(eC, cap);
     const a = PREDICTOR_MEMORY;
     const sc = this.scalars;
-    const sL = a * sc[1]! + eL, sQ = a * sc[2]! + eQ, sC = a * sc[3]! + eC;
-    sc[1] = sL; sc[2] = sQ; sc[3] = sC;
+    const sL = a * sc[1]! + eL,
+      sQ = a * sc[2]! + eQ,
+      sC = a * sc[3]! + eC;
+    sc[1] = sL;
+    sc[2] = sQ;
+    sc[3] = sC;
     this.order = sC < sQ && sC < sL ? 3 : sQ < sL ? 2 : 1;
   }
 
   /** The step by the generic path (partial pivoting) into r; false if J is singular. */
   private pivotedStep(p: Float64Array): boolean {
-    const m = this.m, F = this.F, FT = this.FT, v = this.v, i = this.i, r = this.r, jac = this.jac, d = this.d, piv = this.piv;
-    const nzRow = this.nzRow, nzCol = this.nzCol, nnz = nzRow.length;
+    const m = this.m,
+      F = this.F,
+      FT = this.FT,
+      v = this.v,
+      i = this.i,
+      r = this.r,
+      jac = this.jac,
+      d = this.d,
+      piv = this.piv;
+    const nzRow = this.nzRow,
+      nzCol = this.nzCol,
+      nnz = nzRow.length;
     // residual g(v) = v - p - F i (r = -g) ; Jacobian J = I - F dI/dV, built column-wise
     for (let row = 0; row < m; row++) {
       let s = p[row]! - v[row]!;
@@ -510,7 +606,8 @@ export class NewtonRoot {
     for (let z = 0; z < nnz; z++) {
       const dz = d[z]!;
       if (dz === 0) continue;
-      const t = nzRow[z]! * m, c = nzCol[z]!;
+      const t = nzRow[z]! * m,
+        c = nzCol[z]!;
       for (let row = 0; row < m; row++) jac[row * m + c]! -= FT[t + row]! * dz;
     }
     let g = 0;

@@ -106,7 +106,9 @@ export class LinearNetworkCompiler {
     this.nlB = Int32Array.from(t.nonlinearPorts, (p) => p.b);
     this.idealRow = new Int32Array(this.nu).fill(-1);
     let K = 0;
-    t.idealPorts.forEach((ideal, j) => { if (ideal) this.idealRow[j] = N + K++; });
+    t.idealPorts.forEach((ideal, j) => {
+      if (ideal) this.idealRow[j] = N + K++;
+    });
     const D = N + K;
     this.dim = D;
     this.lu = new Float64Array(D * D);
@@ -115,23 +117,38 @@ export class LinearNetworkCompiler {
     this.col = new Float64Array(D);
     this.tmp = new Float64Array(D);
     this.needed = new Uint8Array(D);
-    const need = (n: number) => { if (n >= 0) this.needed[n] = 1; };
+    const need = (n: number) => {
+      if (n >= 0) this.needed[n] = 1;
+    };
     for (let j = 0; j < this.nu; j++) {
       const row = this.idealRow[j]!;
       if (row >= 0) need(row);
-      else { need(this.portA[j]!); need(this.portB[j]!); }
+      else {
+        need(this.portA[j]!);
+        need(this.portB[j]!);
+      }
     }
-    for (let k = 0; k < this.m; k++) { need(this.nlA[k]!); need(this.nlB[k]!); }
+    for (let k = 0; k < this.m; k++) {
+      need(this.nlA[k]!);
+      need(this.nlB[k]!);
+    }
   }
 
   /** Storage of the right sizes for compile(). */
   createMatrices(): RootMatrices {
-    const N = this.nodeCount, nu = this.nu, m = this.m;
+    const N = this.nodeCount,
+      nu = this.nu,
+      m = this.m;
     return {
-      nodeCount: N, nu, m,
-      E: new Float64Array(m * nu), F: new Float64Array(m * m),
-      Pu: new Float64Array(nu * nu), Pi: new Float64Array(nu * m),
-      Zu: new Float64Array(N * nu), Zi: new Float64Array(N * m),
+      nodeCount: N,
+      nu,
+      m,
+      E: new Float64Array(m * nu),
+      F: new Float64Array(m * m),
+      Pu: new Float64Array(nu * nu),
+      Pi: new Float64Array(nu * m),
+      Zu: new Float64Array(N * nu),
+      Zi: new Float64Array(N * m),
     };
   }
 
@@ -142,7 +159,11 @@ export class LinearNetworkCompiler {
    * allocation; throws SingularMatrixError (before writing `out`) if the network is singular.
    */
   compile(siemens: Float64Array, wavePortOhms: Float64Array, out: RootMatrices): void {
-    const N = this.nodeCount, nu = this.nu, m = this.m, D = this.dim, X = this.lu;
+    const N = this.nodeCount,
+      nu = this.nu,
+      m = this.m,
+      D = this.dim,
+      X = this.lu;
     const nc = this.condA.length;
     if (siemens.length !== nc || wavePortOhms.length !== nu) throw new Error('value arrays do not match the topology');
     if (out.nodeCount !== N || out.nu !== nu || out.m !== m) throw new Error('output matrices do not match the topology');
@@ -154,25 +175,34 @@ export class LinearNetworkCompiler {
     }
     for (let j = 0; j < nu; j++) {
       const ohms = wavePortOhms[j]!;
-      if ((ohms === 0) !== (this.idealRow[j]! >= 0)) throw new Error(`wave port ${j}: a resistance of 0 (ideal source) cannot change at run time`);
+      if ((ohms === 0) !== this.idealRow[j]! >= 0) throw new Error(`wave port ${j}: a resistance of 0 (ideal source) cannot change at run time`);
       if (ohms > 0) this.stamp(this.portA[j]!, this.portB[j]!, 1 / ohms);
     }
     for (let j = 0; j < nu; j++) {
       const row = this.idealRow[j]!;
       if (row < 0) continue;
-      const a = this.portA[j]!, b = this.portB[j]!;
-      if (a >= 0) { X[a * D + row] = 1; X[row * D + a] = 1; }
-      if (b >= 0) { X[b * D + row] = -1; X[row * D + b] = -1; }
+      const a = this.portA[j]!,
+        b = this.portB[j]!;
+      if (a >= 0) {
+        X[a * D + row] = 1;
+        X[row * D + a] = 1;
+      }
+      if (b >= 0) {
+        X[b * D + row] = -1;
+        X[row * D + b] = -1;
+      }
     }
     const Xi = this.inv;
     invertInto(X, D, Xi, this.piv, this.col, this.tmp, this.needed);
 
     // Node voltages per unit right-hand side: a port's column has at most two non-zeros
     // (+g at a, -g at b; an ideal source: 1 at its row), so Xi times it is at most two terms.
-    const Zu = out.Zu, Zi = out.Zi;
+    const Zu = out.Zu,
+      Zi = out.Zi;
     for (let j = 0; j < nu; j++) {
       const row = this.idealRow[j]!;
-      const a = this.portA[j]!, b = this.portB[j]!;
+      const a = this.portA[j]!,
+        b = this.portB[j]!;
       const g = row >= 0 ? 0 : 1 / wavePortOhms[j]!;
       for (let n = 0; n < N; n++) {
         let s = 0;
@@ -185,7 +215,8 @@ export class LinearNetworkCompiler {
       }
     }
     for (let k = 0; k < m; k++) {
-      const a = this.nlA[k]!, b = this.nlB[k]!;
+      const a = this.nlA[k]!,
+        b = this.nlB[k]!;
       for (let n = 0; n < N; n++) {
         let s = 0;
         if (a >= 0 && a !== b) s += Xi[n * D + a]! * -1;
@@ -200,17 +231,22 @@ export class LinearNetworkCompiler {
   }
 
   private stamp(a: number, b: number, g: number): void {
-    const X = this.lu, D = this.dim;
+    const X = this.lu,
+      D = this.dim;
     if (a >= 0) X[a * D + a]! += g;
     if (b >= 0) X[b * D + b]! += g;
-    if (a >= 0 && b >= 0) { X[a * D + b]! -= g; X[b * D + a]! -= g; }
+    if (a >= 0 && b >= 0) {
+      X[a * D + b]! -= g;
+      X[b * D + a]! -= g;
+    }
   }
 }
 
 /** Branch voltages (v_a - v_b) of the node-voltage rows Z (nodes x width) into out (branches x width). */
 function branchRows(A: Int32Array, B: Int32Array, Z: Float64Array, width: number, out: Float64Array): void {
   for (let r = 0; r < A.length; r++) {
-    const a = A[r]!, b = B[r]!;
+    const a = A[r]!,
+      b = B[r]!;
     for (let c = 0; c < width; c++) {
       const va = a >= 0 ? Z[a * width + c]! : 0;
       const vb = b >= 0 ? Z[b * width + c]! : 0;

@@ -19,7 +19,8 @@ export function parseDbu(text: string): { ok: true; dbu: number } | { ok: false;
   const m = /^\s*([+-]?\d+(?:\.\d+)?)\s*(?:dbu)?\s*$/i.exec(text);
   if (!m) return { ok: false, reason: `"${text.trim()}" is not a level in dBu (for example +9 or 9 dBu)` };
   const dbu = Number(m[1]);
-  if (dbu < DBU_RANGE.min || dbu > DBU_RANGE.max) return { ok: false, reason: `${dbu} dBu is outside ${DBU_RANGE.min} … +${DBU_RANGE.max} dBu, the range of interface inputs` };
+  if (dbu < DBU_RANGE.min || dbu > DBU_RANGE.max)
+    return { ok: false, reason: `${dbu} dBu is outside ${DBU_RANGE.min} … +${DBU_RANGE.max} dBu, the range of interface inputs` };
   return { ok: true, dbu };
 }
 

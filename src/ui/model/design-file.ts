@@ -27,6 +27,10 @@ export function importDesignText(text: string, fileName = 'file'): ImportResult 
 
 /** A file name from the design name: "Hearthstone (pentode front)" -> "hearthstone-pentode-front.json". */
 export function designFileName(design: Design): string {
-  const base = design.name.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '') || 'design';
+  const base =
+    design.name
+      .toLowerCase()
+      .replace(/[^a-z0-9]+/g, '-')
+      .replace(/^-+|-+$/g, '') || 'design';
   return `${base}.json`;
 }

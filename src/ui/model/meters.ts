@@ -22,7 +22,10 @@ export function voltsFraction(volts: number, lowVolts = 1e-3, highVolts = 3): nu
 }
 
 /** Peak hold: rises at once, falls by decayDbPerSecond after holdSeconds. Levels in dB. */
-export interface PeakHold { readonly db: number; readonly heldSeconds: number }
+export interface PeakHold {
+  readonly db: number;
+  readonly heldSeconds: number;
+}
 export function stepPeakHold(h: PeakHold, inputDb: number, dtSeconds: number, holdSeconds = 1, decayDbPerSecond = 20): PeakHold {
   if (inputDb >= h.db) return { db: inputDb, heldSeconds: 0 };
   const held = h.heldSeconds + dtSeconds;

@@ -31,7 +31,10 @@ const fig = (label: string, value: number, unit: RatedFigure['unit'], limit?: nu
 
 /** Build the report from an operating point (pure). */
 export function operatingReport(d: Design, op: OperatingPoint): OperatingReport {
-  const nodes = Object.entries(op.nodes).filter(([n]) => n !== '0').map(([node, volts]) => ({ node, volts })).sort((a, b) => a.node.localeCompare(b.node));
+  const nodes = Object.entries(op.nodes)
+    .filter(([n]) => n !== '0')
+    .map(([node, volts]) => ({ node, volts }))
+    .sort((a, b) => a.node.localeCompare(b.node));
   const warnings: string[] = [];
   const tubes: TubeReport[] = [];
   const v = (n: string) => op.nodes[n] ?? 0;
@@ -51,9 +54,12 @@ export function operatingReport(d: Design, op: OperatingPoint): OperatingReport 
       fig('cathode current', o.cathodeAmps * 1e3, 'mA', r.cathodeAmps === undefined ? undefined : r.cathodeAmps * 1e3),
       fig('heater to cathode', hk, 'V', r.heaterCathodeVolts),
     ];
-    for (const f of figures) if (f.exceeded) warnings.push(`${p.id} (${t.name}): ${f.label} ${f.value.toFixed(f.unit === 'W' ? 2 : 1)} ${f.unit} exceeds the ${f.limit} ${f.unit} rating`);
+    for (const f of figures)
+      if (f.exceeded)
+        warnings.push(`${p.id} (${t.name}): ${f.label} ${f.value.toFixed(f.unit === 'W' ? 2 : 1)} ${f.unit} exceeds the ${f.limit} ${f.unit} rating`);
     // With the tubes cold at switch-on the plate sits at its supply (common practice).
-    if (d.supply.volts > r.plateVolts) warnings.push(`${p.id} (${t.name}): B+ ${d.supply.volts} V is above the ${r.plateVolts} V plate rating, which a cold tube sees at switch-on`);
+    if (d.supply.volts > r.plateVolts)
+      warnings.push(`${p.id} (${t.name}): B+ ${d.supply.volts} V is above the ${r.plateVolts} V plate rating, which a cold tube sees at switch-on`);
     if (o.vgk > 0) warnings.push(`${p.id}: the grid sits ${o.vgk.toFixed(2)} V above the cathode at rest (grid current flows)`);
     tubes.push({ id: p.id, type: t.name, figures, ratingsSource: r.source });
   }

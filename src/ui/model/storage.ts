@@ -22,7 +22,8 @@ export function parseWorkspace(text: string | null): Saved | null {
     const doc = JSON.parse(text) as { version?: unknown; A?: unknown; B?: unknown; active?: unknown };
     if (doc.version !== 1) return null;
     // a sheet still being built saves too: structure checked, wiring left to the wiring check
-    const A = validateDesign(doc.A, { wiring: false }), B = validateDesign(doc.B, { wiring: false });
+    const A = validateDesign(doc.A, { wiring: false }),
+      B = validateDesign(doc.B, { wiring: false });
     return { slots: { A, B }, active: doc.active === 'B' ? 'B' : 'A' };
   } catch {
     return null;

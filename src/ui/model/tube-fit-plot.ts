@@ -18,7 +18,11 @@ export interface ImportedTube {
 /** Parse a user tube file's text; a clear one-line error for anything wrong (never a stack trace). */
 export function readTubeFile(text: string, fileName: string): ImportedTube {
   let doc: unknown;
-  try { doc = JSON.parse(text); } catch { throw new TubeFileError(`${fileName}: not JSON (expected a user tube file written by valvewright tube fit --out)`); }
+  try {
+    doc = JSON.parse(text);
+  } catch {
+    throw new TubeFileError(`${fileName}: not JSON (expected a user tube file written by valvewright tube fit --out)`);
+  }
   const type = userTubeType(doc, fileName);
   const raw = (doc as { points?: unknown }).points;
   if (!Array.isArray(raw)) throw new TubeFileError(`${fileName}: "points" must be the list of fitted points`);
@@ -26,7 +30,10 @@ export function readTubeFile(text: string, fileName: string): ImportedTube {
   raw.forEach((q: unknown, i) => {
     const o = q as Record<string, unknown>;
     const num = (k: string) => (typeof o?.[k] === 'number' && Number.isFinite(o[k]) ? (o[k] as number) : undefined);
-    const vgk = num('vgk'), vpk = num('vpk'), ip = num('ip'), vsk = num('vsk');
+    const vgk = num('vgk'),
+      vpk = num('vpk'),
+      ip = num('ip'),
+      vsk = num('vsk');
     if (vgk === undefined || vpk === undefined) throw new TubeFileError(`${fileName}: point ${i + 1} needs numbers "vgk" and "vpk"`);
     if (type.kind === 'pentode' && vsk === undefined && ip !== undefined) throw new TubeFileError(`${fileName}: point ${i + 1} of a pentode needs "vsk"`);
     if (ip !== undefined && ip > 0) points.push({ vgk, vpk, ip, ...(vsk !== undefined ? { vsk } : {}) });
@@ -62,27 +69,48 @@ function elementOf(t: TubeType): TubeModelElement {
 
 /** The fitted plate-current curves, one per grid voltage (and screen voltage), against the file's points. */
 export function fitPlot(imported: ImportedTube, samplesPerCurve = 64): FitPlot {
-  const el = elementOf(imported.type), cur = newTubeCurrents();
-  const ipAt = (vgk: number, vpk: number, vsk: number) => { tubeCurrents(el, vgk, vpk, vsk, cur); return cur.plate.amps; };
+  const el = elementOf(imported.type),
+    cur = newTubeCurrents();
+  const ipAt = (vgk: number, vpk: number, vsk: number) => {
+    tubeCurrents(el, vgk, vpk, vsk, cur);
+    return cur.plate.amps;
+  };
   const key = (q: FitPoint) => `${q.vgk.toFixed(3)}|${(q.vsk ?? 0).toFixed(1)}`;
   const groups = new Map<string, (FitPoint & { ip: number })[]>();
-  for (const q of imported.points) { const k = key(q); const g = groups.get(k); if (g) g.push(q); else groups.set(k, [q]); }
+  for (const q of imported.points) {
+    const k = key(q);
+    const g = groups.get(k);
+    if (g) g.push(q);
+    else groups.set(k, [q]);
+  }
   const maxVolts = 1.1 * Math.max(...imported.points.map((q) => q.vpk));
-  let maxAmps = 0, sq = 0;
+  let maxAmps = 0,
+    sq = 0;
   const series: CurveSeries[] = [];
   for (const g of groups.values()) {
     const { vgk, vsk } = g[0]!;
     const curve: [number, number][] = [];
     for (let i = 0; i <= samplesPerCurve; i++) {
-      const v = (maxVolts * i) / samplesPerCurve, a = ipAt(vgk, v, vsk ?? 0);
-      curve.push([v, a]); maxAmps = Math.max(maxAmps, a);
+      const v = (maxVolts * i) / samplesPerCurve,
+        a = ipAt(vgk, v, vsk ?? 0);
+      curve.push([v, a]);
+      maxAmps = Math.max(maxAmps, a);
     }
-    const points = g.sort((a, b) => a.vpk - b.vpk).map((q) => {
-      const f = ipAt(q.vgk, q.vpk, q.vsk ?? 0);
-      sq += (f / q.ip - 1) ** 2; maxAmps = Math.max(maxAmps, q.ip);
-      return { vpk: q.vpk, ip: q.ip, fittedIp: f };
+    const points = g
+      .sort((a, b) => a.vpk - b.vpk)
+      .map((q) => {
+        const f = ipAt(q.vgk, q.vpk, q.vsk ?? 0);
+        sq += (f / q.ip - 1) ** 2;
+        maxAmps = Math.max(maxAmps, q.ip);
+        return { vpk: q.vpk, ip: q.ip, fittedIp: f };
+      });
+    series.push({
+      vgk,
+      ...(vsk !== undefined ? { vsk } : {}),
+      label: `Vgk ${+vgk.toFixed(2)} V${vsk !== undefined ? `, Vsk ${+vsk.toFixed(0)} V` : ''}`,
+      curve,
+      points,
     });
-    series.push({ vgk, ...(vsk !== undefined ? { vsk } : {}), label: `Vgk ${+vgk.toFixed(2)} V${vsk !== undefined ? `, Vsk ${+vsk.toFixed(0)} V` : ''}`, curve, points });
   }
   series.sort((a, b) => b.vgk - a.vgk || (b.vsk ?? 0) - (a.vsk ?? 0));
   return { series, maxVolts, maxAmps: maxAmps * 1.05, rmsRelativeError: Math.sqrt(sq / imported.points.length) };
@@ -100,7 +128,8 @@ export function tubesOfKind(design: Design, kind: TubeType['kind']): string[] {
 export function designWithTube(design: Design, partId: string, imported: ImportedTube): Design {
   const part = design.parts.find((p) => p.id === partId);
   if (!part || part.kind !== 'tube') throw new TubeFileError(`no tube part "${partId}" in the design`);
-  if ((imported.type.kind === 'pentode') !== (part.nodes.screen !== undefined)) throw new TubeFileError(`${partId} is a ${part.nodes.screen ? 'pentode' : 'triode'}; ${imported.type.name} is a ${imported.type.kind}`);
+  if ((imported.type.kind === 'pentode') !== (part.nodes.screen !== undefined))
+    throw new TubeFileError(`${partId} is a ${part.nodes.screen ? 'pentode' : 'triode'}; ${imported.type.name} is a ${imported.type.kind}`);
   registerUserTube(imported.type);
   const others = (design.userTubes ?? []).filter((u) => (u as { type?: unknown }).type !== imported.type.name);
   const parts: Part[] = design.parts.map((p) => (p.id === partId && p.kind === 'tube' ? { ...p, type: imported.type.name } : p));

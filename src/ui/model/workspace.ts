@@ -22,7 +22,12 @@ export function withSlot(s: Slots, slot: Slot, design: Design): Slots {
 
 /** Whole-design validation failure, or null. */
 function wiringProblem(d: Design): string | null {
-  try { validateDesign(d); return null; } catch (err) { return (err as Error).message; }
+  try {
+    validateDesign(d);
+    return null;
+  } catch (err) {
+    return (err as Error).message;
+  }
 }
 
 /**
@@ -34,7 +39,10 @@ export function editPart(s: Slots, slot: Slot, part: Part): { ok: true; slots: S
   const before = s[slot];
   try {
     const next = validateDesign(withPart(before, part), { wiring: false });
-    if (wiringProblem(before) === null) { const bad = wiringProblem(next); if (bad) return { ok: false, reason: bad }; }
+    if (wiringProblem(before) === null) {
+      const bad = wiringProblem(next);
+      if (bad) return { ok: false, reason: bad };
+    }
     return { ok: true, slots: withSlot(s, slot, next) };
   } catch (err) {
     return { ok: false, reason: (err as Error).message };
@@ -66,10 +74,14 @@ export function applyTemplate(current: Design, template: Design): { design: Desi
     if (!c) return t;
     kept.push(t.id);
     switch (t.kind) {
-      case 'resistor': return c.kind === 'resistor' ? { ...t, ohms: c.ohms } : t;
-      case 'capacitor': return c.kind === 'capacitor' ? { ...t, farads: c.farads } : t;
-      case 'pot': return c.kind === 'pot' ? { ...t, ohms: c.ohms, taper: c.taper, position: c.position } : t;
-      case 'switch': return c.kind === 'switch' ? { ...t, closed: c.closed } : t;
+      case 'resistor':
+        return c.kind === 'resistor' ? { ...t, ohms: c.ohms } : t;
+      case 'capacitor':
+        return c.kind === 'capacitor' ? { ...t, farads: c.farads } : t;
+      case 'pot':
+        return c.kind === 'pot' ? { ...t, ohms: c.ohms, taper: c.taper, position: c.position } : t;
+      case 'switch':
+        return c.kind === 'switch' ? { ...t, closed: c.closed } : t;
       case 'tube': {
         if (c.kind !== 'tube') return t;
         const sameKind = tubeType(c.type).kind === tubeType(t.type).kind;

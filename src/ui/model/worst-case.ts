@@ -35,15 +35,23 @@ export function modelDesign(d: Design): Design {
   if (!d.powerSupply) return d;
   let m = models.get(d);
   if (!m) {
-    try { m = designSupply(d).design; } catch { m = d; }
+    try {
+      m = designSupply(d).design;
+    } catch {
+      m = d;
+    }
     models.set(d, m);
   }
   return m;
 }
 
 /** A request to the sheet worker (sheet.worker.ts) and its reply (plain data: structured-cloned). */
-export interface SheetRequest { readonly id: number; readonly design: Design }
-export type SheetReply = { readonly id: number; readonly ok: true; readonly view: WorstCaseView } | { readonly id: number; readonly ok: false; readonly reason: string };
+export interface SheetRequest {
+  readonly id: number;
+  readonly design: Design;
+}
+export type SheetReply =
+  { readonly id: number; readonly ok: true; readonly view: WorstCaseView } | { readonly id: number; readonly ok: false; readonly reason: string };
 
 /**
  * The sheet of the latest design asked for, from a worker (or on the main thread in the next
@@ -59,19 +67,30 @@ export class SheetService {
     try {
       this.worker = new Worker(new URL('../sheet.worker.ts', import.meta.url), { type: 'module' });
       this.worker.onmessage = (e: MessageEvent<SheetReply>) => this.answer(e.data);
-      this.worker.onerror = () => { this.worker = null; };
-    } catch { this.worker = null; }
+      this.worker.onerror = () => {
+        this.worker = null;
+      };
+    } catch {
+      this.worker = null;
+    }
   }
 
   request(design: Design): void {
     const id = this.next++;
     this.latest = id;
     this.pending.set(id, design);
-    if (this.worker) { this.worker.postMessage({ id, design } satisfies SheetRequest); return; }
+    if (this.worker) {
+      this.worker.postMessage({ id, design } satisfies SheetRequest);
+      return;
+    }
     setTimeout(() => {
       if (id !== this.latest) return;
       let reply: SheetReply;
-      try { reply = { id, ok: true, view: worstCase(design) }; } catch (err) { reply = { id, ok: false, reason: (err as Error).message }; }
+      try {
+        reply = { id, ok: true, view: worstCase(design) };
+      } catch (err) {
+        reply = { id, ok: false, reason: (err as Error).message };
+      }
       this.answer(reply);
     }, 0);
   }
@@ -83,5 +102,8 @@ export class SheetService {
     this.onSheet(design, r.ok ? r.view : null);
   }
 
-  dispose(): void { this.worker?.terminate(); this.worker = null; }
+  dispose(): void {
+    this.worker?.terminate();
+    this.worker = null;
+  }
 }

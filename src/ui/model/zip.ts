@@ -53,7 +53,8 @@ export function buildZip(entries: readonly ZipEntry[], modified: Date = new Date
   const enc = new TextEncoder();
   const seen = new Set<string>();
   const names = entries.map((e) => {
-    if (e.name === '' || e.name.startsWith('/') || e.name.includes('\\') || e.name.split('/').includes('..')) throw new Error(`zip: bad entry name "${e.name}"`);
+    if (e.name === '' || e.name.startsWith('/') || e.name.includes('\\') || e.name.split('/').includes('..'))
+      throw new Error(`zip: bad entry name "${e.name}"`);
     if (seen.has(e.name)) throw new Error(`zip: duplicate entry name "${e.name}"`);
     seen.add(e.name);
     const b = enc.encode(e.name);
@@ -68,13 +69,15 @@ export function buildZip(entries: readonly ZipEntry[], modified: Date = new Date
     localBytes += 30 + names[i]!.length + entries[i]!.data.length;
     centralBytes += 46 + names[i]!.length;
   }
-  if (localBytes + centralBytes + 22 > MAX_U32) throw new Error(`zip: archive would be ${localBytes + centralBytes + 22} bytes, over 4 GiB (ZIP64 not supported)`);
+  if (localBytes + centralBytes + 22 > MAX_U32)
+    throw new Error(`zip: archive would be ${localBytes + centralBytes + 22} bytes, over 4 GiB (ZIP64 not supported)`);
   const out = new Uint8Array(localBytes + centralBytes + 22);
   const v = new DataView(out.buffer);
   const offsets: number[] = [];
   let p = 0;
   for (let i = 0; i < entries.length; i++) {
-    const name = names[i]!, data = entries[i]!.data;
+    const name = names[i]!,
+      data = entries[i]!.data;
     offsets.push(p);
     v.setUint32(p, LOCAL_SIG, true);
     v.setUint16(p + 4, VERSION_NEEDED, true);
@@ -93,7 +96,8 @@ export function buildZip(entries: readonly ZipEntry[], modified: Date = new Date
   }
   const centralStart = p;
   for (let i = 0; i < entries.length; i++) {
-    const name = names[i]!, size = entries[i]!.data.length;
+    const name = names[i]!,
+      size = entries[i]!.data.length;
     v.setUint32(p, CENTRAL_SIG, true);
     v.setUint16(p + 4, 20, true); // made by: MS-DOS attributes, spec 2.0
     v.setUint16(p + 6, VERSION_NEEDED, true);

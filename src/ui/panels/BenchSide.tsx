@@ -38,11 +38,17 @@ export function useBench(): Bench {
   const [sheet, setSheet] = useState<{ design: Design; view: WorstCaseView } | null>(null);
   const sheets = useMemo(() => new SheetService((d, view) => setSheet(view ? { design: d, view } : null)), []);
   useEffect(() => () => sheets.dispose(), [sheets]);
-  useEffect(() => { if (playableProblem(sheetDesign) === null) sheets.request(sheetDesign); }, [sheets, sheetDesign]);
+  useEffect(() => {
+    if (playableProblem(sheetDesign) === null) sheets.request(sheetDesign);
+  }, [sheets, sheetDesign]);
   const sheetNow = sheet && sheet.design === design ? sheet.view : null;
   const draftFindings = useMemo(() => {
     if (playableProblem(opDesign) === null) return null;
-    try { return checkWiring(opDesign).filter((f) => f.severity !== 'note'); } catch { return []; }
+    try {
+      return checkWiring(opDesign).filter((f) => f.severity !== 'note');
+    } catch {
+      return [];
+    }
   }, [opDesign]);
   const findings = draftFindings ?? (sheetNow ? sheetNow.result.findings.filter((f) => f.severity !== 'note') : []);
   useEffect(() => {
@@ -57,7 +63,7 @@ export function BenchSide({ bench }: { bench: Bench }): ReactElement {
   const { active, selected } = state;
   const slots = state.history.present;
   const design = slots[active];
-  const part = selected ? findPart(design, selected) ?? null : null;
+  const part = selected ? (findPart(design, selected) ?? null) : null;
   const onPart = (p: Part): string | null => {
     const r = editPart(slots, active, p);
     if (!r.ok) return r.reason;
@@ -73,15 +79,30 @@ export function BenchSide({ bench }: { bench: Bench }): ReactElement {
   const supply = bench.sheet?.result.supply;
   return (
     <div className="side">
-      <PartEditor design={design} part={part} rating={bench.sheet?.rows.find((r) => r.ref === selected) ?? null} sheetPending={!bench.sheet} onChange={onPart} onSupplyVolts={onSupply} />
+      <PartEditor
+        design={design}
+        part={part}
+        rating={bench.sheet?.rows.find((r) => r.ref === selected) ?? null}
+        sheetPending={!bench.sheet}
+        onChange={onPart}
+        onSupplyVolts={onSupply}
+      />
       {part && (
         <section className="panel wiring-panel" aria-label={`Rewire ${part.id}`}>
-          <h2>Wiring <span className="sub">{part.id}</span></h2>
+          <h2>
+            Wiring <span className="sub">{part.id}</span>
+          </h2>
           <WiringEditor part={part} />
         </section>
       )}
       {/* the findings are listed under the schematic, where they point at the parts */}
-      <OperatingPanel report={bench.report} failure={bench.failure} findings={[]} slot={active} supply={supply ? { loadedVolts: supply.loadedVolts, unloadedVolts: supply.unloadedVolts } : null} />
+      <OperatingPanel
+        report={bench.report}
+        failure={bench.failure}
+        findings={[]}
+        slot={active}
+        supply={supply ? { loadedVolts: supply.loadedVolts, unloadedVolts: supply.unloadedVolts } : null}
+      />
       <TubeFitPanel design={design} onDesign={(d) => dispatch({ type: 'edit-design', design: d })} />
     </div>
   );

@@ -14,9 +14,14 @@ export function SeePanel(): ReactElement {
   const { active } = state;
   const slots = state.history.present;
   const design = slots[active];
-  const respA = useDebounced(slots.A, 150), respB = useDebounced(slots.B, 150);
+  const respA = useDebounced(slots.A, 150),
+    respB = useDebounced(slots.B, 150);
   const responses = useMemo(() => {
-    const one = (d0: Design): Responses => { const d = modelDesign(d0); const r = computeOperatingReport(d); return designResponses(d, r.ok ? r.op : null); };
+    const one = (d0: Design): Responses => {
+      const d = modelDesign(d0);
+      const r = computeOperatingReport(d);
+      return designResponses(d, r.ok ? r.op : null);
+    };
     const a = one(respA);
     return { A: a, B: respB === respA ? a : one(respB) };
   }, [respA, respB]);
@@ -28,12 +33,36 @@ export function SeePanel(): ReactElement {
       <h2 id="see-h">See</h2>
       <div className="scope-head">
         <span>Scope, slot {active}: node voltages over the clip</span>
-        {probes.map((n) => <label key={n} className="inline-label"><input type="checkbox" checked={chosen.includes(n)} onChange={(e) => dispatch({ type: 'scope-nodes', nodes: e.target.checked ? [...chosen, n] : chosen.filter((x) => x !== n) })} />{n}</label>)}
+        {probes.map((n) => (
+          <label key={n} className="inline-label">
+            <input
+              type="checkbox"
+              checked={chosen.includes(n)}
+              onChange={(e) => dispatch({ type: 'scope-nodes', nodes: e.target.checked ? [...chosen, n] : chosen.filter((x) => x !== n) })}
+            />
+            {n}
+          </label>
+        ))}
       </div>
       <ScopePlot trace={() => port.scope(active)} position={() => port.positionSeconds()} duration={dur} chosen={chosen} />
       <div className="plots">
-        <ResponsePlot title="Whole circuit, small signal at the operating point" series={[{ name: 'A', curve: responses.A.whole, cls: 'a' }, { name: 'B', curve: responses.B.whole, cls: 'b' }]} note={responses.A.whole ? null : responses.A.reason} />
-        <ResponsePlot title="Tone network as the circuit drives and loads it" series={[{ name: 'A', curve: responses.A.tone, cls: 'a' }, { name: 'B', curve: responses.B.tone, cls: 'b' }, { name: 'A from an ideal source', curve: responses.A.toneIdeal, cls: 'ideal' }]} note={responses.A.tone ? toneNote(responses.A) : responses.A.reason} />
+        <ResponsePlot
+          title="Whole circuit, small signal at the operating point"
+          series={[
+            { name: 'A', curve: responses.A.whole, cls: 'a' },
+            { name: 'B', curve: responses.B.whole, cls: 'b' },
+          ]}
+          note={responses.A.whole ? null : responses.A.reason}
+        />
+        <ResponsePlot
+          title="Tone network as the circuit drives and loads it"
+          series={[
+            { name: 'A', curve: responses.A.tone, cls: 'a' },
+            { name: 'B', curve: responses.B.tone, cls: 'b' },
+            { name: 'A from an ideal source', curve: responses.A.toneIdeal, cls: 'ideal' },
+          ]}
+          note={responses.A.tone ? toneNote(responses.A) : responses.A.reason}
+        />
         <SpectrumPlot read={(into) => port.spectrum(into)} />
       </div>
     </section>

@@ -26,18 +26,31 @@ export function useFileActions(): FileActions {
     async openDesignFile(f) {
       const text = await f.text();
       let doc: unknown = null;
-      try { doc = JSON.parse(text); } catch { /* importDesignText says why */ }
+      try {
+        doc = JSON.parse(text);
+      } catch {
+        /* importDesignText says why */
+      }
       if (typeof doc === 'object' && doc !== null && (doc as { schema?: unknown }).schema === NETLIST_SCHEMA) {
         // a netlist (ours or another tool's) is a circuit too: it becomes a design, saying what it lacks
         try {
           const conv = netlistToDesign(parseNetlist(doc), f.name.replace(/\.json$/i, ''));
           const d = validateDesign(conv.design);
-          dispatch({ type: 'commit', slots: withSlot(slots, active, d), say: `Imported the netlist ${f.name} into slot ${active}. A netlist lacks some of a design: ${conv.lost.join('; ')}.` });
-        } catch (err) { say(`${f.name}: ${(err as Error).message} — your current design was kept.`, true); }
+          dispatch({
+            type: 'commit',
+            slots: withSlot(slots, active, d),
+            say: `Imported the netlist ${f.name} into slot ${active}. A netlist lacks some of a design: ${conv.lost.join('; ')}.`,
+          });
+        } catch (err) {
+          say(`${f.name}: ${(err as Error).message} — your current design was kept.`, true);
+        }
         return;
       }
       const r = importDesignText(text, f.name);
-      if (!r.ok) { say(`${r.reason} — your current design was kept.`, true); return; }
+      if (!r.ok) {
+        say(`${r.reason} — your current design was kept.`, true);
+        return;
+      }
       dispatch({ type: 'commit', slots: withSlot(slots, active, r.design), say: `Imported "${r.design.name}" into slot ${active}.` });
     },
     async openAudioFile(f) {
@@ -45,7 +58,9 @@ export function useFileActions(): FileActions {
         const c = await port.decode(await f.arrayBuffer(), f.name);
         dispatch({ type: 'clip', clip: c, name: f.name });
         say(`Loaded ${f.name} (${c.sampleRateHz} Hz, ${(c.samples.length / c.sampleRateHz).toFixed(1)} s). Set the input calibration to your pickup's level.`);
-      } catch { say(`${f.name}: the browser could not decode this as audio`, true); }
+      } catch {
+        say(`${f.name}: the browser could not decode this as audio`, true);
+      }
     },
     async chooseDemo(d) {
       try {
@@ -55,16 +70,30 @@ export function useFileActions(): FileActions {
         const v = d.voltsAtFullScale;
         if (v && Math.abs(v - calibrationVolts) > 1e-9 * v) {
           dispatch({
-            type: 'say', text: `${d.title} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibrationVolts)}.`,
-            action: { label: `Set the calibration to ${formatVolts(v)}`, run: () => { dispatch({ type: 'calibration', volts: v }); say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`); } },
+            type: 'say',
+            text: `${d.title} was recorded for ${formatVolts(v)} peak at full scale; the input calibration stays ${formatVolts(calibrationVolts)}.`,
+            action: {
+              label: `Set the calibration to ${formatVolts(v)}`,
+              run: () => {
+                dispatch({ type: 'calibration', volts: v });
+                say(`Input calibration set to ${formatVolts(v)} at full scale, the clip's own figure.`);
+              },
+            },
           });
         }
-      } catch (err) { say(`could not load ${d.title}: ${(err as Error).message}`, true); }
+      } catch (err) {
+        say(`could not load ${d.title}: ${(err as Error).message}`, true);
+      }
     },
     takeToClip(c) {
-      if (!c) { say('The take was empty: nothing was recorded.', true); return; }
+      if (!c) {
+        say('The take was empty: nothing was recorded.', true);
+        return;
+      }
       dispatch({ type: 'clip', clip: { ...c, voltsAtFullScale: calibrationVolts }, name: c.name });
-      say(`Recorded ${c.name}, ${(c.samples.length / c.sampleRateHz).toFixed(1)} s of the input (before the circuit): it is now the clip, so A, B and dry play the same take.`);
+      say(
+        `Recorded ${c.name}, ${(c.samples.length / c.sampleRateHz).toFixed(1)} s of the input (before the circuit): it is now the clip, so A, B and dry play the same take.`,
+      );
     },
   };
 }

@@ -25,25 +25,39 @@ export function useAnalysis(): Analysis {
     setBusy(false);
   }, []);
   useEffect(() => stop, [stop]);
-  const run = useCallback((req: Request, transfer: Transferable[] = []) => {
-    if (pending.current) stop();
-    const w = worker.current ?? new Worker(new URL('../analysis.worker.ts', import.meta.url), { type: 'module' });
-    worker.current = w;
-    const id = ++nextId.current;
-    setBusy(true); setFraction(0);
-    return new Promise<AnalysisResult>((resolve, reject) => {
-      pending.current = { id, reject };
-      w.onmessage = (ev: MessageEvent<AnalysisReply>) => {
-        const m = ev.data;
-        if (m.id !== id) return;
-        if (m.type === 'progress') { setFraction(m.fraction); return; }
-        pending.current = null;
-        setBusy(false);
-        if (m.type === 'done') resolve(m.result); else reject(new Error(m.reason));
-      };
-      w.onerror = (ev) => { pending.current = null; setBusy(false); worker.current = null; w.terminate(); reject(new Error(ev.message || 'the analysis worker failed to start')); };
-      w.postMessage({ ...req, id }, transfer);
-    });
-  }, [stop]);
+  const run = useCallback(
+    (req: Request, transfer: Transferable[] = []) => {
+      if (pending.current) stop();
+      const w = worker.current ?? new Worker(new URL('../analysis.worker.ts', import.meta.url), { type: 'module' });
+      worker.current = w;
+      const id = ++nextId.current;
+      setBusy(true);
+      setFraction(0);
+      return new Promise<AnalysisResult>((resolve, reject) => {
+        pending.current = { id, reject };
+        w.onmessage = (ev: MessageEvent<AnalysisReply>) => {
+          const m = ev.data;
+          if (m.id !== id) return;
+          if (m.type === 'progress') {
+            setFraction(m.fraction);
+            return;
+          }
+          pending.current = null;
+          setBusy(false);
+          if (m.type === 'done') resolve(m.result);
+          else reject(new Error(m.reason));
+        };
+        w.onerror = (ev) => {
+          pending.current = null;
+          setBusy(false);
+          worker.current = null;
+          w.terminate();
+          reject(new Error(ev.message || 'the analysis worker failed to start'));
+        };
+        w.postMessage({ ...req, id }, transfer);
+      });
+    },
+    [stop],
+  );
   return { busy, fraction, run, cancel: stop };
 }

@@ -10,9 +10,21 @@ export function useKeys(): void {
     keyRef.current = (e: KeyboardEvent) => {
       const t = e.target as HTMLElement;
       const typing = t.closest('input, select, textarea, [contenteditable]') !== null;
-      if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'z' && !typing) { e.preventDefault(); dispatch({ type: e.shiftKey ? 'redo' : 'undo' }); return; }
-      if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'y' && !typing) { e.preventDefault(); dispatch({ type: 'redo' }); return; }
-      if (e.key.toLowerCase() === 'm' && !e.ctrlKey && !e.metaKey && (!typing || e.altKey)) { e.preventDefault(); if (status?.live !== 'off') port.setMuted(true); return; }
+      if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'z' && !typing) {
+        e.preventDefault();
+        dispatch({ type: e.shiftKey ? 'redo' : 'undo' });
+        return;
+      }
+      if ((e.ctrlKey || e.metaKey) && e.key.toLowerCase() === 'y' && !typing) {
+        e.preventDefault();
+        dispatch({ type: 'redo' });
+        return;
+      }
+      if (e.key.toLowerCase() === 'm' && !e.ctrlKey && !e.metaKey && (!typing || e.altKey)) {
+        e.preventDefault();
+        if (status?.live !== 'off') port.setMuted(true);
+        return;
+      }
       if (typing || e.ctrlKey || e.metaKey || e.altKey) return;
       if ((e.key === 'Delete' || e.key === 'Backspace') && state.selected) {
         e.preventDefault();
@@ -26,9 +38,14 @@ export function useKeys(): void {
       else if (e.key === 'd' || e.key === 'D') dispatch({ type: 'hear', monitor: 'dry' });
       else if (e.key === ' ' && !t.closest('button, [role=button], [role=slider]')) {
         e.preventDefault();
-        if (status?.playing) port.stop(); else if (state.clip) void port.play();
+        if (status?.playing) port.stop();
+        else if (state.clip) void port.play();
       }
     };
   });
-  useEffect(() => { const h = (e: KeyboardEvent) => keyRef.current(e); window.addEventListener('keydown', h); return () => window.removeEventListener('keydown', h); }, []);
+  useEffect(() => {
+    const h = (e: KeyboardEvent) => keyRef.current(e);
+    window.addEventListener('keydown', h);
+    return () => window.removeEventListener('keydown', h);
+  }, []);
 }

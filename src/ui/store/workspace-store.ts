@@ -13,7 +13,11 @@ import { initialSlots, withSlot, type Slots } from '../model/workspace.ts';
 
 export type Caution = 'first-run' | 'live';
 /** A message in the banner, with an optional offer (a button that does something). */
-export interface Message { readonly text: string; readonly bad: boolean; readonly action?: { readonly label: string; readonly run: () => void } }
+export interface Message {
+  readonly text: string;
+  readonly bad: boolean;
+  readonly action?: { readonly label: string; readonly run: () => void };
+}
 export type PanelTab = 'listen' | 'analyses' | 'see';
 
 export interface WorkspaceState {
@@ -61,15 +65,26 @@ export type Action =
   | { readonly type: 'scope-nodes'; readonly nodes: readonly string[] }
   | { readonly type: 'tab'; readonly tab: PanelTab };
 
-
 export function initialState(saved: { slots: Slots; active: Slot } | null, cautionRead: boolean): WorkspaceState {
   const active = saved?.active ?? 'A';
   return {
     history: startHistory(saved?.slots ?? initialSlots()),
-    active, monitor: active, selected: null, message: null,
-    clip: null, clipName: '', calibrationVolts: DEFAULT_INPUT_VOLTS_AT_FULL_SCALE, loop: null,
-    matched: true, quality: DEFAULT_LIVE_FACTOR, guarded: true, cabinet: 'off', liveChoice: { channel: 'mix' },
-    caution: cautionRead ? null : 'first-run', scopeNodes: null, tab: 'listen',
+    active,
+    monitor: active,
+    selected: null,
+    message: null,
+    clip: null,
+    clipName: '',
+    calibrationVolts: DEFAULT_INPUT_VOLTS_AT_FULL_SCALE,
+    loop: null,
+    matched: true,
+    quality: DEFAULT_LIVE_FACTOR,
+    guarded: true,
+    cabinet: 'off',
+    liveChoice: { channel: 'mix' },
+    caution: cautionRead ? null : 'first-run',
+    scopeNodes: null,
+    tab: 'listen',
   };
 }
 
@@ -94,29 +109,44 @@ export function reducer(s: WorkspaceState, a: Action): WorkspaceState {
       const history = pushHistory(s.history, withSlot(s.history.present, a.slot, a.design));
       return { ...s, history, selected: keepSelection(s, history.present), message: a.say ? { text: a.say, bad: false } : s.message };
     }
-    case 'undo': case 'redo': {
+    case 'undo':
+    case 'redo': {
       const history = a.type === 'undo' ? undo(s.history) : redo(s.history);
       return history === s.history ? s : { ...s, history, selected: keepSelection(s, history.present) };
     }
-    case 'select': return { ...s, selected: a.id };
-    case 'say': return { ...s, message: { text: a.text, bad: a.bad ?? false, ...(a.action ? { action: a.action } : {}) } };
-    case 'dismiss': return { ...s, message: null };
+    case 'select':
+      return { ...s, selected: a.id };
+    case 'say':
+      return { ...s, message: { text: a.text, bad: a.bad ?? false, ...(a.action ? { action: a.action } : {}) } };
+    case 'dismiss':
+      return { ...s, message: null };
     case 'hear': {
       const active = a.monitor === 'dry' ? s.active : a.monitor;
       return { ...s, monitor: a.monitor, active, selected: active === s.active ? s.selected : null };
     }
     // a clip never changes the input calibration by itself (its own figure is offered instead)
-    case 'clip': return { ...s, clip: a.clip, clipName: a.name, loop: null };
-    case 'calibration': return { ...s, calibrationVolts: a.volts };
-    case 'loop': return { ...s, loop: a.region };
-    case 'matched': return { ...s, matched: a.on };
-    case 'quality': return { ...s, quality: a.factor };
-    case 'guarded': return { ...s, guarded: a.on };
-    case 'cabinet': return { ...s, cabinet: a.key };
-    case 'live-choice': return { ...s, liveChoice: a.options };
-    case 'caution': return { ...s, caution: a.kind };
-    case 'scope-nodes': return { ...s, scopeNodes: a.nodes };
-    case 'tab': return { ...s, tab: a.tab };
+    case 'clip':
+      return { ...s, clip: a.clip, clipName: a.name, loop: null };
+    case 'calibration':
+      return { ...s, calibrationVolts: a.volts };
+    case 'loop':
+      return { ...s, loop: a.region };
+    case 'matched':
+      return { ...s, matched: a.on };
+    case 'quality':
+      return { ...s, quality: a.factor };
+    case 'guarded':
+      return { ...s, guarded: a.on };
+    case 'cabinet':
+      return { ...s, cabinet: a.key };
+    case 'live-choice':
+      return { ...s, liveChoice: a.options };
+    case 'caution':
+      return { ...s, caution: a.kind };
+    case 'scope-nodes':
+      return { ...s, scopeNodes: a.nodes };
+    case 'tab':
+      return { ...s, tab: a.tab };
   }
 }
 
@@ -131,7 +161,11 @@ export function playableProblem(d: Design): string | null {
   const hit = playableCache.get(d);
   if (hit !== undefined) return hit;
   let problem: string | null = null;
-  try { validateDesign(d); } catch (err) { problem = (err as Error).message; }
+  try {
+    validateDesign(d);
+  } catch (err) {
+    problem = (err as Error).message;
+  }
   playableCache.set(d, problem);
   return problem;
 }
@@ -162,7 +196,17 @@ export interface SyncTarget {
 
 export function portSettings(s: WorkspaceState): PortSettings {
   const { A, B } = s.history.present;
-  return { A, B, monitor: s.monitor, matched: s.matched, quality: s.quality, guarded: s.guarded, calibrationVolts: s.calibrationVolts, loop: s.loop, clip: s.clip };
+  return {
+    A,
+    B,
+    monitor: s.monitor,
+    matched: s.matched,
+    quality: s.quality,
+    guarded: s.guarded,
+    calibrationVolts: s.calibrationVolts,
+    loop: s.loop,
+    clip: s.clip,
+  };
 }
 
 /**
