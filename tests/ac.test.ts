@@ -1,5 +1,5 @@
 // Small-signal AC analysis against analytic results: a first-order RC (textbook response
-// H = 1/(1 + j·w·R·C)) and the triode gain formulas (check-values.md, textbook chapter,
+// H = 1/(1 + j·w·R·C)) and the triode gain formulas (an electronics textbook's vacuum-tube chapter, textbook chapter,
 // confirmed): bypassed A = mu·Rac/(rp + Rac), unbypassed A = mu·Rac/(rp + Rac + (mu+1)·Rk),
 // with mu and rp from the Koren model's own derivatives at the operating point.
 import { describe, expect, it } from 'vitest';
@@ -11,7 +11,7 @@ import { NETLIST_SCHEMA, type Netlist, type NetTriode } from '../src/dsp/circuit
 import { TRIODE_INTO_TRIODE } from '../src/dsp/circuit/templates.ts';
 import { korenTriode, newSlopes } from '../src/dsp/tubes/models.ts';
 
-const KOREN_12AX7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 } as const; // Koren 1996 set (check-values.md, confirmed)
+const KOREN_12AX7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 } as const; // Koren 1996 set (Koren 1996, published triode set, confirmed)
 
 describe('plain RC low-pass', () => {
   it('matches 1/(1 + j w R C) in magnitude and phase from 20 Hz to 20 kHz', () => {
@@ -80,7 +80,7 @@ describe('triode gain formulas against the Koren model', () => {
     expect(op.tubes.V1!.plateAmps).toBeCloseTo(1.07e-3, 5);
     expect(op.tubes.V1!.vgk).toBeCloseTo(-1.61, 2);
   });
-  it('mu and rp from the derivatives: gm 1.67 mA/V, rp 53.7 k at 250 V / -2 V (check-values.md, model)', () => {
+  it('mu and rp from the derivatives: gm 1.67 mA/V, rp 53.7 k at 250 V / -2 V (computed from the published model, model)', () => {
     const ss = tubeSmallSignal({ id: 'x', kind: 'triode', nodes: { plate: 'p', grid: 'g', cathode: 'k' }, model: KOREN_12AX7 }, -2, 250, 0);
     expect(ss.gmSiemens * 1e3).toBeCloseTo(1.67, 2);
     expect(ss.plateOhms / 1e3).toBeCloseTo(53.7, 1);

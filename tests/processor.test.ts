@@ -468,7 +468,7 @@ describe('click-free editing', () => {
 
   it('smooths a pot sweep: zipper noise measured against jumping and against a steady pot', () => {
     // Volume pot 0.35 -> 0.85 swept by 30 messages at 60 Hz (a UI drag), a 2 mV-peak 200 Hz input
-    // (below soft single-coil picking, 10-30 mV, check-values.md) so the circuit stays nearly linear.
+    // (below soft single-coil picking, 10-30 mV, pickup and DI level measurements, common practice) so the circuit stays nearly linear.
     const vol = part<PotPart>(TT, 'VOL');
     const x = sine(200, 0.01, Math.round(0.8 * FS));
     const init: ToProcessor[] = [

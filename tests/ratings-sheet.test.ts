@@ -1,6 +1,6 @@
 // Worst-case ratings sheet: a designed-in fault for each rating must be reported.
 // Ratings: tube library (data sheets, see src/dsp/tubes/library.ts); capacitor and resistor
-// buying rules: check-values.md "Power supply and ratings" (cold-start B+ on coupling caps:
+// buying rules: common practice, tube amplifier design references "Power supply and ratings" (cold-start B+ on coupling caps:
 // confirmed forum practice; 80 % / 50 % derating: from memory).
 import { describe, expect, it } from 'vitest';
 import { ratingsSheet } from '../src/dsp/analysis/ratings-sheet.ts';

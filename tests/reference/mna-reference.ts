@@ -1,4 +1,4 @@
-// Independent reference simulator for netlist-v1 (docs: /work/shared/specs/netlist-v1.md).
+// Independent reference simulator for netlist-v1 (docs: docs/netlist-v1.md).
 // Plain modified nodal analysis (MNA) over every element, trapezoidal-rule capacitor
 // companion models, full Newton-Raphson on the whole nodal system at every sample.
 // Written from the spec only; shares no code with src/. Used by tests, not by the product.

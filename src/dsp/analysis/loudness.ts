@@ -1,5 +1,5 @@
 // Loudness per ITU-R BS.1770-4 and EBU R128 / EBU Tech 3341 / Tech 3342.
-// BS.1770-4 (confirmed, check-values.md): K-weighting 48 kHz coefficients; L = -0.691 +
+// BS.1770-4 (confirmed, ITU-R BS.1770-4): K-weighting 48 kHz coefficients; L = -0.691 +
 // 10 log10(sum G_i z_i); 400 ms gating blocks with 75 % overlap; absolute gate -70 LKFS,
 // relative gate -10 LU. Tech 3342 LRA (from memory): 3 s short-term values, absolute gate
 // -70 LUFS, relative gate -20 LU, LRA = 95th - 10th percentile.
@@ -18,7 +18,7 @@ export interface KWeighting {
   readonly highPass: Biquad;
 }
 
-/** BS.1770-4 Table 1 and Table 2, 48 kHz (confirmed, check-values.md). */
+/** BS.1770-4 Table 1 and Table 2, 48 kHz (confirmed, ITU-R BS.1770-4). */
 export const K_WEIGHTING_48K: KWeighting = {
   shelf: {
     b: [1.53512485958697, -2.69169618940638, 1.19839281085285],

@@ -51,7 +51,7 @@ export interface RatingsOptions {
   /** Seconds per test frequency (default 0.2). */
   readonly maxInputSeconds?: number;
   readonly sampleRateHz?: number;
-  /** Derating: capacitors at 80 %, resistors at 50 % of rating (from memory, check-values.md). */
+  /** Derating: capacitors at 80 %, resistors at 50 % of rating (from memory). */
   readonly capacitorDerate?: number;
   readonly resistorDerate?: number;
   /** An operating point already computed for this design. */

@@ -6,7 +6,7 @@ import { tubeType } from '../tubes/library.ts';
 import { gainAt } from './ac.ts';
 import { makeRandom } from '../random.ts';
 
-/** Tube sample strength range, x nominal plate current (tube tester's article, check-values.md, confirmed). */
+/** Tube sample strength range, x nominal plate current (a tube tester's article on sample spread, confirmed). */
 export const TUBE_SPREAD = { low: 0.66, high: 1.33 } as const;
 /**
  * Tube-to-tube spread of the grid-cathode contact potential, volts: uniform within ±0.3 V, moving

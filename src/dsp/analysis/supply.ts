@@ -5,7 +5,7 @@
 // (ideal sine source + winding resistance + fixed diode drop) charging the
 // reservoir capacitor against a constant-current load. Everything after the
 // reservoir uses first-order RC formulas. See SUPPLY_APPROXIMATIONS.
-// Rules of thumb this reproduces (check-values.md, "Power supply", confirmed):
+// Rules of thumb this reproduces (common practice, tube amplifier design references, "Power supply", confirmed):
 // DC ≈ 1.41 × Vrms at light load less diode drops, about 1.3 × at full load for
 // a bridge; unloaded secondary 5-10 % above rating; ripple ≈ I/(2·f·C) full-wave.
 

@@ -389,7 +389,7 @@ export function partValueUpdates(part: Part): { id: string; value: number }[] {
 /**
  * Volts at the circuit input for a full-scale sample when nothing says otherwise: the workspace
  * and the command line (render --input-volts, pair --input-volts) start from this one figure.
- * 1 V peak is a hot humbucker chord (from memory; check-values "Guitar signals").
+ * 1 V peak is a hot humbucker chord (from memory; pickup and DI level measurements, common practice "Guitar signals").
  */
 export const DEFAULT_INPUT_VOLTS_AT_FULL_SCALE = 1;
 

@@ -25,7 +25,7 @@ export interface SecondarySpec {
   readonly rmsVolts: number;
   /** Rated RMS winding current, amperes (per half for 'full-wave-ct'). */
   readonly ratedAmps: number;
-  /** Unloaded rise above rating as a fraction; default 0.07 (5-10 %, check-values.md). */
+  /** Unloaded rise above rating as a fraction; default 0.07 (5-10 %, common practice, tube amplifier design references). */
   readonly regulationFraction?: number;
   /**
    * Secondary-referred winding resistance, ohms (per half for 'full-wave-ct').

@@ -1,5 +1,5 @@
 // Preferred-number series of IEC 60063:2015.
-// E12 and E24 tables as printed in the standard (project check-values.md,
+// E12 and E24 tables as printed in the standard (
 // confirmed); eight E24 values differ from 10^(n/24) rounding, so tables are used.
 // E6 (every second E12 value, ±20 %): KiCad pcb_calculator help, which cites IEC 60063.
 // E96 (±1 %): several independent public tables agree and all 96 equal

@@ -1,6 +1,6 @@
 // Standard ratings to buy. The rating lists are common practice (catalogue
 // values); derating electrolytics to ~80 % and resistors to ~50 % is from memory
-// (check-values.md, "Power supply and ratings").
+// (common practice, tube amplifier design references, "Power supply and ratings").
 
 /** Common capacitor DC voltage ratings, volts (common practice). */
 export const CAPACITOR_VOLTAGE_RATINGS_VOLTS: readonly number[] = [16, 25, 35, 50, 63, 100, 160, 200, 250, 350, 400, 450, 500, 630, 1000];
@@ -32,7 +32,7 @@ function nextRating(stress: number, derate: number, list: readonly number[], wha
 /**
  * Smallest common capacitor voltage rating R with volts ≤ derate × R.
  * Pass the highest voltage the part can ever see: with tubes cold at switch-on,
- * the full unloaded B+ stands on it (check-values.md, confirmed forum practice).
+ * the full unloaded B+ stands on it (common practice, tube amplifier design references, confirmed forum practice).
  */
 export function nextCapacitorVoltageRating(volts: number, options: { readonly derate?: number } = {}): RatingResult {
   return nextRating(Math.abs(volts), options.derate ?? 0.8, CAPACITOR_VOLTAGE_RATINGS_VOLTS, 'capacitor voltage', 'V');

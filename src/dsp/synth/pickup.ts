@@ -6,7 +6,7 @@ import { type AnalogBiquad, type Biquad, bilinear } from './biquad.ts';
 
 export interface PickupParams {
   readonly label: string;
-  /** Coil inductance, typically 1-10 H (check-values.md, guitar signals). */
+  /** Coil inductance, typically 1-10 H (pickup and DI level measurements, common practice, guitar signals). */
   readonly inductanceHenries: number;
   /** Winding self-capacitance, typically 80-200 pF (same source). */
   readonly windingCapacitanceFarads: number;
@@ -20,7 +20,7 @@ export interface PickupParams {
   readonly distanceFromBridgeMetres: number;
 }
 
-/** A single-coil-like bridge pickup into 600 pF of cable (values chosen inside the check-values ranges). */
+/** A single-coil-like bridge pickup into 600 pF of cable (values chosen inside the pickup and DI level measurements, common practice ranges). */
 export const SINGLE_COIL_BRIDGE: PickupParams = {
   label: 'single coil, bridge',
   inductanceHenries: 2.6,

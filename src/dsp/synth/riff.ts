@@ -55,7 +55,7 @@ export const STANDARD_GUITAR: Instrument = {
   openStringsHz: [64, 59, 55, 50, 45, 40].map(midiToHz),
 };
 
-/** Single notes from 10 mV (soft) to 30 mV (hard) peak: check-values.md, guitar signals (confirmed). */
+/** Single notes from 10 mV (soft) to 30 mV (hard) peak: pickup and DI level measurements, common practice, guitar signals (confirmed). */
 export const DEFAULT_SOFT_PEAK_VOLTS = 0.01;
 export const DEFAULT_HARD_PEAK_VOLTS = 0.03;
 export const DECAY_HIGH_REFERENCE_HZ = 3000;

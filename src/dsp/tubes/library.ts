@@ -516,7 +516,7 @@ export function tubeEnvelopes(): Readonly<Record<string, TubeEnvelope>> {
   return out;
 }
 
-/** Strong / nominal / weak sample factors (spread about 0.66-1.33 x, tube tester article in check-values). */
+/** Strong / nominal / weak sample factors (spread about 0.66-1.33 x, a tube tester's article on sample spread). */
 export const TUBE_SAMPLES = { weak: 0.7, nominal: 1, strong: 1.3 } as const;
 
 /** One envelope of a design: its sections' part ids (in design order) share its heater. */
